@@ -1,0 +1,25 @@
+"""kdvsweep: parameter sweeps of soliton interactions in the KdV family.
+
+A Rust pseudo-spectral core stepped from Python; see the README for the job and the quick start.
+"""
+
+from . import exact
+from .exceptions import ConfigError, KdvsweepError, NumericalError, ShapeError
+from .model import Equation, Grid
+from .simulation import SCHEMES, Simulation, invariants
+
+__version__ = "0.1.0"
+
+__all__ = [
+    "SCHEMES",
+    "ConfigError",
+    "Equation",
+    "Grid",
+    "KdvsweepError",
+    "NumericalError",
+    "ShapeError",
+    "Simulation",
+    "__version__",
+    "exact",
+    "invariants",
+]

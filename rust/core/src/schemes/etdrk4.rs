@@ -1,0 +1,144 @@
+//! ETDRK4 of Cox & Matthews (2002), with the coefficients evaluated as means over a circle of
+//! radius 1 around each `z = hL` in the complex plane (Kassam & Trefethen 2005), which avoids the
+//! cancellation of the direct formulas for small `|z|`.
+
+use std::f64::consts::PI;
+
+use num_complex::Complex64;
+use realfft::RealFftPlanner;
+
+use super::{symbol, zeros, CoeffCache, Scheme, Stepper};
+use crate::equation::Equation;
+use crate::error::Result;
+use crate::grid::Grid;
+use crate::spectral::{Nonlinear, Probe};
+
+/// Points on the contour: the trapezoidal rule converges geometrically for these entire functions,
+/// and 64 points reach round-off for the complex (dispersive) symbols used here.
+const CONTOUR_POINTS: usize = 64;
+
+/// The step-size-dependent coefficients of ETDRK4.
+pub(crate) struct EtdCoefficients {
+    e: Vec<Complex64>,
+    e2: Vec<Complex64>,
+    q: Vec<Complex64>,
+    f1: Vec<Complex64>,
+    f2: Vec<Complex64>,
+    f3: Vec<Complex64>,
+}
+
+impl EtdCoefficients {
+    pub(crate) fn new(lin: &[Complex64], h: f64) -> Self {
+        let m = lin.len();
+        let roots: Vec<Complex64> = (0..CONTOUR_POINTS)
+            .map(|j| Complex64::from_polar(1.0, PI * (2 * j + 1) as f64 / CONTOUR_POINTS as f64))
+            .collect();
+        let mut c = EtdCoefficients {
+            e: zeros(m),
+            e2: zeros(m),
+            q: zeros(m),
+            f1: zeros(m),
+            f2: zeros(m),
+            f3: zeros(m),
+        };
+        let scale = h / CONTOUR_POINTS as f64;
+        for (j, &l) in lin.iter().enumerate() {
+            let z0 = h * l;
+            c.e2[j] = (0.5 * z0).exp();
+            c.e[j] = c.e2[j] * c.e2[j];
+            let zero = Complex64::new(0.0, 0.0);
+            let (mut q, mut f1, mut f2, mut f3) = (zero, zero, zero, zero);
+            for &r in &roots {
+                let z = z0 + r;
+                let ez2 = (0.5 * z).exp();
+                let ez = ez2 * ez2;
+                let z2 = z * z;
+                let z3 = z2 * z;
+                q += (ez2 - 1.0) / z;
+                f1 += (-4.0 - z + ez * (4.0 - 3.0 * z + z2)) / z3;
+                f2 += (2.0 + z + ez * (z - 2.0)) / z3;
+                f3 += (-4.0 - 3.0 * z - z2 + ez * (4.0 - z)) / z3;
+            }
+            c.q[j] = scale * q;
+            c.f1[j] = scale * f1;
+            c.f2[j] = scale * f2;
+            c.f3[j] = scale * f3;
+        }
+        c
+    }
+}
+
+/// The ETDRK4 scheme.
+pub struct Etdrk4 {
+    lin: Vec<Complex64>,
+    cache: CoeffCache<EtdCoefficients>,
+    nl: Nonlinear,
+    a: Vec<Complex64>,
+    nv: Vec<Complex64>,
+    na: Vec<Complex64>,
+    nb: Vec<Complex64>,
+    nc: Vec<Complex64>,
+}
+
+impl Etdrk4 {
+    /// The scheme for `eq` on `grid`.
+    pub fn new(planner: &mut RealFftPlanner<f64>, grid: &Grid, eq: &Equation) -> Self {
+        let m = grid.modes();
+        Etdrk4 {
+            lin: symbol(grid, eq),
+            cache: CoeffCache::new(),
+            nl: Nonlinear::new(planner, grid, eq),
+            a: zeros(m),
+            nv: zeros(m),
+            na: zeros(m),
+            nb: zeros(m),
+            nc: zeros(m),
+        }
+    }
+}
+
+impl Stepper for Etdrk4 {
+    fn scheme(&self) -> Scheme {
+        Scheme::Etdrk4
+    }
+
+    fn step(&mut self, v: &mut [Complex64], h: f64) -> Result<Probe> {
+        let lin = &self.lin;
+        let c = self.cache.get(h, |h| EtdCoefficients::new(lin, h));
+        let kept = self.nl.kept();
+        self.nl.load(v);
+        let probe = self.nl.eval(&mut self.nv)?;
+        {
+            let input = self.nl.input();
+            for j in 0..kept {
+                self.a[j] = c.e2[j] * v[j] + c.q[j] * self.nv[j];
+                input[j] = self.a[j];
+            }
+        }
+        self.nl.eval(&mut self.na)?;
+        {
+            let input = self.nl.input();
+            for j in 0..kept {
+                input[j] = c.e2[j] * v[j] + c.q[j] * self.na[j];
+            }
+        }
+        self.nl.eval(&mut self.nb)?;
+        {
+            let input = self.nl.input();
+            for j in 0..kept {
+                input[j] = c.e2[j] * self.a[j] + c.q[j] * (2.0 * self.nb[j] - self.nv[j]);
+            }
+        }
+        self.nl.eval(&mut self.nc)?;
+        for j in 0..kept {
+            v[j] = c.e[j] * v[j]
+                + c.f1[j] * self.nv[j]
+                + 2.0 * c.f2[j] * (self.na[j] + self.nb[j])
+                + c.f3[j] * self.nc[j];
+        }
+        for j in kept..v.len() {
+            v[j] *= c.e[j];
+        }
+        Ok(probe)
+    }
+}

@@ -1,0 +1,107 @@
+//! Integrating-factor RK4: classical RK4 on `w = e^{-L t} v`, written back in `v` (the form of
+//! Trefethen 2000, Program 27), with `E = e^{hL/2}`.
+
+use num_complex::Complex64;
+use realfft::RealFftPlanner;
+
+use super::{symbol, zeros, CoeffCache, Exponentials, Scheme, Stepper};
+use crate::equation::Equation;
+use crate::error::Result;
+use crate::grid::Grid;
+use crate::spectral::{Nonlinear, Probe};
+
+/// Stage buffers of an IF-RK4 step, shared with the adaptive scheme built on it.
+pub(crate) struct IfStages {
+    pub(crate) nl: Nonlinear,
+    pub(crate) k1: Vec<Complex64>,
+    k2: Vec<Complex64>,
+    k3: Vec<Complex64>,
+    pub(crate) k4: Vec<Complex64>,
+    ev: Vec<Complex64>,
+}
+
+impl IfStages {
+    pub(crate) fn new(planner: &mut RealFftPlanner<f64>, grid: &Grid, eq: &Equation) -> Self {
+        let m = grid.modes();
+        IfStages {
+            nl: Nonlinear::new(planner, grid, eq),
+            k1: zeros(m),
+            k2: zeros(m),
+            k3: zeros(m),
+            k4: zeros(m),
+            ev: zeros(m),
+        }
+    }
+
+    /// Stages 2-4 given `k1 = N(v)` already in place; overwrites `v` with the new spectrum (every
+    /// mode of `v` is read before it is written, so no copy is needed).
+    pub(crate) fn finish(&mut self, v: &mut [Complex64], ex: &Exponentials, h: f64) -> Result<()> {
+        let kept = self.nl.kept();
+        let (e, e2) = (&ex.half, &ex.full);
+        let hh = 0.5 * h;
+        {
+            let input = self.nl.input();
+            for j in 0..kept {
+                self.ev[j] = e[j] * v[j];
+                input[j] = self.ev[j] + hh * e[j] * self.k1[j];
+            }
+        }
+        self.nl.eval(&mut self.k2)?;
+        {
+            let input = self.nl.input();
+            for j in 0..kept {
+                input[j] = self.ev[j] + hh * self.k2[j];
+            }
+        }
+        self.nl.eval(&mut self.k3)?;
+        {
+            let input = self.nl.input();
+            for j in 0..kept {
+                input[j] = e2[j] * v[j] + h * e[j] * self.k3[j];
+            }
+        }
+        self.nl.eval(&mut self.k4)?;
+        let h6 = h / 6.0;
+        for j in 0..kept {
+            v[j] = e2[j] * (v[j] + h6 * self.k1[j])
+                + h6 * (2.0 * e[j] * (self.k2[j] + self.k3[j]) + self.k4[j]);
+        }
+        for j in kept..v.len() {
+            v[j] *= e2[j];
+        }
+        Ok(())
+    }
+}
+
+/// The integrating-factor RK4 scheme.
+pub struct IfRk4 {
+    lin: Vec<Complex64>,
+    cache: CoeffCache<Exponentials>,
+    stages: IfStages,
+}
+
+impl IfRk4 {
+    /// The scheme for `eq` on `grid`.
+    pub fn new(planner: &mut RealFftPlanner<f64>, grid: &Grid, eq: &Equation) -> Self {
+        IfRk4 {
+            lin: symbol(grid, eq),
+            cache: CoeffCache::new(),
+            stages: IfStages::new(planner, grid, eq),
+        }
+    }
+}
+
+impl Stepper for IfRk4 {
+    fn scheme(&self) -> Scheme {
+        Scheme::IfRk4
+    }
+
+    fn step(&mut self, v: &mut [Complex64], h: f64) -> Result<Probe> {
+        let lin = &self.lin;
+        let ex = self.cache.get(h, |h| Exponentials::new(lin, h));
+        self.stages.nl.load(v);
+        let probe = self.stages.nl.eval(&mut self.stages.k1)?;
+        self.stages.finish(v, ex, h)?;
+        Ok(probe)
+    }
+}

@@ -1,0 +1,410 @@
+//! The driver: a state on a grid, a scheme, and the rules for reaching requested times.
+//!
+//! Fixed-step schemes cross an interval with the largest equal steps of at most `dt`, so the
+//! state at every requested time is exact to round-off; the adaptive scheme shortens its last
+//! step to land on the time. Every step checks the field it transformed anyway for non-finite
+//! values and for growth past the blow-up bound.
+
+use num_complex::Complex64;
+use realfft::RealFftPlanner;
+
+use crate::equation::Equation;
+use crate::error::{CoreError, Result};
+use crate::grid::Grid;
+use crate::schemes::{stepper, IfRk43, Scheme, Stepper};
+use crate::spectral::{Probe, Transforms};
+
+/// Steps between two calls of the caller's progress hook.
+pub const HOOK_STEPS: u64 = 256;
+
+/// Default blow-up bound as a multiple of `max(1, max|u0|)`.
+pub const DEFAULT_BOUND_FACTOR: f64 = 1e3;
+
+enum Driver {
+    Fixed(Box<dyn Stepper>),
+    Adaptive(Box<IfRk43>),
+}
+
+/// A simulation of one equation on one grid.
+pub struct Simulation {
+    grid: Grid,
+    scheme: Scheme,
+    driver: Driver,
+    transforms: Transforms,
+    spectrum: Vec<Complex64>,
+    spec_tmp: Vec<Complex64>,
+    phys: Vec<f64>,
+    time: f64,
+    steps: u64,
+    rejected: u64,
+    dt: f64,
+    tol: f64,
+    h_next: f64,
+    max_amplitude: Option<f64>,
+    bound: f64,
+}
+
+/// Checks a step size, tolerance or bound: finite and positive.
+fn positive(name: &'static str, value: f64) -> Result<f64> {
+    if value.is_finite() && value > 0.0 {
+        Ok(value)
+    } else {
+        Err(CoreError::invalid(name, value, "a finite positive number"))
+    }
+}
+
+impl Simulation {
+    /// A simulation starting from `u = 0` at `t = 0`.
+    ///
+    /// `dt` is the step (fixed schemes) or the first trial step (adaptive); `tol` the adaptive
+    /// scheme's relative L2 error per step; `max_amplitude` the blow-up bound on `max|u|`
+    /// (default [`DEFAULT_BOUND_FACTOR`] `* max(1, max|u0|)`, set with each state).
+    ///
+    /// # Errors
+    /// [`CoreError::InvalidParameter`] for `dt`, `tol` or `max_amplitude` not finite and positive,
+    /// or `tol >= 1`.
+    pub fn new(
+        grid: Grid,
+        eq: &Equation,
+        scheme: Scheme,
+        dt: f64,
+        tol: f64,
+        max_amplitude: Option<f64>,
+    ) -> Result<Self> {
+        positive("dt", dt)?;
+        positive("tol", tol)?;
+        if tol >= 1.0 {
+            return Err(CoreError::invalid(
+                "tol",
+                tol,
+                "a relative tolerance below 1",
+            ));
+        }
+        if let Some(b) = max_amplitude {
+            positive("max_amplitude", b)?;
+        }
+        let driver = match scheme {
+            Scheme::Adaptive => {
+                Driver::Adaptive(Box::new(IfRk43::new(&mut RealFftPlanner::new(), &grid, eq)))
+            }
+            _ => Driver::Fixed(stepper(scheme, &grid, eq)),
+        };
+        let m = grid.modes();
+        Ok(Simulation {
+            transforms: Transforms::new(&mut RealFftPlanner::new(), grid.n()),
+            spectrum: vec![Complex64::new(0.0, 0.0); m],
+            spec_tmp: vec![Complex64::new(0.0, 0.0); m],
+            phys: vec![0.0; grid.n()],
+            grid,
+            scheme,
+            driver,
+            time: 0.0,
+            steps: 0,
+            rejected: 0,
+            dt,
+            tol,
+            h_next: dt,
+            max_amplitude,
+            bound: max_amplitude.unwrap_or(DEFAULT_BOUND_FACTOR),
+        })
+    }
+
+    /// The grid.
+    pub fn grid(&self) -> &Grid {
+        &self.grid
+    }
+
+    /// The scheme.
+    pub fn scheme(&self) -> Scheme {
+        self.scheme
+    }
+
+    /// Current time.
+    pub fn time(&self) -> f64 {
+        self.time
+    }
+
+    /// Accepted steps since the state was set.
+    pub fn steps(&self) -> u64 {
+        self.steps
+    }
+
+    /// Rejected trial steps since the state was set (adaptive scheme only).
+    pub fn rejected(&self) -> u64 {
+        self.rejected
+    }
+
+    /// The blow-up bound in force.
+    pub fn bound(&self) -> f64 {
+        self.bound
+    }
+
+    /// Replaces the state by the profile `u` at time `time`; resets the step counters.
+    ///
+    /// # Errors
+    /// [`CoreError::ShapeMismatch`] if `u` does not have `n` values, [`CoreError::InvalidParameter`]
+    /// for a non-finite value or time.
+    pub fn set_state(&mut self, u: &[f64], time: f64) -> Result<()> {
+        let n = self.grid.n();
+        if u.len() != n {
+            return Err(CoreError::ShapeMismatch {
+                name: "u0",
+                expected: n,
+                got: u.len(),
+            });
+        }
+        if let Some(i) = u.iter().position(|x| !x.is_finite()) {
+            return Err(CoreError::invalid(
+                "u0",
+                format!("{} at index {i}", u[i]),
+                "finite values",
+            ));
+        }
+        if !time.is_finite() {
+            return Err(CoreError::invalid("time", time, "a finite number"));
+        }
+        let max_abs = u.iter().fold(0.0f64, |m, x| m.max(x.abs()));
+        self.phys.copy_from_slice(u);
+        self.transforms
+            .forward(&mut self.phys, &mut self.spectrum)?;
+        self.time = time;
+        self.steps = 0;
+        self.rejected = 0;
+        self.h_next = self.dt;
+        self.bound = self
+            .max_amplitude
+            .unwrap_or(DEFAULT_BOUND_FACTOR * max_abs.max(1.0));
+        if let Driver::Adaptive(a) = &mut self.driver {
+            a.reset();
+        }
+        Ok(())
+    }
+
+    /// Writes the current profile into `out` (`n` values).
+    ///
+    /// # Errors
+    /// [`CoreError::ShapeMismatch`] if `out` does not have `n` values.
+    pub fn state_into(&mut self, out: &mut [f64]) -> Result<()> {
+        let n = self.grid.n();
+        if out.len() != n {
+            return Err(CoreError::ShapeMismatch {
+                name: "out",
+                expected: n,
+                got: out.len(),
+            });
+        }
+        self.spec_tmp.copy_from_slice(&self.spectrum);
+        self.transforms.inverse(&mut self.spec_tmp, out)?;
+        let inv_n = 1.0 / n as f64;
+        out.iter_mut().for_each(|x| *x *= inv_n);
+        Ok(())
+    }
+
+    /// The current profile.
+    pub fn state(&mut self) -> Vec<f64> {
+        let mut out = vec![0.0; self.grid.n()];
+        // Cannot fail: `out` has the grid's length.
+        let _ = self.state_into(&mut out);
+        out
+    }
+
+    /// The current spectrum (unnormalised real-to-complex coefficients).
+    pub fn spectrum(&self) -> &[Complex64] {
+        &self.spectrum
+    }
+
+    fn check(&self, probe: Probe, time: f64) -> Result<()> {
+        if !probe.finite {
+            return Err(CoreError::NonFinite {
+                time,
+                step: self.steps,
+            });
+        }
+        if probe.max_abs > self.bound {
+            return Err(CoreError::BlowUp {
+                time,
+                step: self.steps,
+                max_abs: probe.max_abs,
+                bound: self.bound,
+            });
+        }
+        Ok(())
+    }
+
+    /// Advances by `duration` (at least 0).
+    ///
+    /// # Errors
+    /// As [`Simulation::advance_to`].
+    pub fn advance(&mut self, duration: f64) -> Result<()> {
+        if !(duration.is_finite() && duration >= 0.0) {
+            return Err(CoreError::invalid(
+                "duration",
+                duration,
+                "a finite number >= 0",
+            ));
+        }
+        self.advance_to(self.time + duration, &mut || true)?;
+        self.check_now()
+    }
+
+    /// Checks the current state for non-finite values and blow-up.
+    ///
+    /// # Errors
+    /// [`CoreError::NonFinite`] or [`CoreError::BlowUp`].
+    pub fn check_now(&mut self) -> Result<()> {
+        let mut phys = std::mem::take(&mut self.phys);
+        let result = self.state_into(&mut phys).and_then(|()| {
+            let max_abs = phys.iter().fold(0.0f64, |m, x| m.max(x.abs()));
+            let finite = phys.iter().sum::<f64>().is_finite();
+            self.check(Probe { max_abs, finite }, self.time)
+        });
+        self.phys = phys;
+        result
+    }
+
+    /// Advances to the time `target` (not before the current time). `hook` is called every
+    /// [`HOOK_STEPS`] steps; returning `false` stops with [`CoreError::Interrupted`], leaving a
+    /// valid state at the time reached.
+    ///
+    /// # Errors
+    /// [`CoreError::InvalidParameter`] for a target before the current time,
+    /// [`CoreError::NonFinite`] / [`CoreError::BlowUp`] when the run goes unstable,
+    /// [`CoreError::StepSizeUnderflow`] if the adaptive scheme cannot meet its tolerance.
+    pub fn advance_to(&mut self, target: f64, hook: &mut dyn FnMut() -> bool) -> Result<()> {
+        let span = target - self.time;
+        let slack = 1e-12 * self.time.abs().max(target.abs()).max(1.0);
+        if !target.is_finite() || span < -slack {
+            return Err(CoreError::invalid(
+                "time",
+                target,
+                format!("a finite time >= the current time {}", self.time),
+            ));
+        }
+        if span <= slack {
+            self.time = self.time.max(target);
+            return Ok(());
+        }
+        match &mut self.driver {
+            Driver::Fixed(_) => self.advance_fixed(target, span, hook),
+            Driver::Adaptive(_) => self.advance_adaptive(target, slack, hook),
+        }
+    }
+
+    fn advance_fixed(
+        &mut self,
+        target: f64,
+        span: f64,
+        hook: &mut dyn FnMut() -> bool,
+    ) -> Result<()> {
+        let ratio = span / self.dt;
+        // A span that is a whole number of steps up to round-off takes exactly that many.
+        let count = if (ratio - ratio.round()).abs() <= 1e-9 * ratio.max(1.0) {
+            ratio.round()
+        } else {
+            ratio.ceil()
+        }
+        .max(1.0) as u64;
+        let h = span / count as f64;
+        let start = self.time;
+        for i in 0..count {
+            let t = start + i as f64 * h;
+            let Driver::Fixed(stepper) = &mut self.driver else {
+                break;
+            };
+            let probe = stepper.step(&mut self.spectrum, h)?;
+            self.time = t;
+            self.check(probe, t)?;
+            self.steps += 1;
+            if self.steps % HOOK_STEPS == 0 && !hook() {
+                self.time = start + (i + 1) as f64 * h;
+                return Err(CoreError::Interrupted { time: self.time });
+            }
+        }
+        self.time = target;
+        Ok(())
+    }
+
+    fn advance_adaptive(
+        &mut self,
+        target: f64,
+        slack: f64,
+        hook: &mut dyn FnMut() -> bool,
+    ) -> Result<()> {
+        while target - self.time > slack {
+            let remaining = target - self.time;
+            let landing = self.h_next >= remaining;
+            let h = if landing { remaining } else { self.h_next };
+            let Driver::Adaptive(scheme) = &mut self.driver else {
+                break;
+            };
+            let attempt = scheme.attempt(&mut self.spectrum, h, self.tol)?;
+            if attempt.accepted {
+                self.time = if landing { target } else { self.time + h };
+                self.steps += 1;
+                self.check(attempt.probe, self.time)?;
+                // A step shortened to land on the target says nothing about the next one.
+                if !landing || attempt.h_next < self.h_next {
+                    self.h_next = attempt.h_next;
+                }
+                if self.steps % HOOK_STEPS == 0 && !hook() {
+                    return Err(CoreError::Interrupted { time: self.time });
+                }
+            } else {
+                self.rejected += 1;
+                self.h_next = attempt.h_next;
+                if self.h_next < 1e-14 * self.time.abs().max(1.0) {
+                    return Err(CoreError::StepSizeUnderflow {
+                        time: self.time,
+                        h: self.h_next,
+                    });
+                }
+            }
+        }
+        self.time = target;
+        Ok(())
+    }
+
+    /// Advances through the increasing `times` (all at least the current time) and writes the
+    /// profile at each into consecutive rows of `out` (`times.len() * n` values).
+    ///
+    /// # Errors
+    /// [`CoreError::ShapeMismatch`] for a wrongly sized `out`, [`CoreError::InvalidParameter`] for
+    /// decreasing or non-finite times, and the errors of [`Simulation::advance_to`].
+    pub fn record(
+        &mut self,
+        times: &[f64],
+        out: &mut [f64],
+        hook: &mut dyn FnMut() -> bool,
+    ) -> Result<()> {
+        let n = self.grid.n();
+        if out.len() != times.len() * n {
+            return Err(CoreError::ShapeMismatch {
+                name: "out",
+                expected: times.len() * n,
+                got: out.len(),
+            });
+        }
+        if let Some(i) = times.iter().position(|t| !t.is_finite()) {
+            return Err(CoreError::invalid(
+                "times",
+                format!("{} at index {i}", times[i]),
+                "finite times",
+            ));
+        }
+        if let Some(i) = times.windows(2).position(|w| w[1] < w[0]) {
+            return Err(CoreError::invalid(
+                "times",
+                format!("{} after {} at index {}", times[i + 1], times[i], i + 1),
+                "non-decreasing times",
+            ));
+        }
+        for (&t, row) in times.iter().zip(out.chunks_exact_mut(n)) {
+            self.advance_to(t, hook)?;
+            self.state_into(row)?;
+            let max_abs = row.iter().fold(0.0f64, |m, x| m.max(x.abs()));
+            let finite = row.iter().sum::<f64>().is_finite();
+            self.check(Probe { max_abs, finite }, self.time)?;
+        }
+        Ok(())
+    }
+}

@@ -1,0 +1,157 @@
+//! Real-to-complex transforms and the dealiased pseudo-spectral nonlinear term.
+//!
+//! Spectra are unnormalised (`v_j = sum_x u(x) e^{-i k_j x}`), as realfft returns them; the inverse
+//! transform is divided by `n` where physical values are needed.
+
+use std::sync::Arc;
+
+use num_complex::Complex64;
+use realfft::{ComplexToReal, RealFftPlanner, RealToComplex};
+
+use crate::equation::Equation;
+use crate::error::Result;
+use crate::grid::Grid;
+
+/// What a nonlinear evaluation saw of the physical field it transformed.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Probe {
+    /// `max |u|` over the grid.
+    pub max_abs: f64,
+    /// Whether every value was finite.
+    pub finite: bool,
+}
+
+/// A pair of real FFT plans of one size with their scratch buffers.
+pub struct Transforms {
+    r2c: Arc<dyn RealToComplex<f64>>,
+    c2r: Arc<dyn ComplexToReal<f64>>,
+    scratch_fwd: Vec<Complex64>,
+    scratch_inv: Vec<Complex64>,
+}
+
+impl Transforms {
+    /// Plans for `n` points.
+    pub fn new(planner: &mut RealFftPlanner<f64>, n: usize) -> Self {
+        let r2c = planner.plan_fft_forward(n);
+        let c2r = planner.plan_fft_inverse(n);
+        let scratch_fwd = r2c.make_scratch_vec();
+        let scratch_inv = c2r.make_scratch_vec();
+        Transforms {
+            r2c,
+            c2r,
+            scratch_fwd,
+            scratch_inv,
+        }
+    }
+
+    /// Forward transform; `input` is used as scratch and left undefined.
+    ///
+    /// # Errors
+    /// [`crate::CoreError::Fft`] on a length mismatch (callers size buffers from the grid).
+    pub fn forward(&mut self, input: &mut [f64], output: &mut [Complex64]) -> Result<()> {
+        Ok(self
+            .r2c
+            .process_with_scratch(input, output, &mut self.scratch_fwd)?)
+    }
+
+    /// Inverse transform (unnormalised); `input` is used as scratch and left undefined. The imaginary
+    /// parts of the first and the Nyquist mode are ignored (set to zero first).
+    ///
+    /// # Errors
+    /// [`crate::CoreError::Fft`] on a length mismatch.
+    pub fn inverse(&mut self, input: &mut [Complex64], output: &mut [f64]) -> Result<()> {
+        if let Some(first) = input.first_mut() {
+            first.im = 0.0;
+        }
+        if let Some(last) = input.last_mut() {
+            last.im = 0.0;
+        }
+        Ok(self
+            .c2r
+            .process_with_scratch(input, output, &mut self.scratch_inv)?)
+    }
+}
+
+/// The dealiased nonlinear term `N(v) = -i k P F[(a/2) u^2 + (b/3) u^3]`, `u = F^{-1}[P v]`, with
+/// `P` the projection on the modes kept by the dealiasing rule.
+///
+/// Callers write the modes `0..kept()` of the argument into [`Nonlinear::input`] (often fused with
+/// the stage arithmetic of a scheme) and call [`Nonlinear::eval`]; nothing is allocated per call.
+pub struct Nonlinear {
+    transforms: Transforms,
+    kept: usize,
+    k: Vec<f64>,
+    half_a: f64,
+    third_b: f64,
+    inv_n: f64,
+    phys: Vec<f64>,
+    input: Vec<Complex64>,
+}
+
+impl Nonlinear {
+    /// The nonlinear term of `eq` on `grid`.
+    pub fn new(planner: &mut RealFftPlanner<f64>, grid: &Grid, eq: &Equation) -> Self {
+        let n = grid.n();
+        let m = grid.modes();
+        // Keep j < dealias * n/2: for the power p, j < n/(p+1) is alias-free (Orszag 1971).
+        let cut = eq.dealias * n as f64 / 2.0;
+        let kept = ((cut - 1e-9).ceil() as usize).clamp(1, m);
+        let mut k = grid.wavenumbers();
+        k.iter_mut().skip(kept).for_each(|kj| *kj = 0.0);
+        Nonlinear {
+            transforms: Transforms::new(planner, n),
+            kept,
+            k,
+            half_a: 0.5 * eq.a,
+            third_b: eq.b / 3.0,
+            inv_n: 1.0 / n as f64,
+            phys: vec![0.0; n],
+            input: vec![Complex64::new(0.0, 0.0); m],
+        }
+    }
+
+    /// Number of modes kept by the dealiasing rule (modes `0..kept`).
+    pub fn kept(&self) -> usize {
+        self.kept
+    }
+
+    /// The argument buffer: fill modes `0..kept()` before [`Nonlinear::eval`].
+    pub fn input(&mut self) -> &mut [Complex64] {
+        &mut self.input[..self.kept]
+    }
+
+    /// Copies the kept modes of `v` into the argument buffer.
+    pub fn load(&mut self, v: &[Complex64]) {
+        let kept = self.kept;
+        self.input[..kept].copy_from_slice(&v[..kept]);
+    }
+
+    /// Evaluates the term at the argument buffer into `out` (all modes; zero beyond `kept()`).
+    ///
+    /// # Errors
+    /// [`crate::CoreError::Fft`] only if `out` does not have `n/2 + 1` modes.
+    pub fn eval(&mut self, out: &mut [Complex64]) -> Result<Probe> {
+        let kept = self.kept;
+        self.input[kept..].fill(Complex64::new(0.0, 0.0));
+        self.transforms.inverse(&mut self.input, &mut self.phys)?;
+        let (inv_n, ha, tb) = (self.inv_n, self.half_a, self.third_b);
+        let mut max_abs = 0.0f64;
+        let mut sum = 0.0;
+        for p in self.phys.iter_mut() {
+            let u = *p * inv_n;
+            sum += u;
+            max_abs = max_abs.max(u.abs());
+            *p = u * u * (ha + tb * u);
+        }
+        self.transforms.forward(&mut self.phys, out)?;
+        for (o, &kj) in out[..kept].iter_mut().zip(&self.k[..kept]) {
+            *o = Complex64::new(kj * o.im, -kj * o.re);
+        }
+        out[kept..].fill(Complex64::new(0.0, 0.0));
+        // NaN never wins a max, but it poisons a sum.
+        Ok(Probe {
+            max_abs,
+            finite: sum.is_finite(),
+        })
+    }
+}
