@@ -2,9 +2,8 @@
 
 from __future__ import annotations
 
-import numpy as np
-
 import kdvsweep as kv
+import numpy as np
 
 
 def periodic_soliton(

@@ -2,11 +2,10 @@
 
 from __future__ import annotations
 
+import kdvsweep as kv
 import numpy as np
 import pytest
 from conftest import periodic_soliton
-
-import kdvsweep as kv
 
 # (scheme, dt, max-norm tolerance over 20 time units). n and dt chosen by a convergence run:
 # the error of the 4th-order schemes is time-step limited (n = 512 resolves kappa = 1 to ~1e-12).
@@ -50,11 +49,14 @@ def test_exact_module_matches_independent_formula() -> None:
     grid = kv.Grid(256, 40.0)
     x = grid.x
     np.testing.assert_allclose(
-        kv.exact.soliton(x, 0.7, 1.1, -3.0), 2 * 1.1**2 / np.cosh(1.1 * (x - 4 * 1.21 * 0.7 + 3.0)) ** 2,
-        rtol=0, atol=1e-14,
+        kv.exact.soliton(x, 0.7, 1.1, -3.0),
+        2 * 1.1**2 / np.cosh(1.1 * (x - 4 * 1.21 * 0.7 + 3.0)) ** 2,
+        rtol=0,
+        atol=1e-14,
     )
     np.testing.assert_allclose(
         kv.exact.soliton(x, 0.7, 0.8, 2.0, equation="mkdv", sign=-1),
         -1.6 / np.cosh(1.6 * (x - 4 * 0.64 * 0.7 - 2.0)),
-        rtol=0, atol=1e-14,
+        rtol=0,
+        atol=1e-14,
     )

@@ -48,7 +48,11 @@ def multisoliton(
             raise ConfigError("exact: signs apply to mKdV solitons only")
         out = _core.kdv_multisoliton(xs, float(t), ks, cs, nonlin, disp)
     else:
-        sg = np.ones_like(ks) if signs is None else np.atleast_1d(np.asarray(signs, dtype=np.float64))
+        sg = (
+            np.ones_like(ks)
+            if signs is None
+            else np.atleast_1d(np.asarray(signs, dtype=np.float64))
+        )
         out = _core.mkdv_multisoliton(xs, float(t), ks, cs, np.ascontiguousarray(sg), nonlin, disp)
     return out.reshape(np.shape(x))
 
@@ -64,9 +68,7 @@ def soliton(
     """One soliton: ``2 kappa^2 sech^2(kappa (x - 4 kappa^2 t - x0))`` for KdV,
     ``2 kappa sech(2 kappa (x - 4 kappa^2 t - x0))`` for focusing mKdV (canonical forms)."""
     kind, _, _ = _coefficients(equation)
-    return multisoliton(
-        x, t, [kappa], [x0], equation, signs=None if kind == "kdv" else [sign]
-    )
+    return multisoliton(x, t, [kappa], [x0], equation, signs=None if kind == "kdv" else [sign])
 
 
 __all__ = ["multisoliton", "soliton"]

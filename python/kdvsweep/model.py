@@ -85,7 +85,9 @@ class Equation:
                 raise ConfigError(f"Equation: {key} must be finite, got {value}")
             object.__setattr__(self, key, float(value))
         if self.v < 0:
-            raise ConfigError(f"Equation: v (viscosity) must be >= 0 (ill-posed otherwise), got {self.v}")
+            raise ConfigError(
+                f"Equation: v (viscosity) must be >= 0 (ill-posed otherwise), got {self.v}"
+            )
         if self.dealias is not None and not (0.0 < float(self.dealias) <= 1.0):
             raise ConfigError(f"Equation: dealias must be in (0, 1], got {self.dealias}")
 

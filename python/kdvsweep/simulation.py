@@ -57,7 +57,9 @@ class Simulation:
         max_amplitude: float | None = None,
     ) -> None:
         if not isinstance(grid, Grid):
-            raise ConfigError(f"Simulation: grid must be a kdvsweep.Grid, got {type(grid).__name__}")
+            raise ConfigError(
+                f"Simulation: grid must be a kdvsweep.Grid, got {type(grid).__name__}"
+            )
         if not isinstance(equation, Equation):
             raise ConfigError(
                 f"Simulation: equation must be a kdvsweep.Equation, got {type(equation).__name__}"
@@ -65,7 +67,9 @@ class Simulation:
         if scheme not in SCHEMES:
             raise ConfigError(f"Simulation: unknown scheme {scheme!r}; expected one of {SCHEMES}")
         if tol is not None and scheme != "adaptive":
-            raise ConfigError(f"Simulation: tol applies to the adaptive scheme only, not {scheme!r}")
+            raise ConfigError(
+                f"Simulation: tol applies to the adaptive scheme only, not {scheme!r}"
+            )
         self.grid = grid
         self.equation = equation
         self.scheme = scheme

@@ -1,0 +1,77 @@
+//! A step allocates nothing (DESIGN.md: the core never allocates inside a step). A counting global
+//! allocator in this test binary sees every heap allocation.
+
+// Test helpers outside #[test] functions may unwrap: a failure is a test failure.
+#![allow(clippy::unwrap_used)]
+
+use std::alloc::{GlobalAlloc, Layout, System};
+use std::sync::atomic::{AtomicUsize, Ordering};
+
+use kdvsweep_core::schemes::{stepper, IfRk43};
+use kdvsweep_core::{exact, Equation, Grid, Scheme};
+use num_complex::Complex64;
+use realfft::RealFftPlanner;
+
+struct Counting;
+
+static ALLOCATIONS: AtomicUsize = AtomicUsize::new(0);
+
+// SAFETY: every call is forwarded unchanged to the system allocator.
+unsafe impl GlobalAlloc for Counting {
+    unsafe fn alloc(&self, layout: Layout) -> *mut u8 {
+        ALLOCATIONS.fetch_add(1, Ordering::SeqCst);
+        unsafe { System.alloc(layout) }
+    }
+    unsafe fn dealloc(&self, ptr: *mut u8, layout: Layout) {
+        unsafe { System.dealloc(ptr, layout) }
+    }
+}
+
+#[global_allocator]
+static GLOBAL: Counting = Counting;
+
+fn spectrum(grid: &Grid) -> Vec<Complex64> {
+    let x = grid.x();
+    let mut u = vec![0.0; x.len()];
+    exact::kdv_multisoliton(&x, 0.0, &[1.0, 0.6], &[-5.0, 0.0], 6.0, 1.0, &mut u).unwrap();
+    let r2c = RealFftPlanner::<f64>::new().plan_fft_forward(grid.n());
+    let mut v = r2c.make_output_vec();
+    r2c.process(&mut u, &mut v).unwrap();
+    v
+}
+
+#[test]
+fn steps_do_not_allocate() {
+    let start = ALLOCATIONS.load(Ordering::SeqCst);
+    let witness = std::hint::black_box(vec![1u8; 16]);
+    assert!(ALLOCATIONS.load(Ordering::SeqCst) > start, "the counter must see allocations");
+    drop(witness);
+    let grid = Grid::new(256, 40.0).unwrap();
+    let eq = Equation::kdv();
+    let mut v = spectrum(&grid);
+    for scheme in [Scheme::Etdrk4, Scheme::IfRk4, Scheme::Strang] {
+        let mut st = stepper(scheme, &grid, &eq);
+        st.step(&mut v, 1e-3).unwrap(); // builds the coefficient set for this step size
+        let before = ALLOCATIONS.load(Ordering::SeqCst);
+        for _ in 0..50 {
+            st.step(&mut v, 1e-3).unwrap();
+        }
+        assert_eq!(
+            ALLOCATIONS.load(Ordering::SeqCst),
+            before,
+            "{scheme} allocated in a step"
+        );
+    }
+    let mut adaptive = IfRk43::new(&mut RealFftPlanner::new(), &grid, &eq);
+    let mut h = 1e-3;
+    adaptive.attempt(&mut v, h, 1e-9).unwrap();
+    let before = ALLOCATIONS.load(Ordering::SeqCst);
+    for _ in 0..50 {
+        h = adaptive.attempt(&mut v, h, 1e-9).unwrap().h_next;
+    }
+    assert_eq!(
+        ALLOCATIONS.load(Ordering::SeqCst),
+        before,
+        "adaptive allocated in a step"
+    );
+}
