@@ -12,7 +12,7 @@ use crate::equation::Equation;
 use crate::error::{CoreError, Result};
 use crate::grid::Grid;
 use crate::schemes::{stepper, IfRk43, Scheme, Stepper};
-use crate::spectral::{Probe, Transforms};
+use crate::spectral::{probe, Probe, Transforms};
 
 /// Steps between two calls of the caller's progress hook.
 pub const HOOK_STEPS: u64 = 256;
@@ -253,11 +253,9 @@ impl Simulation {
     /// [`CoreError::NonFinite`] or [`CoreError::BlowUp`].
     pub fn check_now(&mut self) -> Result<()> {
         let mut phys = std::mem::take(&mut self.phys);
-        let result = self.state_into(&mut phys).and_then(|()| {
-            let max_abs = phys.iter().fold(0.0f64, |m, x| m.max(x.abs()));
-            let finite = phys.iter().sum::<f64>().is_finite();
-            self.check(Probe { max_abs, finite }, self.time)
-        });
+        let result = self
+            .state_into(&mut phys)
+            .and_then(|()| self.check(probe(&phys, 1.0), self.time));
         self.phys = phys;
         result
     }
@@ -401,9 +399,7 @@ impl Simulation {
         for (&t, row) in times.iter().zip(out.chunks_exact_mut(n)) {
             self.advance_to(t, hook)?;
             self.state_into(row)?;
-            let max_abs = row.iter().fold(0.0f64, |m, x| m.max(x.abs()));
-            let finite = row.iter().sum::<f64>().is_finite();
-            self.check(Probe { max_abs, finite }, self.time)?;
+            self.check(probe(row, 1.0), self.time)?;
         }
         Ok(())
     }

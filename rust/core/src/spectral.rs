@@ -130,28 +130,94 @@ impl Nonlinear {
     ///
     /// # Errors
     /// [`crate::CoreError::Fft`] only if `out` does not have `n/2 + 1` modes.
-    pub fn eval(&mut self, out: &mut [Complex64]) -> Result<Probe> {
-        let kept = self.kept;
-        self.input[kept..].fill(Complex64::new(0.0, 0.0));
-        self.transforms.inverse(&mut self.input, &mut self.phys)?;
+    pub fn eval(&mut self, out: &mut [Complex64]) -> Result<()> {
+        self.inverse_input()?;
+        self.flux();
+        self.forward_flux(out)
+    }
+
+    /// As [`Nonlinear::eval`], and reports on the field: schemes call it for the stage that
+    /// transforms the state itself, so the check costs no extra transform.
+    ///
+    /// # Errors
+    /// As [`Nonlinear::eval`].
+    pub fn eval_probed(&mut self, out: &mut [Complex64]) -> Result<Probe> {
+        self.inverse_input()?;
+        let probe = probe(&self.phys, self.inv_n);
+        self.flux();
+        self.forward_flux(out)?;
+        Ok(probe)
+    }
+
+    /// The flux `(a/2) u^2 + (b/3) u^3` in place (the transform left `n u` in `phys`).
+    fn flux(&mut self) {
         let (inv_n, ha, tb) = (self.inv_n, self.half_a, self.third_b);
-        let mut max_abs = 0.0f64;
-        let mut sum = 0.0;
         for p in self.phys.iter_mut() {
             let u = *p * inv_n;
-            sum += u;
-            max_abs = max_abs.max(u.abs());
             *p = u * u * (ha + tb * u);
         }
+    }
+
+    fn inverse_input(&mut self) -> Result<()> {
+        let kept = self.kept;
+        self.input[kept..].fill(Complex64::new(0.0, 0.0));
+        self.transforms.inverse(&mut self.input, &mut self.phys)
+    }
+
+    fn forward_flux(&mut self, out: &mut [Complex64]) -> Result<()> {
         self.transforms.forward(&mut self.phys, out)?;
+        let kept = self.kept;
         for (o, &kj) in out[..kept].iter_mut().zip(&self.k[..kept]) {
             *o = Complex64::new(kj * o.im, -kj * o.re);
         }
         out[kept..].fill(Complex64::new(0.0, 0.0));
-        // NaN never wins a max, but it poisons a sum.
-        Ok(Probe {
-            max_abs,
-            finite: sum.is_finite(),
-        })
+        Ok(())
+    }
+}
+
+/// `max |scale * u|` and whether every value is finite. Eight independent accumulators let the
+/// compiler vectorise the reductions (a single running max or sum is a serial dependency chain).
+pub fn probe(values: &[f64], scale: f64) -> Probe {
+    const LANES: usize = 8;
+    let mut max = [0.0f64; LANES];
+    let mut bad = [0.0f64; LANES];
+    let chunks = values.chunks_exact(LANES);
+    let tail = chunks.remainder();
+    for chunk in chunks {
+        for i in 0..LANES {
+            let x = chunk[i];
+            let a = x.abs();
+            max[i] = if a > max[i] { a } else { max[i] };
+            bad[i] += if x.is_finite() { 0.0 } else { 1.0 };
+        }
+    }
+    for &x in tail {
+        max[0] = max[0].max(x.abs());
+        bad[0] += if x.is_finite() { 0.0 } else { 1.0 };
+    }
+    let max_abs = max.iter().fold(0.0f64, |m, &v| m.max(v)) * scale.abs();
+    Probe {
+        max_abs,
+        finite: bad.iter().sum::<f64>() == 0.0,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::probe;
+
+    #[test]
+    fn probe_sees_every_kind_of_bad_value() {
+        let mut values: Vec<f64> = (0..37).map(|i| (i as f64 * 0.3).sin()).collect();
+        let ok = probe(&values, 2.0);
+        assert!(ok.finite);
+        let expected = values.iter().fold(0.0f64, |m, x| m.max(x.abs())) * 2.0;
+        assert_eq!(ok.max_abs, expected);
+        for (i, bad) in [(3, f64::NAN), (36, f64::INFINITY), (20, f64::NEG_INFINITY)] {
+            let saved = values[i];
+            values[i] = bad;
+            assert!(!probe(&values, 1.0).finite, "missed {bad} at {i}");
+            values[i] = saved;
+        }
     }
 }

@@ -44,7 +44,10 @@ fn spectrum(grid: &Grid) -> Vec<Complex64> {
 fn steps_do_not_allocate() {
     let start = ALLOCATIONS.load(Ordering::SeqCst);
     let witness = std::hint::black_box(vec![1u8; 16]);
-    assert!(ALLOCATIONS.load(Ordering::SeqCst) > start, "the counter must see allocations");
+    assert!(
+        ALLOCATIONS.load(Ordering::SeqCst) > start,
+        "the counter must see allocations"
+    );
     drop(witness);
     let grid = Grid::new(256, 40.0).unwrap();
     let eq = Equation::kdv();

@@ -90,7 +90,7 @@ impl IfRk43 {
         self.v_new.copy_from_slice(v);
         self.stages.finish(&mut self.v_new, &self.ex, h)?;
         self.stages.nl.load(&self.v_new);
-        let probe = self.stages.nl.eval(&mut self.k5)?;
+        let probe = self.stages.nl.eval_probed(&mut self.k5)?;
 
         let last = v.len() - 1;
         let (mut err2, mut norm2) = (0.0, 0.0);
@@ -142,7 +142,7 @@ impl Stepper for IfRk43 {
     fn step(&mut self, v: &mut [Complex64], h: f64) -> Result<Probe> {
         self.exponentials(h);
         self.stages.nl.load(v);
-        let probe = self.stages.nl.eval(&mut self.stages.k1)?;
+        let probe = self.stages.nl.eval_probed(&mut self.stages.k1)?;
         self.stages.finish(v, &self.ex, h)?;
         self.fsal = false;
         Ok(probe)

@@ -107,7 +107,7 @@ impl Stepper for Etdrk4 {
         let c = self.cache.get(h, |h| EtdCoefficients::new(lin, h));
         let kept = self.nl.kept();
         self.nl.load(v);
-        let probe = self.nl.eval(&mut self.nv)?;
+        let probe = self.nl.eval_probed(&mut self.nv)?;
         {
             let input = self.nl.input();
             for j in 0..kept {

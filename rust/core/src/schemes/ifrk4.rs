@@ -100,7 +100,7 @@ impl Stepper for IfRk4 {
         let lin = &self.lin;
         let ex = self.cache.get(h, |h| Exponentials::new(lin, h));
         self.stages.nl.load(v);
-        let probe = self.stages.nl.eval(&mut self.stages.k1)?;
+        let probe = self.stages.nl.eval_probed(&mut self.stages.k1)?;
         self.stages.finish(v, ex, h)?;
         Ok(probe)
     }

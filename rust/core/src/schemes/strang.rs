@@ -53,7 +53,7 @@ impl Stepper for Strang {
         self.nl.load(v);
         // The probe sees the state after the first linear half step: same max|u| for dispersion,
         // and finiteness is what matters.
-        let probe = self.nl.eval(&mut self.k1)?;
+        let probe = self.nl.eval_probed(&mut self.k1)?;
         {
             let input = self.nl.input();
             for j in 0..kept {
