@@ -10,10 +10,16 @@ CTLD_PID=/run/slurmctld.pid
 SLURMD_PID=/run/slurmd.pid
 
 say() { printf 'slurm-down: %s\n' "$*"; }
-alive() { [[ -f $1 ]] && kill -0 "$(cat "$1")" 2>/dev/null; }
+# A pid file is ours only if its process still runs the daemon it names: after a reboot or a
+# killed session the number may belong to something else, which must not be signalled.
+alive() { # pidfile daemon
+    local pid
+    [[ -f $1 ]] && pid=$(cat "$1" 2>/dev/null) && [[ $pid =~ ^[0-9]+$ ]] \
+        && [[ $(cat "/proc/$pid/comm" 2>/dev/null) == "$2" ]]
+}
 
 # Jobs first, while slurmctld and slurmd can still deliver the signals.
-if alive "$CTLD_PID" && command -v squeue >/dev/null; then
+if alive "$CTLD_PID" slurmctld && command -v squeue >/dev/null; then
     jobs=$(squeue -h -o %i 2>/dev/null | tr '\n' ' ')
     if [[ -n ${jobs// /} ]]; then
         say "cancelling jobs: $jobs"
@@ -29,23 +35,23 @@ if alive "$CTLD_PID" && command -v squeue >/dev/null; then
 fi
 
 status=0
-stop() { # pidfile name
+stop() { # pidfile daemon
     local pidfile=$1 name=$2 pid
-    if ! alive "$pidfile"; then
+    if ! alive "$pidfile" "$name"; then
         rm -f "$pidfile"
         return
     fi
     pid=$(cat "$pidfile")
     kill -TERM "$pid" 2>/dev/null
     for _ in $(seq 100); do
-        kill -0 "$pid" 2>/dev/null || break
+        alive "$pidfile" "$name" || break
         sleep 0.1
     done
-    if kill -0 "$pid" 2>/dev/null; then
+    if alive "$pidfile" "$name"; then
         say "$name (pid $pid) ignored SIGTERM for 10 s; sending SIGKILL"
         kill -KILL "$pid" 2>/dev/null
         sleep 0.5
-        kill -0 "$pid" 2>/dev/null && { say "$name (pid $pid) is still alive"; status=1; }
+        alive "$pidfile" "$name" && { say "$name (pid $pid) is still alive"; status=1; }
     fi
     rm -f "$pidfile"
     say "stopped $name (pid $pid)"

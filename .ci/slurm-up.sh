@@ -9,6 +9,7 @@
 # Everything it starts leaves a pid file under /run, which slurm-down.sh uses to stop exactly those
 # processes. Daemon logs go to /var/log/slurm and /var/log/munge.
 set -euo pipefail
+export PATH="$PATH:/usr/sbin:/sbin"  # the daemons live in sbin, not always on a CI job's PATH
 
 PARTITION="${KDVSWEEP_SLURM_PARTITION:-kdvq}"
 CONF_DIR=/etc/slurm
@@ -29,12 +30,19 @@ die() {
     done
     exit 1
 }
-alive() { [[ -f $1 ]] && kill -0 "$(cat "$1")" 2>/dev/null; }
+# A pid file is ours only if its process still runs the daemon it names: after a reboot or a
+# killed session the number may belong to something else, which must not be signalled.
+alive() { # pidfile daemon
+    local pid
+    [[ -f $1 ]] && pid=$(cat "$1" 2>/dev/null) && [[ $pid =~ ^[0-9]+$ ]] \
+        && [[ $(cat "/proc/$pid/comm" 2>/dev/null) == "$2" ]]
+}
 
 # A healthy cluster from an earlier call is left alone (a second call is cheap).
 healthy() {
     command -v sinfo >/dev/null 2>&1 || return 1
-    alive "$MUNGE_PID" && alive "$CTLD_PID" && alive "$SLURMD_PID" || return 1
+    alive "$MUNGE_PID" munged && alive "$CTLD_PID" slurmctld && alive "$SLURMD_PID" slurmd \
+        || return 1
     [[ $(sinfo -h -p "$PARTITION" -o %t 2>/dev/null) =~ ^(idle|mix|alloc)$ ]] || return 1
 }
 if healthy; then
@@ -51,26 +59,31 @@ if ! command -v slurmctld >/dev/null || ! command -v slurmd >/dev/null \
     say "installing slurmctld slurmd slurm-client munge"
     # No init system here: keep the packages' maintainer scripts from starting services; we start
     # the daemons ourselves below with known options. Only a policy file we created is removed.
-    made_policy=0
     if [[ ! -e /usr/sbin/policy-rc.d ]]; then
         printf '#!/bin/sh\nexit 101\n' >/usr/sbin/policy-rc.d
         chmod 755 /usr/sbin/policy-rc.d
-        made_policy=1
+        trap 'rm -f /usr/sbin/policy-rc.d' EXIT
     fi
     export DEBIAN_FRONTEND=noninteractive
-    apt-get update -qq
+    apt-get update -qq || die "apt-get update failed"
     apt-get install -y -qq --no-install-recommends \
         -o Dpkg::Options::=--force-confdef -o Dpkg::Options::=--force-confold \
-        slurmctld slurmd slurm-client munge >/dev/null
-    [[ $made_policy -eq 1 ]] && rm -f /usr/sbin/policy-rc.d
+        slurmctld slurmd slurm-client munge >/dev/null \
+        || die "apt-get install of slurmctld slurmd slurm-client munge failed"
     say "packages installed after $(($(date +%s) - T0)) s"
 fi
 
 # Leftovers of an earlier, broken start would hold ports or pid files: stop only what we started.
-for pidfile in "$SLURMD_PID" "$CTLD_PID" "$MUNGE_PID"; do
-    if alive "$pidfile"; then
+for daemon in slurmd slurmctld munged; do
+    case $daemon in
+        slurmd) pidfile=$SLURMD_PID ;;
+        slurmctld) pidfile=$CTLD_PID ;;
+        munged) pidfile=$MUNGE_PID ;;
+    esac
+    if alive "$pidfile" "$daemon"; then
+        say "stopping a $daemon left from an earlier start"
         kill "$(cat "$pidfile")" 2>/dev/null || true
-        sleep 1
+        for _ in $(seq 100); do alive "$pidfile" "$daemon" || break; sleep 0.1; done
     fi
     rm -f "$pidfile"
 done
@@ -88,8 +101,8 @@ if [[ ! -s /etc/munge/munge.key ]]; then
 fi
 chown munge:munge /etc/munge/munge.key
 chmod 0400 /etc/munge/munge.key
-runuser -u munge -- /usr/sbin/munged --pid-file="$MUNGE_PID"
-for _ in $(seq 50); do alive "$MUNGE_PID" && break; sleep 0.1; done
+runuser -u munge -- /usr/sbin/munged --pid-file="$MUNGE_PID" || die "munged did not start"
+for _ in $(seq 50); do alive "$MUNGE_PID" munged && break; sleep 0.1; done
 munge -n | unmunge >/dev/null || die "munge does not round-trip a credential"
 
 # --- 3. slurm.conf for this one machine --------------------------------------------------------
@@ -160,7 +173,7 @@ done
 [[ ${state:-} == idle ]] || die "node is '${state:-unknown}', expected idle"
 
 # --- 5. a real job -----------------------------------------------------------------------------
-out=$(timeout 60 srun -p "$PARTITION" -N 1 -n 1 -t 1 hostname) || die "srun failed"
+out=$(timeout 60 srun -p "$PARTITION" -N 1 -n 1 -t 1 hostname -s) || die "srun failed"
 [[ $out == "$HOST" ]] || die "srun printed '$out', expected '$HOST'"
 rm -f "$ERROR_NOTE"
 say "up after $(($(date +%s) - T0)) s: partition $PARTITION on $HOST, srun works"

@@ -7,8 +7,9 @@ run. Run with ``python examples/step_own_array.py`` (about a second).
 
 from __future__ import annotations
 
-import kdvsweep as kv
 import numpy as np
+
+import kdvsweep as kv
 
 
 def row(t: float, u: np.ndarray, inv: dict[str, float]) -> str:

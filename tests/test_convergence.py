@@ -9,9 +9,10 @@ from __future__ import annotations
 
 import itertools
 
-import kdvsweep as kv
 import numpy as np
 import pytest
+
+import kdvsweep as kv
 
 KAPPAS = (1.0, 0.6)
 X0S = (0.0, 0.0)

@@ -5,9 +5,10 @@ from __future__ import annotations
 import threading
 import time
 
-import kdvsweep as kv
 import numpy as np
 import pytest
+
+import kdvsweep as kv
 
 GRID = kv.Grid(256, 40.0)
 

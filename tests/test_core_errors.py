@@ -2,9 +2,10 @@
 
 from __future__ import annotations
 
-import kdvsweep as kv
 import numpy as np
 import pytest
+
+import kdvsweep as kv
 from kdvsweep import _core
 
 GRID = kv.Grid(64, 20.0)

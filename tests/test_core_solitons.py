@@ -2,10 +2,11 @@
 
 from __future__ import annotations
 
-import kdvsweep as kv
 import numpy as np
 import pytest
 from conftest import periodic_soliton
+
+import kdvsweep as kv
 
 # (scheme, dt, max-norm tolerance over 20 time units). n and dt chosen by a convergence run:
 # the error of the 4th-order schemes is time-step limited (n = 512 resolves kappa = 1 to ~1e-12).

@@ -3,7 +3,7 @@
 A Rust pseudo-spectral core stepped from Python; see the README for the job and the quick start.
 """
 
-from . import exact
+from . import analysis, exact, initial, spectrum, sweep, theory
 from .exceptions import ConfigError, KdvsweepError, NumericalError, ShapeError
 from .model import Equation, Grid
 from .simulation import SCHEMES, Simulation, invariants
@@ -20,6 +20,11 @@ __all__ = [
     "ShapeError",
     "Simulation",
     "__version__",
+    "analysis",
     "exact",
+    "initial",
     "invariants",
+    "spectrum",
+    "sweep",
+    "theory",
 ]

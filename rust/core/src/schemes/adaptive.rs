@@ -23,6 +23,9 @@ use crate::spectral::Probe;
 const SAFETY: f64 = 0.9;
 const MIN_FACTOR: f64 = 0.2;
 const MAX_FACTOR: f64 = 5.0;
+/// Growth below this factor keeps the step, so the exponentials are reused (step-size hysteresis;
+/// common practice, no source): recomputing them costs as much as the rest of a step.
+const HOLD_FACTOR: f64 = 1.25;
 
 /// The outcome of one trial step.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -40,8 +43,9 @@ pub struct Attempt {
 /// The adaptive IF-RK4(3) scheme.
 pub struct IfRk43 {
     lin: Vec<Complex64>,
-    ex: Exponentials,
-    h_ex: f64,
+    /// Exponentials for the two most recent step sizes, updated in place (no allocation); the
+    /// second slot holds the short landing step on a requested time.
+    ex: [(f64, Exponentials); 2],
     stages: IfStages,
     v_new: Vec<Complex64>,
     k5: Vec<Complex64>,
@@ -54,8 +58,10 @@ impl IfRk43 {
         let m = grid.modes();
         let lin = symbol(grid, eq);
         IfRk43 {
-            ex: Exponentials::new(&lin, 0.0),
-            h_ex: 0.0,
+            ex: [
+                (0.0, Exponentials::new(&lin, 0.0)),
+                (0.0, Exponentials::new(&lin, 0.0)),
+            ],
             lin,
             stages: IfStages::new(planner, grid, eq),
             v_new: zeros(m),
@@ -69,10 +75,15 @@ impl IfRk43 {
         self.fsal = false;
     }
 
+    /// Makes slot 0 hold the exponentials of `h`.
     fn exponentials(&mut self, h: f64) {
-        if h != self.h_ex {
-            self.ex.update(&self.lin, h);
-            self.h_ex = h;
+        if self.ex[0].0 == h {
+            return;
+        }
+        self.ex.swap(0, 1);
+        if self.ex[0].0 != h {
+            self.ex[0].1.update(&self.lin, h);
+            self.ex[0].0 = h;
         }
     }
 
@@ -88,7 +99,7 @@ impl IfRk43 {
             self.fsal = true;
         }
         self.v_new.copy_from_slice(v);
-        self.stages.finish(&mut self.v_new, &self.ex, h)?;
+        self.stages.finish(&mut self.v_new, &self.ex[0].1, h)?;
         self.stages.nl.load(&self.v_new);
         let probe = self.stages.nl.eval_probed(&mut self.k5)?;
 
@@ -119,6 +130,9 @@ impl IfRk43 {
             (SAFETY * (tol / error).powf(0.25)).clamp(MIN_FACTOR, MAX_FACTOR)
         };
         if accepted {
+            if (1.0..HOLD_FACTOR).contains(&factor) {
+                factor = 1.0;
+            }
             v.copy_from_slice(&self.v_new);
             std::mem::swap(&mut self.stages.k1, &mut self.k5);
         } else {
@@ -143,7 +157,7 @@ impl Stepper for IfRk43 {
         self.exponentials(h);
         self.stages.nl.load(v);
         let probe = self.stages.nl.eval_probed(&mut self.stages.k1)?;
-        self.stages.finish(v, &self.ex, h)?;
+        self.stages.finish(v, &self.ex[0].1, h)?;
         self.fsal = false;
         Ok(probe)
     }

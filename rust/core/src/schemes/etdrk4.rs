@@ -105,39 +105,41 @@ impl Stepper for Etdrk4 {
     fn step(&mut self, v: &mut [Complex64], h: f64) -> Result<Probe> {
         let lin = &self.lin;
         let c = self.cache.get(h, |h| EtdCoefficients::new(lin, h));
-        let kept = self.nl.kept();
+        let k = self.nl.kept();
+        // Slices of one length `k` let the compiler drop the bounds checks in the stage loops.
+        let (e, e2, q) = (&c.e[..k], &c.e2[..k], &c.q[..k]);
+        let (f1, f2, f3) = (&c.f1[..k], &c.f2[..k], &c.f3[..k]);
         self.nl.load(v);
         let probe = self.nl.eval_probed(&mut self.nv)?;
         {
-            let input = self.nl.input();
-            for j in 0..kept {
-                self.a[j] = c.e2[j] * v[j] + c.q[j] * self.nv[j];
-                input[j] = self.a[j];
+            let (input, a, nv, vk) = (self.nl.input(), &mut self.a[..k], &self.nv[..k], &v[..k]);
+            for j in 0..k {
+                a[j] = e2[j] * vk[j] + q[j] * nv[j];
+                input[j] = a[j];
             }
         }
         self.nl.eval(&mut self.na)?;
         {
-            let input = self.nl.input();
-            for j in 0..kept {
-                input[j] = c.e2[j] * v[j] + c.q[j] * self.na[j];
+            let (input, na, vk) = (self.nl.input(), &self.na[..k], &v[..k]);
+            for j in 0..k {
+                input[j] = e2[j] * vk[j] + q[j] * na[j];
             }
         }
         self.nl.eval(&mut self.nb)?;
         {
-            let input = self.nl.input();
-            for j in 0..kept {
-                input[j] = c.e2[j] * self.a[j] + c.q[j] * (2.0 * self.nb[j] - self.nv[j]);
+            let (input, a, nb, nv) = (self.nl.input(), &self.a[..k], &self.nb[..k], &self.nv[..k]);
+            for j in 0..k {
+                input[j] = e2[j] * a[j] + q[j] * (2.0 * nb[j] - nv[j]);
             }
         }
         self.nl.eval(&mut self.nc)?;
-        for j in 0..kept {
-            v[j] = c.e[j] * v[j]
-                + c.f1[j] * self.nv[j]
-                + 2.0 * c.f2[j] * (self.na[j] + self.nb[j])
-                + c.f3[j] * self.nc[j];
+        let (nv, na, nb, nc) = (&self.nv[..k], &self.na[..k], &self.nb[..k], &self.nc[..k]);
+        let (vk, tail) = v.split_at_mut(k);
+        for j in 0..k {
+            vk[j] = e[j] * vk[j] + f1[j] * nv[j] + 2.0 * f2[j] * (na[j] + nb[j]) + f3[j] * nc[j];
         }
-        for j in kept..v.len() {
-            v[j] *= c.e[j];
+        for (vj, ej) in tail.iter_mut().zip(&c.e[k..]) {
+            *vj *= ej;
         }
         Ok(probe)
     }

@@ -36,38 +36,40 @@ impl IfStages {
     /// Stages 2-4 given `k1 = N(v)` already in place; overwrites `v` with the new spectrum (every
     /// mode of `v` is read before it is written, so no copy is needed).
     pub(crate) fn finish(&mut self, v: &mut [Complex64], ex: &Exponentials, h: f64) -> Result<()> {
-        let kept = self.nl.kept();
-        let (e, e2) = (&ex.half, &ex.full);
+        let k = self.nl.kept();
+        // Slices of one length `k` let the compiler drop the bounds checks in the stage loops.
+        let (e, e2) = (&ex.half[..k], &ex.full[..k]);
         let hh = 0.5 * h;
         {
-            let input = self.nl.input();
-            for j in 0..kept {
-                self.ev[j] = e[j] * v[j];
-                input[j] = self.ev[j] + hh * e[j] * self.k1[j];
+            let (input, ev, k1, vk) = (self.nl.input(), &mut self.ev[..k], &self.k1[..k], &v[..k]);
+            for j in 0..k {
+                ev[j] = e[j] * vk[j];
+                input[j] = ev[j] + hh * e[j] * k1[j];
             }
         }
         self.nl.eval(&mut self.k2)?;
         {
-            let input = self.nl.input();
-            for j in 0..kept {
-                input[j] = self.ev[j] + hh * self.k2[j];
+            let (input, ev, k2) = (self.nl.input(), &self.ev[..k], &self.k2[..k]);
+            for j in 0..k {
+                input[j] = ev[j] + hh * k2[j];
             }
         }
         self.nl.eval(&mut self.k3)?;
         {
-            let input = self.nl.input();
-            for j in 0..kept {
-                input[j] = e2[j] * v[j] + h * e[j] * self.k3[j];
+            let (input, k3, vk) = (self.nl.input(), &self.k3[..k], &v[..k]);
+            for j in 0..k {
+                input[j] = e2[j] * vk[j] + h * e[j] * k3[j];
             }
         }
         self.nl.eval(&mut self.k4)?;
         let h6 = h / 6.0;
-        for j in 0..kept {
-            v[j] = e2[j] * (v[j] + h6 * self.k1[j])
-                + h6 * (2.0 * e[j] * (self.k2[j] + self.k3[j]) + self.k4[j]);
+        let (k1, k2, k3, k4) = (&self.k1[..k], &self.k2[..k], &self.k3[..k], &self.k4[..k]);
+        let (vk, tail) = v.split_at_mut(k);
+        for j in 0..k {
+            vk[j] = e2[j] * (vk[j] + h6 * k1[j]) + h6 * (2.0 * e[j] * (k2[j] + k3[j]) + k4[j]);
         }
-        for j in kept..v.len() {
-            v[j] *= e2[j];
+        for (vj, ej) in tail.iter_mut().zip(&ex.full[k..]) {
+            *vj *= ej;
         }
         Ok(())
     }

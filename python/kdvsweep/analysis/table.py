@@ -1,0 +1,455 @@
+"""One run's collision analysis: the per-soliton table and the per-run summary.
+
+:func:`analyse_run` never raises for what the physics or the record did (a record too short for an
+asymptotic fit, solitons lost): it reports ``analysis_status`` ``"ok"``, ``"too_short"`` or
+``"failed"`` with a sentence in ``analysis_reason``, so a sweep can store the run and go on.
+:func:`collision_table` is the strict form: it raises :class:`~kdvsweep.ConfigError` (a
+``ValueError``) carrying that sentence when the status is not ``"ok"``.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from .. import theory
+from ..exceptions import ConfigError
+from ..model import Equation, Grid
+from .fits import MIN_FRAMES, AsymptoticFit, fit_asymptotes
+from .peaks import count_peaks
+from .tracks import Tracks, check_record, track
+
+DEFAULT_SEPARATION = 16.0
+
+TABLE_COLUMNS = (
+    "soliton",
+    "sign",
+    "kappa",
+    "kappa_measured",
+    "kappa_from_height",
+    "speed",
+    "speed_before",
+    "speed_after",
+    "amplitude",
+    "collisions",
+    "offset_before",
+    "offset_after",
+    "shift_predicted",
+    "shift_measured",
+    "shift_error",
+    "shift_rel_error",
+    "shift_uncertainty",
+    "fit_residual",
+    "frames_before",
+    "frames_after",
+)
+
+
+@dataclass
+class RunAnalysis:
+    """What :func:`analyse_run` found.
+
+    Attributes
+    ----------
+    table
+        One row per soliton (columns ``TABLE_COLUMNS``), numbered left to right at the first frame.
+    summary
+        Per-run values: ``analysis_status``, ``analysis_reason``, ``n_solitons``, ``regime``,
+        ``amplitude_ratio``, ``peaks_at_closest``, ``min_peaks``, ``t_closest``,
+        ``radiation_energy``, ``radiation_fraction``, ``frames_before``, ``frames_after``,
+        ``separation``, and ``drift_<name>`` for each invariant series given.
+    tracks
+        The tracked positions (for plots).
+    fits
+        The asymptotic fit of each soliton (empty unless the status is ``"ok"``).
+    before, after
+        Boolean masks of the frames used in the fit windows.
+    """
+
+    table: pd.DataFrame
+    summary: dict[str, Any]
+    tracks: Tracks
+    fits: list[AsymptoticFit] = field(default_factory=list)
+    before: np.ndarray | None = None
+    after: np.ndarray | None = None
+
+    @property
+    def ok(self) -> bool:
+        """True when the shifts were measured."""
+        return self.summary["analysis_status"] == "ok"
+
+
+def _equation(equation: str | Equation) -> Equation:
+    if isinstance(equation, Equation):
+        eq = equation
+    elif isinstance(equation, str):
+        eq = Equation.preset(equation)
+    else:
+        raise ConfigError(
+            f"analysis: equation must be a preset name or a kdvsweep.Equation, got {equation!r}"
+        )
+    theory.family(eq)  # raises ConfigError for an equation without these solitons
+    return eq
+
+
+def _windows(tracks: Tracks) -> tuple[np.ndarray, np.ndarray, np.ndarray, str, str]:
+    """Masks of the fit windows, collision counts per pair, status and reason."""
+    m = tracks.times.size
+    none = np.zeros(m, dtype=bool)
+    npairs = len(tracks.pairs())
+    counts = np.zeros(npairs)
+    sep = tracks.separated
+    s = tracks.separation
+    if not sep.any():
+        return (
+            none,
+            none,
+            counts,
+            "too_short",
+            (
+                f"no frame has the solitons {s:g} tail lengths 1/(2 kappa) apart both ways round; "
+                "use a longer domain, or a smaller separation="
+            ),
+        )
+    laps = tracks.laps()
+    first, last = int(np.argmax(sep)), int(m - 1 - np.argmax(sep[::-1]))
+    before = sep & np.all(laps == laps[first], axis=1)
+    after = sep & np.all(laps == laps[last], axis=1)
+    counts = np.abs(laps[last] - laps[first]) if npairs else counts
+    if npairs == 0 or not counts.any():
+        return (
+            before,
+            none,
+            counts,
+            "too_short",
+            (
+                "no collision completes within the record: the solitons are never seen "
+                f"{s:g} tail lengths apart after meeting (record ends at t = {tracks.times[-1]:g})"
+            ),
+        )
+    nb, na = int(before.sum()), int(after.sum())
+    if nb < MIN_FRAMES or na < MIN_FRAMES:
+        return (
+            before,
+            after,
+            counts,
+            "too_short",
+            (
+                f"record too short for an asymptotic fit: {nb} frame(s) before and {na} after the "
+                f"collision have the solitons {s:g} tail lengths apart; need {MIN_FRAMES} in each"
+            ),
+        )
+    return before, after, counts, "ok", ""
+
+
+def _collision_matrix(n: int, pairs: Sequence[tuple[int, int]], counts: np.ndarray) -> np.ndarray:
+    mat = np.zeros((n, n))
+    for (i, j), c in zip(pairs, counts, strict=True):
+        mat[i, j] = mat[j, i] = c
+    return mat
+
+
+def _soliton_profile(
+    x: np.ndarray, kappa: float, centre: float, sign: int, eq: Equation, length: float
+) -> np.ndarray:
+    """The canonical soliton shape, scaled to ``eq``, with its two nearest periodic images."""
+    fam = theory.family(eq)
+    height = float(theory.amplitudes([kappa], eq)[0])
+    out = np.zeros_like(x)
+    for image in (-length, 0.0, length):
+        arg = 2.0 * kappa * (x - centre - image) if fam == "mkdv" else kappa * (x - centre - image)
+        e = np.exp(-np.abs(arg))
+        sech = 2.0 * e / (1.0 + e * e)  # 1/cosh without overflow
+        out += sign * height * (sech if fam == "mkdv" else sech**2)
+    return out
+
+
+def _radiation(
+    frame: np.ndarray,
+    grid: Grid,
+    t: float,
+    kappas: np.ndarray,
+    fits: list[AsymptoticFit],
+    signs: np.ndarray,
+    eq: Equation,
+) -> tuple[float, float]:
+    """L2 energy ``int r^2 dx`` of what is left of the last frame after removing the solitons."""
+    x = grid.x
+    resid = frame.copy()
+    for kappa, fit, sign in zip(kappas, fits, signs, strict=True):
+        centre = (fit.speed * t + fit.offset_after + 0.5 * grid.length) % grid.length
+        resid -= _soliton_profile(
+            x, float(kappa), centre - 0.5 * grid.length, int(sign), eq, grid.length
+        )
+    energy = float(np.sum(resid**2) * grid.dx)
+    total = float(np.sum(frame**2) * grid.dx)
+    return energy, energy / total if total > 0 else math.nan
+
+
+def _drifts(invariants: Mapping[str, object] | Sequence[Mapping[str, float]] | None) -> dict:
+    """``drift_<name>`` = max |I(t) - I(t0)| / |I(t0)| for each invariant series given."""
+    if invariants is None:
+        return {}
+    if isinstance(invariants, Mapping):
+        series = {k: np.asarray(v, float) for k, v in invariants.items()}
+    else:
+        rows = list(invariants)
+        series = {k: np.array([r[k] for r in rows], float) for k in (rows[0] if rows else {})}
+    out = {}
+    for name, vals in series.items():
+        if vals.size == 0:
+            continue
+        ref = abs(vals[0]) if vals[0] != 0 else 1.0
+        out[f"drift_{name}"] = float(np.max(np.abs(vals - vals[0])) / ref)
+    return out
+
+
+def _closest_approach(
+    tracks: Tracks, fits: list[AsymptoticFit], before: np.ndarray, after: np.ndarray
+) -> float:
+    """Time at which the two mid-lines (halfway between asymptotes) meet: the symmetric instant."""
+    f1, f2 = fits
+    mid1 = 0.5 * (f1.offset_before + f1.offset_after)
+    mid2 = 0.5 * (f2.offset_before + f2.offset_after)
+    dc = f1.speed - f2.speed
+    if dc == 0:
+        return math.nan
+    lap_b = tracks.laps()[before][0, 0]
+    lap_a = tracks.laps()[after][0, 0]
+    # X_1 - X_2 crosses the multiple of L between the two windows' lap indices.
+    crossing = max(lap_b, lap_a) * tracks.length
+    return float((crossing - (mid1 - mid2)) / dc)
+
+
+def _peak_census(
+    u: np.ndarray,
+    tracks: Tracks,
+    t_closest: float,
+    before: np.ndarray,
+    after: np.ndarray,
+    signs: tuple[int, ...],
+) -> tuple[float, float]:
+    """Extrema above threshold at the frame nearest the closest approach, and the fewest between."""
+    t = tracks.times
+    last_b, first_a = int(np.flatnonzero(before)[-1]), int(np.flatnonzero(after)[0])
+    between = np.arange(last_b + 1, first_a)
+    min_peaks = float(tracks.peak_count[between].min()) if between.size else math.nan
+    if not math.isfinite(t_closest) or between.size == 0:
+        return math.nan, min_peaks
+    f = int(between[np.argmin(np.abs(t[between] - t_closest))])
+    return float(count_peaks(u[f], tracks.length, tracks.threshold, signs)), min_peaks
+
+
+def analyse_run(
+    frames: object,
+    times: object,
+    grid: Grid,
+    equation: str | Equation = "kdv",
+    kappas: object | None = None,
+    separation: float = DEFAULT_SEPARATION,
+    threshold: float | None = None,
+    invariants: Mapping[str, object] | Sequence[Mapping[str, float]] | None = None,
+) -> RunAnalysis:
+    """Track the solitons of a record, fit their asymptotes and set the shifts against theory.
+
+    Parameters
+    ----------
+    frames, times
+        A record, e.g. ``sim.record(times)``: shape ``(m, grid.n)`` and ``(m,)``.
+    grid
+        The grid of the frames.
+    equation
+        Preset name or :class:`~kdvsweep.Equation`, KdV or focusing mKdV family (perturbed ones
+        too: the prediction is then the integrable one).
+    kappas
+        The solitons' kappas, left to right at the first frame. They give ``shift_predicted``
+        (else the measured kappas do) and the expected number and heights of solitons.
+    separation
+        Fit windows are the frames where every pair is at least this many tail lengths
+        ``1/(2 kappa)`` (of the wider soliton) apart both ways round the domain: the tail overlap
+        then biases positions by about ``exp(-separation)`` of a width.
+    threshold
+        Ignore extrema lower than this (default: a quarter of the smallest soliton's height).
+    invariants
+        Optional invariant series over the frames (``{"mass": [...], ...}`` or a list of dicts);
+        gives ``drift_<name>`` in the summary.
+
+    Returns
+    -------
+    RunAnalysis
+        ``summary["analysis_status"]`` is ``"ok"``, ``"too_short"`` (no fit windows: the reason
+        says which one is missing and what to change) or ``"failed"`` (solitons not found or lost).
+    """
+    if not isinstance(grid, Grid):
+        raise ConfigError(f"analysis: grid must be a kdvsweep.Grid, got {type(grid).__name__}")
+    if not (math.isfinite(separation) and separation > 0):
+        raise ConfigError(f"analysis: separation must be a positive number, got {separation}")
+    eq = _equation(equation)
+    u, t = check_record(frames, times, grid.n)
+    given = None if kappas is None else np.atleast_1d(np.asarray(kappas, dtype=np.float64))
+    if given is not None:
+        theory.amplitudes(given, eq)  # validates: finite, positive
+    tracks = track(u, t, grid.length, eq, given, threshold, separation, min(6.0, separation))
+    n_sol = tracks.n_solitons
+    summary: dict[str, Any] = {
+        "analysis_status": "ok",
+        "analysis_reason": "",
+        "n_solitons": n_sol,
+        "regime": None,
+        "amplitude_ratio": math.nan,
+        "peaks_at_closest": math.nan,
+        "min_peaks": math.nan,
+        "t_closest": math.nan,
+        "radiation_energy": math.nan,
+        "radiation_fraction": math.nan,
+        "frames_before": 0,
+        "frames_after": 0,
+        "separation": float(separation),
+        **_drifts(invariants),
+    }
+    rows = _empty_rows(tracks, given, eq)
+    if tracks.reason:
+        summary.update(analysis_status="failed", analysis_reason=tracks.reason)
+        return RunAnalysis(_frame(rows), summary, tracks)
+    before, after, counts, status, reason = _windows(tracks)
+    summary.update(
+        analysis_status=status,
+        analysis_reason=reason,
+        frames_before=int(before.sum()),
+        frames_after=int(after.sum()),
+    )
+    _fill_speeds(rows, tracks, before | after, eq)
+    if status != "ok":
+        return RunAnalysis(_frame(rows), summary, tracks, [], before, after)
+    fits = [
+        fit_asymptotes(t[before], tracks.position[before, i], t[after], tracks.position[after, i])
+        for i in range(n_sol)
+    ]
+    measured = theory.kappa_from_speed([f.speed for f in fits], eq)
+    use = given if given is not None else measured
+    coll = _collision_matrix(n_sol, tracks.pairs(), counts)
+    predicted = (
+        theory.phase_shifts(use, eq, coll)
+        if np.all(np.isfinite(use)) and np.unique(use).size == use.size
+        else np.full(n_sol, np.nan)
+    )
+    for i, (row, fit) in enumerate(zip(rows, fits, strict=True)):
+        err = abs(fit.shift - predicted[i])
+        row.update(
+            kappa_measured=float(measured[i]),
+            speed=fit.speed,
+            speed_before=fit.speed_before,
+            speed_after=fit.speed_after,
+            collisions=int(coll[i].sum()),
+            offset_before=fit.offset_before,
+            offset_after=fit.offset_after,
+            shift_predicted=float(predicted[i]),
+            shift_measured=fit.shift,
+            shift_error=err,
+            shift_rel_error=err / abs(predicted[i]) if predicted[i] != 0 else math.nan,
+            shift_uncertainty=fit.uncertainty,
+            fit_residual=fit.residual_rms,
+            frames_before=fit.n_before,
+            frames_after=fit.n_after,
+        )
+        if given is None:
+            row["kappa"] = float(measured[i])
+    summary.update(_pair_summary(u, tracks, fits, before, after, use, eq))
+    energy, fraction = _radiation(u[-1], grid, t[-1], measured, fits, tracks.sign, eq)
+    summary.update(radiation_energy=energy, radiation_fraction=fraction)
+    return RunAnalysis(_frame(rows), summary, tracks, fits, before, after)
+
+
+def _empty_rows(tracks: Tracks, given: np.ndarray | None, eq: Equation) -> list[dict[str, Any]]:
+    rows = []
+    for i in range(tracks.n_solitons):
+        row: dict[str, Any] = dict.fromkeys(TABLE_COLUMNS, math.nan)
+        row.update(
+            soliton=i, sign=int(tracks.sign[i]), collisions=0, frames_before=0, frames_after=0
+        )
+        if given is not None and i < given.size:
+            row["kappa"] = float(given[i])
+        rows.append(row)
+    return rows
+
+
+def _fill_speeds(rows: list[dict], tracks: Tracks, window: np.ndarray, eq: Equation) -> None:
+    """Heights (and kappa from them) averaged over the separated frames, whatever the status."""
+    use = window if window.any() else tracks.linked
+    for i, row in enumerate(rows):
+        h = np.abs(tracks.height[use, i])
+        if h.size:
+            amp = float(np.mean(h))
+            row.update(amplitude=amp, kappa_from_height=float(theory.kappa_from_amplitude(amp, eq)))
+
+
+def _pair_summary(
+    u: np.ndarray,
+    tracks: Tracks,
+    fits: list[AsymptoticFit],
+    before: np.ndarray,
+    after: np.ndarray,
+    kappas: np.ndarray,
+    eq: Equation,
+) -> dict[str, Any]:
+    out: dict[str, Any] = {}
+    if len(fits) != 2:
+        between = np.arange(int(np.flatnonzero(before)[-1]) + 1, int(np.flatnonzero(after)[0]))
+        if between.size:
+            out["min_peaks"] = float(tracks.peak_count[between].min())
+        return out
+    t_c = _closest_approach(tracks, fits, before, after)
+    at_closest, fewest = _peak_census(u, tracks, t_c, before, after, theory.polarities(eq))
+    out.update(t_closest=t_c, peaks_at_closest=at_closest, min_peaks=fewest)
+    if theory.family(eq) == "kdv" and np.all(np.isfinite(kappas)) and kappas[0] != kappas[1]:
+        out.update(
+            regime=theory.interaction_regime(kappas[0], kappas[1]),
+            amplitude_ratio=theory.amplitude_ratio(kappas[0], kappas[1]),
+        )
+    return out
+
+
+def _frame(rows: list[dict[str, Any]]) -> pd.DataFrame:
+    df = pd.DataFrame(rows, columns=list(TABLE_COLUMNS))
+    return df.astype(
+        {
+            "soliton": "int64",
+            "sign": "int64",
+            "collisions": "int64",
+            "frames_before": "int64",
+            "frames_after": "int64",
+        }
+    )
+
+
+def collision_table(
+    frames: object,
+    times: object,
+    grid: Grid,
+    equation: str | Equation = "kdv",
+    kappas: object | None = None,
+    **options: Any,
+) -> pd.DataFrame:
+    """The per-soliton table of :func:`analyse_run`; raises if the shifts could not be measured.
+
+    Raises
+    ------
+    ConfigError
+        With the reason, when the record is too short for an asymptotic fit or the solitons
+        cannot be tracked (``analysis_status`` ``"too_short"`` or ``"failed"``).
+    """
+    result = analyse_run(frames, times, grid, equation, kappas, **options)
+    if not result.ok:
+        raise ConfigError(
+            f"collision_table: {result.summary['analysis_status']}: "
+            f"{result.summary['analysis_reason']}"
+        )
+    return result.table
+
+
+__all__ = ["DEFAULT_SEPARATION", "TABLE_COLUMNS", "RunAnalysis", "analyse_run", "collision_table"]

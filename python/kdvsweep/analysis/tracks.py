@@ -1,0 +1,329 @@
+"""Following solitons through a record: peaks per frame, linking across frames, unwrapping.
+
+The solitons are the extrema of the first frame that stand above the radiation; they are numbered
+left to right. Each later frame is *linked* when every soliton can be matched to one of its extrema
+(same sign, nearly the same height, near the position its last speed predicts) and all solitons are
+at least ``link_separation`` tail lengths apart: closer than that the humps trade mass (Lax's
+exchange regime) and a match by position could swap identities, so such frames are skipped and the
+identities are recovered by height once the solitons separate. Extrema that match no soliton are
+radiation or noise and are ignored; so is a soliton-like bump that does not persist.
+
+Positions are unwrapped on the periodic domain: each match moves the soliton by its predicted
+displacement plus the shortest arc to the extremum found.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from itertools import combinations
+
+import numpy as np
+from scipy.optimize import linear_sum_assignment
+
+from .. import theory
+from ..exceptions import ConfigError, ShapeError
+from ..model import Equation
+from .peaks import Peaks, find_peaks, find_peaks_many
+
+# Frame-0 extrema below this fraction of max|u| are radiation, when no kappas are given.
+RADIATION_LEVEL = 0.05
+# Later extrema below this fraction of the smallest soliton are ignored.
+THRESHOLD_FRACTION = 0.25
+# Matching tolerance on |ln(height ratio)| between frames (heights of linked solitons are
+# accurate to ~exp(-link_separation)); and the scale of position mismatches, in tail lengths.
+HEIGHT_TOLERANCE = 0.05
+HEIGHT_GATE = 0.3
+POSITION_SCALE = 8.0
+_NO_MATCH = 1e12
+
+
+@dataclass
+class Tracks:
+    """The tracked solitons of one record.
+
+    Attributes
+    ----------
+    times
+        Frame times, shape ``(m,)``.
+    length
+        Domain length ``L``.
+    x
+        Peak positions in ``[-L/2, L/2)``, shape ``(m, N)``; NaN in frames that are not linked.
+    position
+        The same positions unwrapped (continuous across the periodic boundary).
+    height
+        Signed peak heights, NaN where not linked.
+    sign
+        Polarity of each soliton, shape ``(N,)``.
+    linked
+        Frames where every soliton was matched.
+    separated
+        Linked frames where every pair is ``separation`` tail lengths apart, both ways round.
+    peak_count
+        Extrema above ``threshold`` in each frame (solitons, merged humps and any radiation).
+    threshold
+        The height below which extrema were ignored.
+    separation
+        The separation criterion used for ``separated``, in tail lengths ``1/(2 kappa)``.
+    reason
+        Empty, or why tracking failed.
+    extrema
+        Every extremum above ``threshold``, per frame (including merged humps mid-collision).
+    """
+
+    times: np.ndarray
+    length: float
+    x: np.ndarray
+    position: np.ndarray
+    height: np.ndarray
+    sign: np.ndarray
+    linked: np.ndarray
+    separated: np.ndarray
+    peak_count: np.ndarray
+    threshold: float
+    separation: float
+    reason: str = ""
+    extrema: list[Peaks] = field(default_factory=list)
+
+    @property
+    def n_solitons(self) -> int:
+        """Number of tracked solitons."""
+        return int(self.sign.size)
+
+    def pairs(self) -> list[tuple[int, int]]:
+        """Soliton index pairs ``(i, j)``, ``i < j``."""
+        return list(combinations(range(self.n_solitons), 2))
+
+    def laps(self) -> np.ndarray:
+        """``floor((X_i - X_j) / L)`` per frame and pair, shape ``(m, P)``; NaN where not linked.
+
+        Soliton ``i`` passes soliton ``j`` each time ``X_i - X_j`` crosses a multiple of ``L``, so
+        a change of this index between two separated frames counts the collisions in between.
+        """
+        pairs = self.pairs()
+        out = np.full((self.times.size, len(pairs)), np.nan)
+        for p, (i, j) in enumerate(pairs):
+            out[:, p] = np.floor((self.position[:, i] - self.position[:, j]) / self.length)
+        return out
+
+
+def _min_ring_gap(x: list[float], tails: list[float], length: float) -> float:
+    """Smallest pairwise ring distance in units of the longer tail of each pair (inf for N = 1).
+
+    Plain Python: with a handful of solitons per frame this beats NumPy's per-call overhead.
+    """
+    half = 0.5 * length
+    best = math.inf
+    for i, j in combinations(range(len(x)), 2):
+        gap = abs((x[i] - x[j] + half) % length - half) / max(tails[i], tails[j])
+        best = min(best, gap)
+    return best
+
+
+class _Kinematics:
+    """Height -> tail length and speed for one equation (the theory scalings, evaluated once)."""
+
+    def __init__(self, equation: Equation | str) -> None:
+        self._fam = theory.family(equation)
+        self._height_scale = float(theory.amplitudes([1.0], equation)[0])  # height at kappa = 1
+        self._speed_scale = float(theory.speeds([1.0], equation)[0])  # speed at kappa = 1
+
+    def tail(self, height: float) -> float:
+        h = abs(height) / self._height_scale
+        return 0.5 / (math.sqrt(h) if self._fam == "kdv" else h)
+
+    def kappa(self, heights: np.ndarray) -> np.ndarray:
+        h = np.abs(heights) / self._height_scale
+        return np.sqrt(h) if self._fam == "kdv" else h
+
+    def speeds(self, heights: np.ndarray) -> np.ndarray:
+        return self._speed_scale * self.kappa(heights) ** 2
+
+
+def check_record(frames: object, times: object, n: int) -> tuple[np.ndarray, np.ndarray]:
+    """Coerce a record to float64 arrays, or raise ShapeError / ConfigError naming the problem."""
+    u = np.asarray(frames, dtype=np.float64)
+    t = np.asarray(times, dtype=np.float64)
+    if u.ndim != 2 or u.shape[1] != n:
+        raise ShapeError(f"analysis: frames must have shape (m, {n}) for this grid, got {u.shape}")
+    if t.shape != (u.shape[0],):
+        raise ShapeError(f"analysis: times must have shape ({u.shape[0]},), got {t.shape}")
+    if not np.all(np.isfinite(t)) or np.any(np.diff(t) <= 0):
+        raise ConfigError("analysis: times must be finite and strictly increasing")
+    if not np.all(np.isfinite(u)):
+        bad = np.argwhere(~np.isfinite(u))[0]
+        raise ConfigError(f"analysis: frames must be finite; frame {bad[0]} index {bad[1]} is not")
+    return u, t
+
+
+def _initial_solitons(
+    peaks0: Peaks, expected: np.ndarray | None, min_height: float
+) -> tuple[np.ndarray, str]:
+    """Indices (sorted by position) of the frame-0 extrema taken as the solitons, and a reason."""
+    if expected is None:
+        return np.flatnonzero(np.abs(peaks0.height) >= min_height), ""
+    n = expected.size
+    if len(peaks0) < n:
+        return np.arange(len(peaks0)), (
+            f"the first frame shows {len(peaks0)} soliton peak(s) above the threshold; "
+            f"the {n} kappas given expect {n} (are the solitons overlapping at the start?)"
+        )
+    chosen = np.sort(np.argsort(-np.abs(peaks0.height))[:n])
+    found = np.abs(peaks0.height[chosen])
+    ratio = found / expected
+    if np.any(np.abs(np.log(ratio)) > HEIGHT_GATE):
+        i = int(np.argmax(np.abs(np.log(ratio))))
+        return chosen, (
+            f"soliton {i} (numbered left to right) has height {found[i]:.6g} in the first frame, "
+            f"but kappas[{i}] expects {expected[i]:.6g}: kappas must be given left to right"
+        )
+    return chosen, ""
+
+
+def track(
+    frames: object,
+    times: object,
+    length: float,
+    equation: Equation | str = "kdv",
+    kappas: object | None = None,
+    threshold: float | None = None,
+    separation: float = 16.0,
+    link_separation: float = 6.0,
+) -> Tracks:
+    """Find, link and unwrap the solitons of a record.
+
+    Parameters
+    ----------
+    frames, times
+        The record: shape ``(m, n)`` and ``(m,)``, times increasing.
+    length
+        Domain length ``L``.
+    equation
+        Preset name or :class:`~kdvsweep.Equation` (KdV or focusing mKdV family); sets the
+        polarities searched and the height-to-speed relation used to predict motion.
+    kappas
+        Expected solitons, left to right in the first frame; sets the threshold and the count.
+    threshold
+        Ignore extrema lower than this; default a quarter of the smallest expected soliton height.
+    separation, link_separation
+        Gaps, in tail lengths ``1/(2 kappa)`` of the wider soliton of each pair, above which frames
+        are ``separated`` (fit windows) and ``linked`` (identities trusted).
+
+    Returns
+    -------
+    Tracks
+        With ``reason`` set (and nothing linked after frame 0) if the solitons cannot be followed.
+    """
+    if separation < link_separation or link_separation <= 0:
+        raise ConfigError(
+            f"track: need 0 < link_separation <= separation, got {link_separation}, {separation}"
+        )
+    u = np.asarray(frames, dtype=np.float64)
+    t = np.asarray(times, dtype=np.float64)
+    signs = theory.polarities(equation)
+    kin = _Kinematics(equation)
+    expected = None if kappas is None else theory.amplitudes(kappas, equation)
+    radiation = RADIATION_LEVEL * float(np.abs(u[0]).max())
+    if threshold is None:
+        if expected is not None:
+            threshold = THRESHOLD_FRACTION * float(expected.min())
+        else:
+            first = find_peaks(u[0], length, radiation, signs)
+            if len(first) == 0:
+                threshold = radiation
+            else:
+                threshold = THRESHOLD_FRACTION * float(np.abs(first.height).min())
+    peaks = find_peaks_many(u, length, threshold, signs)
+    counts = np.array([len(p) for p in peaks])
+    chosen, reason = _initial_solitons(peaks[0], expected, max(radiation, threshold))
+    n_sol = chosen.size
+    m = t.size
+    xs = np.full((m, n_sol), np.nan)
+    pos = np.full((m, n_sol), np.nan)
+    hs = np.full((m, n_sol), np.nan)
+    linked = np.zeros(m, dtype=bool)
+    separated = np.zeros(m, dtype=bool)
+    sign = peaks[0].sign[chosen].copy()
+    result = Tracks(
+        t,
+        float(length),
+        xs,
+        pos,
+        hs,
+        sign,
+        linked,
+        separated,
+        counts,
+        float(threshold),
+        float(separation),
+        reason,
+        peaks,
+    )
+    if n_sol == 0:
+        result.reason = reason or "no soliton found in the first frame"
+        return result
+    if reason:
+        return result
+    x0, h0 = peaks[0].x[chosen], peaks[0].height[chosen]
+    xs[0], pos[0], hs[0] = x0, x0, h0
+    gap0 = _min_ring_gap(x0.tolist(), [kin.tail(h) for h in h0.tolist()], length)
+    linked[0], separated[0] = gap0 >= link_separation, gap0 >= separation
+    _link(result, kin, link_separation, separation)
+    if not linked[1:].any() and m > 1:
+        result.reason = "the solitons of the first frame could not be matched in any later frame"
+    return result
+
+
+def _link(tracks: Tracks, kin: _Kinematics, link_separation: float, separation: float) -> None:
+    """Match the solitons of frame 0 through the later frames, filling ``tracks`` in place.
+
+    Each frame: predict every soliton's position from its last one and speed, match by the
+    Hungarian method on height and position mismatch, accept if every soliton found a same-sign
+    extremum of nearly its height and all are ``link_separation`` apart. The loop runs on Python
+    floats: a frame holds a few extrema, where NumPy's per-call overhead would dominate.
+    """
+    t, length, sign = tracks.times, tracks.length, tracks.sign.tolist()
+    n, half = len(sign), 0.5 * tracks.length
+    last_x, last_h = tracks.position[0].tolist(), tracks.height[0].tolist()
+    velocity = kin.speeds(tracks.height[0]).tolist()
+    last_t, last_frame = float(t[0]), 0
+    for f in range(1, t.size):
+        pk = tracks.extrema[f]
+        if len(pk) < n:
+            continue
+        cx, ch, cs = pk.x.tolist(), pk.height.tolist(), pk.sign.tolist()
+        dt = float(t[f]) - last_t
+        pred = [last_x[i] + velocity[i] * dt for i in range(n)]
+        log_h = [math.log(abs(h)) for h in ch]
+        cost = []
+        for i in range(n):
+            ref, tail = math.log(abs(last_h[i])), kin.tail(last_h[i])
+            row = []
+            for j in range(len(cx)):
+                r = abs(log_h[j] - ref)
+                if cs[j] != sign[i] or r > HEIGHT_GATE:
+                    row.append(_NO_MATCH)
+                    continue
+                d = abs((cx[j] - pred[i] + half) % length - half) / tail
+                row.append((r / HEIGHT_TOLERANCE) ** 2 + (d / POSITION_SCALE) ** 2)
+            cost.append(row)
+        cols = [min(range(len(row)), key=row.__getitem__) for row in cost]
+        if len(set(cols)) < n:
+            # Two solitons prefer the same extremum: solve the assignment properly.
+            cols = linear_sum_assignment(np.array(cost))[1].tolist()
+        if any(cost[i][c] >= _NO_MATCH for i, c in enumerate(cols)):
+            continue
+        xf, hf = [cx[c] for c in cols], [ch[c] for c in cols]
+        gap = _min_ring_gap(xf, [kin.tail(h) for h in hf], length)
+        if gap < link_separation:
+            continue
+        new_x = [p + ((x - p + half) % length - half) for p, x in zip(pred, xf, strict=True)]
+        if last_frame == f - 1:
+            velocity = [(a - b) / dt for a, b in zip(new_x, last_x, strict=True)]
+        tracks.x[f], tracks.position[f], tracks.height[f] = xf, new_x, hf
+        tracks.linked[f], tracks.separated[f] = True, gap >= separation
+        last_x, last_t, last_h, last_frame = new_x, float(t[f]), hf, f
+
+
+__all__ = ["RADIATION_LEVEL", "THRESHOLD_FRACTION", "Tracks", "check_record", "track"]

@@ -1,0 +1,134 @@
+"""Reading a sweep's store: ``kv.load(out)`` gives its tables as pandas DataFrames."""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any, NamedTuple
+
+import numpy as np
+import pandas as pd
+
+from .exceptions import ConfigError
+from .sweep.store import frames_path, read_manifest, read_table
+
+
+class Frames(NamedTuple):
+    """Stored frames of one run: ``u[i]`` is the profile at ``times[i]`` on the points ``x``."""
+
+    times: np.ndarray
+    x: np.ndarray
+    u: np.ndarray
+
+
+@dataclass
+class Results:
+    """The tables of one store.
+
+    Attributes
+    ----------
+    path
+        The store folder.
+    manifest
+        The manifest: ``sweep_name``, ``sweep_text``, ``digest``, ``package_version``, ``created``,
+        ``parameters``, ``runs_total``.
+    runs
+        One row per stored run, sorted by ``run_id``.
+    solitons
+        One row per soliton per stored run, sorted by ``run_id`` then ``soliton``.
+    """
+
+    path: Path
+    manifest: dict[str, Any]
+    runs: pd.DataFrame
+    solitons: pd.DataFrame
+
+    @property
+    def parameters(self) -> list[str]:
+        """The swept parameter names, in file order."""
+        return list(self.manifest.get("parameters", []))
+
+    @property
+    def total(self) -> int:
+        """Runs in the sweep definition."""
+        return int(self.manifest.get("runs_total", len(self.runs)))
+
+    def counts(self) -> dict[str, int]:
+        """``{"ok", "failed", "pending", "total"}`` run counts."""
+        status = self.runs["status"] if "status" in self.runs else pd.Series(dtype=str)
+        ok = int((status == "ok").sum())
+        failed = int(len(status) - ok)
+        return {
+            "ok": ok,
+            "failed": failed,
+            "pending": self.total - ok - failed,
+            "total": self.total,
+        }
+
+    def frames(self, run_id: int) -> Frames:
+        """The stored frames of run ``run_id``.
+
+        Raises
+        ------
+        ConfigError
+            The run is not stored or kept no frames (frame storage was off, or the run failed).
+        """
+        path = frames_path(self.path, run_id)
+        stored = self.runs["run_id"].isin([int(run_id)]).any() if len(self.runs) else False
+        if not stored or not path.is_file():
+            raise ConfigError(
+                f"{self.path}: no stored frames for run_id {run_id}; expected a stored ok run "
+                "of a sweep with frame storage on"
+            )
+        row = self.runs.loc[self.runs["run_id"] == int(run_id)].iloc[0]
+        n, length = int(row["n"]), float(row["length"])
+        with np.load(path) as data:
+            times, u = data["t"], data["u"]
+        x = -0.5 * length + (length / n) * np.arange(n)
+        return Frames(times, x, u)
+
+    def summary(self) -> pd.DataFrame:
+        """One row per soliton of each ok run: parameters, kappa, measured and predicted shifts."""
+        return summary_table(self)
+
+
+def load(out: str | os.PathLike[str]) -> Results:
+    """Load the store ``out`` (a folder made by ``kdvsweep run`` / ``kv.sweep.run``).
+
+    Parameters
+    ----------
+    out
+        The store folder.
+
+    Returns
+    -------
+    Results
+        ``.runs``, ``.solitons`` (DataFrames), ``.manifest`` (dict), ``.frames(run_id)``.
+    """
+    path = Path(out)
+    manifest = read_manifest(path)
+    return Results(path, manifest, read_table(path, "runs"), read_table(path, "solitons"))
+
+
+def summary_table(results: Results) -> pd.DataFrame:
+    """The summary the CLI prints: per soliton, the swept parameters and both shifts."""
+    params = [p for p in results.parameters if p in results.runs.columns]
+    runs = results.runs
+    if runs.empty or results.solitons.empty:
+        return pd.DataFrame(columns=["run_id", *params, "soliton", "kappa"])
+    keep = ["run_id", *params, *(c for c in ("equation",) if c not in params and c in runs)]
+    merged = results.solitons.merge(runs.loc[runs["status"] == "ok", keep], on="run_id")
+    cols = [
+        *keep,
+        "soliton",
+        "kappa",
+        "kappa_measured",
+        "shift_predicted",
+        "shift_measured",
+        "shift_error",
+    ]
+    return merged[[c for c in cols if c in merged.columns]].reset_index(drop=True)
+
+
+__all__ = ["Frames", "Results", "load", "summary_table"]

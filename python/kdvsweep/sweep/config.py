@@ -1,0 +1,855 @@
+"""Sweep files: read, validate and expand a TOML sweep definition into plain-data run specs.
+
+The format is described in docs/sweep-format.md. :func:`load_sweep` checks the whole file, then
+evaluates every run (expressions, automatic sizing, resolution, ``.npy`` files) before it returns,
+so nothing can start on a file with a mistake anywhere in it. It reads but never writes.
+
+The digest is the sha256 of a canonical JSON (sorted keys, no spaces, shortest float repr) of the
+format version, the frame settings and every expanded run (parameters, model, initial data, times),
+with a ``.npy`` file represented by the sha256 of its bytes rather than its location. Comments,
+whitespace, key order, ``sweep.name`` and ``sweep.note`` do not change it; any change of what would
+be computed does.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+import re
+import tomllib
+from dataclasses import asdict, dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from .. import initial as init
+from ..exceptions import ConfigError, ShapeError
+from ..model import Equation, Grid
+from ..simulation import SCHEMES
+from . import sizing
+from .expr import Expression, ExpressionError
+from .schema import Source, Table, describe, is_number, join, suggestion
+from .space import Axis, canonical, check_name, expand, read_space
+
+FORMAT = 1
+MAX_FRAMES = 100_000
+MAX_AUTO_POINTS = 2**18
+DEFAULT_TAIL = 1e-8
+ADAPTIVE_DT = 1e-3
+ADAPTIVE_TOL = 1e-9
+PRESETS = ("kdv", "kdv-", "mkdv", "mkdv-", "gardner")
+
+_TOP = ("sweep", "model", "initial", "run", "vary", "derive", "sizing")
+_SWEEP = ("name", "note")
+_MODEL = ("equation", "points", "length", "scheme", "dt", "tol")
+_EQUATION = ("preset", "a", "b", "d", "f", "g", "v", "dealias")
+_RUN = ("end", "frame_every", "keep_frames", "keep_stride")
+_SIZING = ("tail",)
+_SOLITON_SIZES = ("kappa", "amplitude", "speed")
+_INITIAL = {
+    "solitons": ("kind", *_SOLITON_SIZES, "position", "polarity"),
+    "multisoliton": ("kind", *_SOLITON_SIZES, "position", "polarity"),
+    "sech2": ("kind", "height", "scale", "center"),
+    "gaussian": ("kind", "height", "scale", "center"),
+    "box": ("kind", "height", "half_width", "center", "edge"),
+    "npy": ("kind", "file"),
+}
+_REF = re.compile(r"\{([A-Za-z_][A-Za-z0-9_]*)\}\Z")
+
+
+@dataclass(frozen=True)
+class RunSpec:
+    """One run as plain data (JSON-able, picklable): see the sweep interface notes."""
+
+    run_id: int
+    params: dict
+    model: dict
+    initial: dict
+    run: dict
+
+
+@dataclass(frozen=True)
+class Sweep:
+    """A validated, fully expanded sweep file."""
+
+    path: Path
+    text: str
+    digest: str
+    name: str
+    parameters: tuple[str, ...]
+    runs: tuple[RunSpec, ...]
+    frames: dict
+    warnings: tuple[str, ...]
+
+
+# ----------------------------------------------------------------------------- slots
+
+
+@dataclass(frozen=True)
+class _Num:
+    """A numeric value as written: a literal or an expression (checked names)."""
+
+    key: str
+    given: object
+    literal: float | None
+    expr: Expression | None
+
+
+@dataclass(frozen=True)
+class _Text:
+    """A text value as written: a literal or ``{param}`` naming a text parameter."""
+
+    key: str
+    given: str
+    literal: str | None
+    param: str | None
+
+
+class _Names:
+    """Names an expression may use at a point of the file, and which are text."""
+
+    def __init__(self, numbers: set[str], texts: set[str]) -> None:
+        self.numbers = numbers
+        self.texts = texts
+
+    def check(self, src: Source, key: str, expression: Expression) -> None:
+        for name, pos in expression.names.items():
+            if name in self.texts:
+                raise src.error(
+                    key,
+                    describe(expression.source),
+                    f"an expression of numbers: {name!r} at position {pos} is a text parameter",
+                )
+            if name not in self.numbers:
+                known = ", ".join(sorted(self.numbers)) or "none defined"
+                close = suggestion(name, sorted(self.numbers))
+                raise src.error(
+                    key,
+                    describe(expression.source),
+                    f"an expression of known names: unknown name {name!r} at position {pos}"
+                    f"{close}; known: {known}",
+                )
+
+
+def _num(src: Source, key: str, value: object, names: _Names) -> _Num:
+    if is_number(value):
+        if not math.isfinite(value):  # type: ignore[arg-type]
+            raise src.error(key, describe(value), "a finite number")
+        return _Num(key, value, float(value), None)  # type: ignore[arg-type]
+    if isinstance(value, str):
+        expression = src.expression(key, value)
+        names.check(src, key, expression)
+        return _Num(key, value, None, expression)
+    raise src.error(key, describe(value), "a number or an expression in quotes")
+
+
+def _num_or_auto(src: Source, key: str, value: object, names: _Names) -> _Num | None:
+    """``None`` for ``"auto"``."""
+    if value == "auto":
+        return None
+    return _num(src, key, value, names)
+
+
+def _num_list(src: Source, key: str, value: object, names: _Names) -> list[_Num]:
+    if not isinstance(value, list) or not value:
+        raise src.error(key, describe(value), "a non-empty list of numbers or expressions")
+    return [_num(src, join(key, i), v, names) for i, v in enumerate(value)]
+
+
+def _text(src: Source, key: str, value: object, choices: tuple[str, ...], names: _Names) -> _Text:
+    expected = f"one of {', '.join(map(repr, choices))} or '{{name}}' of a text parameter"
+    if not isinstance(value, str):
+        raise src.error(key, describe(value), expected)
+    ref = _REF.match(value)
+    if ref:
+        name = ref.group(1)
+        if name not in names.texts:
+            raise src.error(
+                key, describe(value), f"a text parameter in braces{suggestion(name, names.texts)}"
+            )
+        return _Text(key, value, None, name)
+    if value not in choices:
+        raise src.error(key, describe(value), expected + suggestion(value, choices))
+    return _Text(key, value, value, None)
+
+
+# ----------------------------------------------------------------------------- the template
+
+
+@dataclass
+class _Template:
+    name: str
+    parameters: tuple[str, ...]
+    axes: list[Axis]
+    derived: list[tuple[str, _Num]]
+    equation: _Text | dict[str, _Num | _Text | None]
+    points: _Num | None
+    length: _Num | None
+    scheme: _Text
+    dt: _Num | None
+    tol: _Num | None
+    kind: str
+    initial: dict[str, Any]
+    end: _Num | None
+    frame_every: float
+    keep_frames: bool
+    keep_stride: int
+    tail: float
+    sizing_given: bool
+    base: Path
+
+
+def _read_template(src: Source, doc: dict, base: Path, stem: str) -> _Template:
+    top = Table(src, doc, "", _TOP, "a TOML document")
+    head = Table(src, top.raw("sweep", {}), "sweep", _SWEEP)
+    name = head.text("name", default=stem)
+    if not name.strip():
+        raise head.fail("name", name, "a non-empty name")
+    head.text("note", default="")
+
+    axes = read_space(src, top.raw("vary", None))
+    numbers = {
+        n
+        for a in axes
+        for n, col in zip(a.names, a.columns, strict=True)
+        if not isinstance(col[0], str)
+    }
+    texts = {
+        n
+        for a in axes
+        for n, col in zip(a.names, a.columns, strict=True)
+        if isinstance(col[0], str)
+    }
+    parameters = tuple(n for a in axes for n in a.names)
+
+    derived: list[tuple[str, _Num]] = []
+    derive = top.raw("derive", {})
+    dtab = Table(src, derive, "derive", list(derive) if isinstance(derive, dict) else ())
+    for dname, value in dtab.data.items():
+        check_name(src, dtab.key(dname), dname)
+        if dname in numbers or dname in texts:
+            raise dtab.fail(dname, value, "a name that is not also a swept parameter")
+        derived.append((dname, _num(src, dtab.key(dname), value, _Names(numbers, texts))))
+        numbers = numbers | {dname}
+    names = _Names(numbers, texts)
+
+    model = Table(src, top.raw("model"), "model", _MODEL)
+    equation = _read_equation(src, model, names)
+    points = _num_or_auto(src, model.key("points"), model.raw("points"), names)
+    length = _num_or_auto(src, model.key("length"), model.raw("length"), names)
+    scheme = _text(src, model.key("scheme"), model.raw("scheme", "etdrk4"), SCHEMES, names)
+    dt = _num(src, model.key("dt"), model.raw("dt"), names) if model.has("dt") else None
+    tol = _num(src, model.key("tol"), model.raw("tol"), names) if model.has("tol") else None
+    if scheme.literal is not None:
+        if scheme.literal != "adaptive" and dt is None:
+            model.raw("dt")  # raises: required
+        if scheme.literal != "adaptive" and tol is not None:
+            raise model.fail("tol", model.raw("tol"), "no tol: it applies to scheme = 'adaptive'")
+
+    every_key = dict.fromkeys(k for keys in _INITIAL.values() for k in keys)  # ordered, unique
+    itab = Table(src, top.raw("initial"), "initial", every_key)
+    kind = itab.text("kind", tuple(_INITIAL))
+    itab = Table(src, itab.data, "initial", _INITIAL[kind])
+    initial = _read_initial(src, itab, kind, names, base)
+
+    run = Table(src, top.raw("run"), "run", _RUN)
+    end = _num_or_auto(src, run.key("end"), run.raw("end"), names)
+    frame_every = run.number("frame_every", positive=True)
+    keep_frames = run.flag("keep_frames", default=False)
+    keep_stride = run.integer("keep_stride", default=1, minimum=1)
+
+    stab = Table(src, top.raw("sizing", {}), "sizing", _SIZING)
+    tail = stab.number("tail", default=DEFAULT_TAIL, positive=True)
+    if not tail < 1:
+        raise stab.fail("tail", tail, "a number between 0 and 1 (a relative tail height)")
+
+    autos = {
+        "model.length": length is None,
+        "run.end": end is None,
+        "initial.position": initial.get("position") == "auto",
+    }
+    if any(autos.values()) and kind not in ("solitons", "multisoliton"):
+        key = next(k for k, v in autos.items() if v)
+        raise src.error(
+            key,
+            "'auto'",
+            "a number: automatic sizing needs initial.kind = 'solitons' or 'multisoliton'",
+        )
+    if points is None and kind not in ("solitons", "multisoliton"):
+        raise src.error(
+            "model.points",
+            "'auto'",
+            "an even integer >= 16: automatic points need "
+            "initial.kind = 'solitons' or 'multisoliton'",
+        )
+    return _Template(
+        name=name,
+        parameters=parameters,
+        axes=axes,
+        derived=derived,
+        equation=equation,
+        points=points,
+        length=length,
+        scheme=scheme,
+        dt=dt,
+        tol=tol,
+        kind=kind,
+        initial=initial,
+        end=end,
+        frame_every=float(frame_every),
+        keep_frames=keep_frames,
+        keep_stride=keep_stride,
+        tail=float(tail),
+        sizing_given=top.has("sizing"),
+        base=base,
+    )
+
+
+def _read_equation(
+    src: Source, model: Table, names: _Names
+) -> _Text | dict[str, _Num | _Text | None]:
+    value = model.raw("equation")
+    if not isinstance(value, dict):
+        return _text(src, model.key("equation"), value, PRESETS, names)
+    tab = Table(src, value, model.key("equation"), _EQUATION)
+    out: dict[str, _Num | _Text | None] = {
+        "preset": _text(src, tab.key("preset"), tab.raw("preset"), PRESETS, names)
+        if tab.has("preset")
+        else None
+    }
+    for coef in ("a", "b", "d", "f", "g", "v", "dealias"):
+        out[coef] = _num(src, tab.key(coef), tab.raw(coef), names) if tab.has(coef) else None
+    return out
+
+
+def _read_initial(src: Source, tab: Table, kind: str, names: _Names, base: Path) -> dict[str, Any]:
+    out: dict[str, Any] = {}
+    if kind in ("solitons", "multisoliton"):
+        given = [k for k in _SOLITON_SIZES if tab.has(k)]
+        if len(given) != 1:
+            shown = ", ".join(given) if given else "none of them"
+            raise src.error(tab.key("kappa"), shown, "exactly one of kappa, amplitude, speed")
+        size = given[0]
+        out["size"] = size
+        out["sizes"] = _num_list(src, tab.key(size), tab.raw(size), names)
+        count = len(out["sizes"])
+        position = tab.raw("position", "auto")
+        if position == "auto":
+            out["position"] = "auto"
+        else:
+            out["position"] = _num_list(src, tab.key("position"), position, names)
+            if len(out["position"]) != count:
+                raise tab.fail(
+                    "position",
+                    position,
+                    f"{count} positions, one per soliton in {tab.key(size)}, or 'auto'",
+                )
+        if tab.has("polarity"):
+            out["polarity"] = _num_list(src, tab.key("polarity"), tab.raw("polarity"), names)
+            if len(out["polarity"]) != count:
+                raise tab.fail("polarity", tab.raw("polarity"), f"{count} values of +1 or -1")
+        return out
+    if kind == "npy":
+        file = tab.text("file")
+        path = (base / file).resolve()
+        if not path.is_file():
+            raise tab.fail(
+                "file",
+                file,
+                f"an existing .npy file (relative to the sweep file: {path} does not exist)",
+            )
+        try:
+            arr = init.load_array(path)
+        except (ConfigError, ShapeError) as err:
+            raise tab.fail("file", file, f"a 1-D array of finite real numbers ({err})") from None
+        if arr.size == 0:
+            raise tab.fail("file", file, "a non-empty 1-D array")
+        out.update(
+            path=str(path),
+            size=int(arr.shape[0]),
+            sha256=init.file_digest(path),
+            max_abs=float(np.max(np.abs(arr))),
+        )
+        return out
+    out["height"] = _num(src, tab.key("height"), tab.raw("height"), names)
+    out["center"] = _num(src, tab.key("center"), tab.raw("center", 0.0), names)
+    if kind == "box":
+        out["half_width"] = _num(src, tab.key("half_width"), tab.raw("half_width"), names)
+        out["edge"] = _num(src, tab.key("edge"), tab.raw("edge", 0.0), names)
+    else:
+        out["scale"] = _num(src, tab.key("scale"), tab.raw("scale"), names)
+    return out
+
+
+# ----------------------------------------------------------------------------- one run
+
+
+class _Run:
+    """Evaluation of the template for one parameter set, with errors naming the run."""
+
+    def __init__(self, src: Source, run_id: int, params: dict[str, Any]) -> None:
+        self.src = src
+        self.run_id = run_id
+        self.params = params
+        self.env: dict[str, Any] = dict(params)
+        shown = ", ".join(f"{k}={v!r}" for k, v in params.items())
+        if len(shown) > 60:
+            shown = shown[:57] + "..."
+        self.label = f"run {run_id}" + (f" ({shown})" if shown else "")
+
+    def fail(self, key: str, given: object, expected: str) -> ConfigError:
+        return self.src.error(key, f"{describe(given)} in {self.label}", expected)
+
+    def num(self, slot: _Num, check: str = "finite") -> float:
+        """The value in this run, checked as ``finite``, ``positive``, ``sign`` or ``integer``."""
+        if slot.literal is not None:
+            value = slot.literal
+            shown = describe(slot.given)
+        else:
+            assert slot.expr is not None
+            try:
+                value = canonical(slot.expr.evaluate(self.env))
+            except ExpressionError as err:
+                raise self.fail(
+                    slot.key, slot.given, f"an expression that evaluates: {err}"
+                ) from None
+            shown = f"{describe(slot.given)} (= {value!r})"
+        expected = {
+            "positive": ("a positive number", value > 0),
+            "sign": ("+1 or -1", value in (1.0, -1.0)),
+            "integer": ("an integer", value.is_integer()),
+        }.get(check, ("", True))
+        if not expected[1]:
+            raise self.src.error(slot.key, f"{shown} in {self.label}", expected[0])
+        return value
+
+    def text(self, slot: _Text, choices: tuple[str, ...]) -> str:
+        if slot.literal is not None:
+            return slot.literal
+        value = self.params[slot.param]
+        if value not in choices:
+            raise self.fail(
+                slot.key, f"{slot.given} = {value!r}", f"one of {', '.join(map(repr, choices))}"
+            )
+        return str(value)
+
+
+class _Warnings:
+    """Per-key warnings gathered over runs, reported once per key with the worst case."""
+
+    def __init__(self, label: str, total: int) -> None:
+        self.label = label
+        self.total = total
+        self.items: dict[str, tuple[str, list[int], float, str]] = {}
+        self.once: list[str] = []
+
+    def add(self, key: str, what: str, run_id: int, badness: float, detail: str) -> None:
+        _, runs, worst, worst_detail = self.items.get(key, (what, [], -math.inf, ""))
+        runs.append(run_id)
+        if badness > worst:
+            worst, worst_detail = badness, f"run {run_id}: {detail}"
+        self.items[key] = (what, runs, worst, worst_detail)
+
+    def note(self, key: str, text: str) -> None:
+        message = f"{self.label}: {key}: {text}"
+        if message not in self.once:
+            self.once.append(message)
+
+    def messages(self) -> tuple[str, ...]:
+        out = list(self.once)
+        for key, (what, runs, _, detail) in self.items.items():
+            out.append(
+                f"{self.label}: {key}: {len(runs)} of {self.total} runs {what} (worst {detail})"
+            )
+        return tuple(out)
+
+
+def _equation(tpl: _Template, ctx: _Run) -> Equation:
+    spec = tpl.equation
+    coefs: dict[str, float] = {}
+    if isinstance(spec, _Text):
+        preset: str | None = ctx.text(spec, PRESETS)
+    else:
+        slot = spec["preset"]
+        preset = ctx.text(slot, PRESETS) if isinstance(slot, _Text) else None
+        coefs = {k: ctx.num(v) for k, v in spec.items() if isinstance(v, _Num)}
+    try:
+        return Equation.preset(preset, **coefs) if preset else Equation(**coefs)  # type: ignore[arg-type]
+    except ConfigError as err:
+        shown = ", ".join(f"{k} = {v:g}" for k, v in coefs.items()) or repr(preset)
+        raise ctx.src.error(
+            "model.equation", f"{shown} in {ctx.label}", f"a valid equation ({err})"
+        ) from None
+
+
+def _family_or_none(eq: Equation) -> str | None:
+    try:
+        return init.soliton_family(eq)
+    except ConfigError:
+        return None
+
+
+def _equation_dict(eq: Equation) -> dict:
+    return {
+        "name": eq.name,
+        "a": eq.a,
+        "b": eq.b,
+        "d": eq.d,
+        "f": eq.f,
+        "g": eq.g,
+        "v": eq.v,
+        "dealias": None if eq.dealias is None else float(eq.dealias),
+    }
+
+
+def _record_times(end: float, every: float) -> list[float]:
+    """``0, every, 2 every, ...`` up to ``end``, ending exactly at ``end``."""
+    count = math.floor(end / every + 1e-9)
+    times = [canonical(i * every) for i in range(count + 1)]
+    if end - times[-1] > 1e-9 * every:
+        times.append(end)
+    else:
+        times[-1] = end
+    return times
+
+
+def _solitons(tpl: _Template, ctx: _Run, eq: Equation) -> tuple[str, list[float], list[int]]:
+    """Family, kappas and signs of a soliton initial datum."""
+    spec = tpl.initial
+    size = spec["size"]
+    try:
+        family = init.soliton_family(eq)
+    except ConfigError:
+        raise ctx.src.error(
+            "initial.kind",
+            f"{tpl.kind!r} for equation {eq.name!r} (a={eq.a}, b={eq.b}, d={eq.d}) in {ctx.label}",
+            "an equation with solitons: KdV (a != 0, b = 0) or focusing mKdV (a = 0, b d > 0)",
+        ) from None
+    kappas = []
+    for slot in spec["sizes"]:
+        value = ctx.num(slot, "positive")
+        if size == "amplitude":
+            value = init.kappa_from_amplitude(value, eq)
+        elif size == "speed":
+            if eq.d < 0:
+                raise ctx.fail(slot.key, slot.given, "speeds only for d > 0 (solitons move right)")
+            value = init.kappa_from_speed(value, eq)
+        kappas.append(canonical(value))
+    own = init.soliton_sign(eq)
+    signs = [own] * len(kappas)
+    if "polarity" in spec:
+        signs = [int(ctx.num(slot, "sign")) for slot in spec["polarity"]]
+        if family == "kdv":
+            for slot, s in zip(spec["polarity"], signs, strict=True):
+                if s != own:
+                    raise ctx.fail(
+                        slot.key,
+                        slot.given,
+                        f"{own:+d}: KdV solitons of this "
+                        "equation have one sign (polarity is for mKdV)",
+                    )
+    return family, kappas, signs
+
+
+def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
+    for dname, slot in tpl.derived:
+        ctx.env[dname] = ctx.num(slot)
+    eq = _equation(tpl, ctx)
+    scheme = ctx.text(tpl.scheme, SCHEMES)
+    if scheme == "adaptive":
+        dt = ctx.num(tpl.dt, "positive") if tpl.dt else ADAPTIVE_DT
+        tol = ctx.num(tpl.tol, "positive") if tpl.tol else ADAPTIVE_TOL
+    else:
+        if tpl.dt is None:
+            raise ctx.src.error(
+                "model.dt",
+                f"nothing in {ctx.label} (scheme {scheme!r})",
+                "a positive time step (required unless scheme = 'adaptive')",
+            )
+        if tpl.tol is not None:
+            raise ctx.fail(
+                "model.tol", tpl.tol.given, f"no tol with scheme {scheme!r} (adaptive only)"
+            )
+        dt, tol = ctx.num(tpl.dt, "positive"), None
+
+    soliton = tpl.kind in ("solitons", "multisoliton")
+    initial: dict[str, Any] = {"kind": tpl.kind}
+    narrowest = math.inf
+    max_u = 0.0
+    if soliton:
+        family, kappas, signs = _solitons(tpl, ctx, eq)
+        speeds = [init.soliton_speed(k, eq) for k in kappas]
+        narrowest = min(init.soliton_width(k, family) for k in kappas)
+        amplitudes = [init.soliton_amplitude(k, eq) for k in kappas]
+        # mKdV solitons of opposite polarity peak at the sum of their amplitudes when they meet;
+        # same-polarity mKdV and KdV pairs never exceed the larger one (checked on the exact
+        # Hirota 2-solitons, kv.exact.multisoliton, for kappa = (1, 0.3 / 0.55 / 0.8))
+        max_u = sum(amplitudes) if len(set(signs)) > 1 else max(amplitudes)
+        auto = tpl.length is None or tpl.end is None or tpl.initial["position"] == "auto"
+        if auto and eq.d <= 0:
+            raise ctx.src.error(
+                "model.equation",
+                f"d = {eq.d} in {ctx.label}",
+                "d > 0 for automatic sizing (solitons moving right)",
+            )
+        if auto and (eq.f or eq.g or eq.v):
+            warn.note(
+                "sizing",
+                "automatic sizing uses the unperturbed soliton speeds 4 d kappa^2; "
+                "the f, g, v terms change them",
+            )
+        if tpl.initial["position"] == "auto":
+            x0 = [canonical(p) for p in sizing.auto_positions(kappas, family, tpl.tail)]
+        else:
+            x0 = [ctx.num(slot) for slot in tpl.initial["position"]]
+            for i in range(1, len(x0)):
+                if not x0[i] > x0[i - 1]:
+                    slot = tpl.initial["position"][i]
+                    raise ctx.fail(
+                        slot.key,
+                        x0[i],
+                        f"a position right of initial.position[{i - 1}]"
+                        f" = {x0[i - 1]!r} (solitons are listed left to right)",
+                    )
+        if tpl.end is None:
+            t_end = sizing.end_time(x0, kappas, speeds, family, tpl.tail)
+            if t_end <= 0:
+                raise ctx.src.error(
+                    "run.end",
+                    f"'auto' in {ctx.label}",
+                    "a number: no soliton overtakes another (list the faster "
+                    "soliton first, on the left)",
+                )
+            t_end = canonical(math.ceil(t_end / tpl.frame_every - 1e-9) * tpl.frame_every)
+        else:
+            t_end = ctx.num(tpl.end, "positive")
+        need = sizing.min_length(x0, kappas, speeds, family, tpl.tail, t_end)
+        if tpl.length is None:
+            length = sizing.nice_ceil(need)
+        else:
+            length = ctx.num(tpl.length, "positive")
+            if length < need:
+                detail = (
+                    f"length {length:g} < {need:.4g} needed so no soliton meets another's "
+                    f"periodic image by t = {t_end:g}"
+                )
+                if auto:
+                    raise ctx.fail(
+                        "model.length",
+                        tpl.length.given,
+                        f"at least {need:.4g} (or 'auto') so no soliton meets another's "
+                        f"periodic image by t = {t_end:g}",
+                    )
+                warn.add(
+                    "model.length",
+                    "are too short for a clean collision",
+                    ctx.run_id,
+                    need / length,
+                    detail,
+                )
+        for i, p in enumerate(x0):
+            if not -0.5 * length <= p < 0.5 * length:
+                key = (
+                    "initial.position"
+                    if tpl.initial["position"] == "auto"
+                    else f"initial.position[{i}]"
+                )
+                raise ctx.fail(
+                    key, p, f"a position inside the box [{-0.5 * length:g}, {0.5 * length:g})"
+                )
+        initial.update(kappa=kappas, x0=x0, sign=signs)
+    else:
+        length = ctx.num(tpl.length, "positive")  # type: ignore[arg-type]
+        t_end = ctx.num(tpl.end, "positive")  # type: ignore[arg-type]
+        if tpl.kind == "npy":
+            initial.update(path=tpl.initial["path"], sha256=tpl.initial["sha256"])
+            max_u = tpl.initial["max_abs"]
+        else:
+            for key in ("height", "center", "scale", "half_width", "edge"):
+                if key in tpl.initial:
+                    check = "positive" if key in ("scale", "half_width") else "finite"
+                    initial[key] = ctx.num(tpl.initial[key], check)
+            if initial.get("edge", 0.0) < 0:
+                raise ctx.fail("initial.edge", initial["edge"], "a number >= 0 (0 is a sharp edge)")
+            if tpl.kind == "box" and not initial["half_width"] < 0.5 * length:
+                raise ctx.fail(
+                    "initial.half_width",
+                    initial["half_width"],
+                    f"less than half the length ({0.5 * length:g})",
+                )
+            max_u = abs(initial["height"])
+            if tpl.kind == "sech2" and _family_or_none(eq) == "kdv":
+                narrowest = _sech2_narrowest(initial["height"], initial["scale"], eq)
+
+    dealias = eq.dealias_fraction
+    if tpl.points is None:
+        n = sizing.auto_points(narrowest, length, dealias)
+        if n > MAX_AUTO_POINTS:
+            raise ctx.src.error(
+                "model.points",
+                f"'auto' in {ctx.label}",
+                f"a grid the automatic "
+                f"choice can make: it needs n = {n} > {MAX_AUTO_POINTS} for "
+                f"length {length:g} (raise sizing.tail or the smallest kappa)",
+            )
+    else:
+        n = int(ctx.num(tpl.points, "integer"))
+    try:
+        grid = Grid(n, length)
+    except ConfigError as err:
+        raise ctx.fail("model.points", n, f"an even integer >= 16 ({err})") from None
+    if tpl.kind == "npy" and tpl.initial["size"] != n:
+        raise ctx.fail(
+            "initial.file",
+            tpl.initial["path"],
+            f"an array of n = {n} values (the file holds {tpl.initial['size']})",
+        )
+    if math.isfinite(narrowest):
+        _check_resolution(ctx, warn, narrowest, grid, dealias, tpl.points is None)
+    if scheme in ("etdrk4", "ifrk4") and max_u > 0:
+        limit = sizing.dt_limit(max_u, eq.a, eq.b, dealias, grid.dx)
+        if dt > limit:
+            warn.add(
+                "model.dt",
+                "exceed the rule-of-thumb stable step of REFERENCES.md 6.5",
+                ctx.run_id,
+                dt / limit,
+                f"dt = {dt:g} > {limit:.3g}",
+            )
+    times = _record_times(t_end, tpl.frame_every)
+    if len(times) > MAX_FRAMES:
+        raise ctx.fail(
+            "run.frame_every", tpl.frame_every, f"at most {MAX_FRAMES} frames up to t = {t_end:g}"
+        )
+    model = {
+        "equation": _equation_dict(eq),
+        "n": n,
+        "length": length,
+        "scheme": scheme,
+        "dt": dt,
+        "tol": tol,
+    }
+    run = {
+        "t_end": t_end,
+        "record_times": times,
+        "store_frames": tpl.keep_frames,
+        "frame_stride": tpl.keep_stride,
+    }
+    return RunSpec(ctx.run_id, dict(ctx.params), model, initial, run)
+
+
+def _sech2_narrowest(height: float, scale: float, eq: Equation) -> float:
+    """Width ``1/kappa_max`` of the tallest soliton out of ``height sech^2(x/scale)`` (KdV).
+
+    Poschl-Teller (REFERENCES.md 5(a)): in canonical units ``A sech^2(x/l)`` gives
+    ``lambda (lambda + 1) = A l^2`` and ``kappa_max = lambda / l``.
+    """
+    canonical_height = height / init.soliton_scale(eq)
+    if canonical_height <= 0:
+        return math.inf
+    lam = 0.5 * (math.sqrt(1.0 + 4.0 * canonical_height * scale**2) - 1.0)
+    return scale / lam
+
+
+def _check_resolution(
+    ctx: _Run, warn: _Warnings, narrowest: float, grid: Grid, dealias: float, auto: bool
+) -> None:
+    per_width = narrowest / grid.dx
+    refuse = sizing.min_points_per_width(dealias, sizing.REFUSE_DECADES)
+    good = sizing.min_points_per_width(dealias, sizing.WARN_DECADES)
+    if per_width < refuse:
+        need = sizing.auto_points(narrowest, grid.length, dealias)
+        raise ctx.fail(
+            "model.points",
+            grid.n,
+            f"at least {refuse:.1f} points per width of the narrowest soliton "
+            f"(width {narrowest:.4g}, dx {grid.dx:.4g} gives {per_width:.1f}; "
+            f"REFERENCES.md 6.5); n = {need} or 'auto' gives {good:.1f}",
+        )
+    if per_width < good and not auto:
+        warn.add(
+            "model.points",
+            f"resolve the narrowest soliton with fewer than {good:.1f} points "
+            "per width (double precision, REFERENCES.md 6.5)",
+            ctx.run_id,
+            1 / per_width,
+            f"{per_width:.1f} points per width",
+        )
+
+
+# ----------------------------------------------------------------------------- entry point
+
+
+def _digest(frames: dict, runs: list[RunSpec]) -> str:
+    def keyed(spec: RunSpec) -> dict:
+        data = asdict(spec)
+        if data["initial"].get("kind") == "npy":  # content, not location
+            data["initial"] = {k: v for k, v in data["initial"].items() if k != "path"}
+        return data
+
+    doc = {"format": FORMAT, "frames": frames, "runs": [keyed(r) for r in runs]}
+    text = json.dumps(doc, sort_keys=True, separators=(",", ":"), allow_nan=False)
+    return hashlib.sha256(text.encode()).hexdigest()
+
+
+def load_sweep(path: str | Path) -> Sweep:
+    """Read, validate and expand a sweep file; raise ConfigError on the first problem.
+
+    Every run is evaluated (expressions, automatic sizing, resolution and file checks) before
+    returning. Nothing is written anywhere.
+    """
+    label = str(path)
+    src = Source(label)
+    file = Path(path)
+    try:
+        data = file.read_bytes()
+    except FileNotFoundError:
+        raise src.error("(file)", "a path that does not exist", "a sweep file") from None
+    except OSError as err:
+        raise src.error(
+            "(file)", f"an unreadable path ({err.strerror})", "a readable sweep file"
+        ) from None
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError as err:
+        raise src.error(
+            "(file)", f"bytes that are not UTF-8 (offset {err.start})", "a UTF-8 TOML file"
+        ) from None
+    try:
+        doc = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as err:
+        raise src.error(
+            "(syntax)", f"invalid TOML ({' '.join(str(err).split())})", "a TOML document"
+        ) from None
+    tpl = _read_template(src, doc, file.resolve().parent, file.stem)
+    combos = expand(tpl.axes)
+    warn = _Warnings(label, len(combos))
+    if (
+        tpl.sizing_given
+        and tpl.length is not None
+        and tpl.end is not None
+        and (tpl.kind not in ("solitons", "multisoliton") or tpl.initial.get("position") != "auto")
+    ):
+        warn.note("sizing", "unused: no 'auto' length, end or position")
+    runs = [_expand_run(tpl, _Run(src, i, params), warn) for i, params in enumerate(combos)]
+    frames = {
+        "store": tpl.keep_frames,
+        "stride": tpl.keep_stride,
+        "analysis_every": tpl.frame_every,
+        "every": canonical(tpl.frame_every * tpl.keep_stride),
+    }
+    return Sweep(
+        path=file.resolve(),
+        text=text,
+        digest=_digest(frames, runs),
+        name=tpl.name,
+        parameters=tpl.parameters,
+        runs=tuple(runs),
+        frames=frames,
+        warnings=warn.messages(),
+    )
+
+
+__all__ = ["RunSpec", "Sweep", "load_sweep"]

@@ -1,0 +1,425 @@
+"""Run a sweep on dask.distributed: chunks of runs on workers, rows back to the one writer.
+
+How it runs
+-----------
+The client process opens the store (which refuses a folder of another sweep before any cluster
+starts), skips the runs already stored, and submits the rest as tasks of a few seconds each: runs
+are grouped in chunks by their estimated cost (``n log2 n`` times the number of steps, calibrated
+on the wall time of the chunks already done). Only a few chunks per worker are in flight, so a
+sweep of a million runs holds a few dozen specs in memory, not a million futures. Results come
+back to the client, which is the only process that writes files (see :mod:`.store`): exactly once
+needs no coordination between workers.
+
+Failures: a run that goes unstable comes back as a "failed" row (the runner catches it). A worker
+that dies (killed, out of memory) loses its tasks; the scheduler gives them to another worker, and
+tasks that raised are retried (``retries``). A chunk whose workers die every time (dask's
+``KilledWorker``) is split into single runs, each given a second chance alone, so only the run
+that kills workers is stored as failed, with the reason. Any other task error comes from the infrastructure (the runner turns a
+run's own errors into rows), so the sweep stops with a KdvsweepError and the store is resumable.
+
+Where it runs
+-------------
+* default: an embedded ``LocalCluster`` on this machine, one single-threaded worker process per
+  core (a run is single-threaded Rust; processes avoid any contention on the interpreter), bound
+  to the loopback interface, no dashboard;
+* ``scheduler="tcp://host:8786"`` (CLI ``--scheduler``): an existing dask cluster;
+* a batch system, through dask-jobqueue: build the cluster, pass its client to :func:`run_sweep`::
+
+      from dask_jobqueue import SLURMCluster
+      from distributed import Client
+      from kdvsweep.sweep.config import load_sweep
+      from kdvsweep.sweep.farm import run_sweep
+
+      # one job = one node of 32 cores, 32 single-threaded worker processes
+      cluster = SLURMCluster(cores=32, processes=32, memory="64GB", walltime="04:00:00")
+      cluster.adapt(minimum_jobs=1, maximum_jobs=10)
+      with Client(cluster) as client:
+          run_sweep(load_sweep("sweeps/big.toml"), "results/big", client)
+
+  (``processes == cores`` gives one thread per worker.) Or by hand: ``dask scheduler`` on the
+  login node, jobs that start ``dask worker tcp://LOGIN:8786 --nworkers 32 --nthreads 1``, and
+  ``kdvsweep run FILE --scheduler tcp://LOGIN:8786``. A job killed by its wall time is a lost
+  worker like any other; a sweep interrupted as a whole is resumed by running it again.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import logging
+import os
+import time
+from collections import deque
+from collections.abc import Iterator, Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+from ..exceptions import ConfigError, KdvsweepError
+from .progress import Progress
+from .runner import RunResult, base_row, cost, execute_chunk
+from .store import Store, SweepLike
+
+#: Target wall time of one task, seconds: long enough that scheduling (~1 ms a task) is noise,
+#: short enough that a lost worker costs little and the progress bar moves.
+CHUNK_SECONDS = 3.0
+
+#: First guess of seconds per cost unit (``n log2 n`` per step), refined from measured runs;
+#: measured on the Rust ETDRK4 at n = 512 on one core of the development machine.
+PRIOR_SECONDS_PER_UNIT = 3e-9
+
+#: Chunks in flight per worker thread: one running, one queued on the worker, one on the way.
+IN_FLIGHT_PER_THREAD = 2
+
+#: Most runs in one chunk, whatever the estimate (bounds the size of one result message).
+MAX_CHUNK_RUNS = 500
+
+#: Task retries after an exception (a lost worker is rescheduled by the scheduler itself).
+RETRIES = 2
+
+#: dask settings for the embedded cluster's workers (read when each nanny starts, so they hold
+#: for the workers it restarts too). Measured on the test sweep, each of these defaults made a
+#: run in a worker markedly slower than the same run in a plain process (about 1.7x for the
+#: malloc setting): the statistical profiler samples the running task's stack every 10 ms, and
+#: MALLOC_TRIM_THRESHOLD_=65536 makes glibc return memory on nearly every free of a NumPy array.
+#: The worker's memory stays flat without it (see bench_sweep).
+WORKER_CONFIG = {
+    "distributed.worker.profile.enabled": False,
+    "distributed.nanny.pre-spawn-environ.MALLOC_TRIM_THRESHOLD_": None,
+}
+
+
+@dataclass
+class SweepReport:
+    """What one call of :func:`run_sweep` did.
+
+    Attributes
+    ----------
+    out
+        The store folder.
+    total, skipped, stored, failed
+        Runs in the sweep; stored before this call; stored by this call; failed among those.
+    elapsed
+        Seconds from the start of the call to the last write.
+    compute
+        Sum of the runs' own wall times (stepping, analysis) in the workers, seconds.
+    store_time
+        Seconds the client spent writing the store.
+    workers
+        Worker threads seen (at most) during the call.
+    chunks
+        Tasks submitted.
+    """
+
+    out: Path
+    total: int
+    skipped: int = 0
+    stored: int = 0
+    failed: int = 0
+    elapsed: float = 0.0
+    compute: float = 0.0
+    store_time: float = 0.0
+    workers: int = 0
+    chunks: int = 0
+
+    @property
+    def pending(self) -> int:
+        """Runs of the sweep not stored yet."""
+        return self.total - self.skipped - self.stored
+
+    def overhead(self) -> float:
+        """Worker time not spent computing runs, as a fraction of compute.
+
+        ``(elapsed * workers - compute) / compute``: scheduling, transfers, storage, idle tails.
+        """
+        if self.compute <= 0:
+            return float("nan")
+        return (self.elapsed * max(self.workers, 1) - self.compute) / self.compute
+
+
+class _Chunker:
+    """Cuts the pending runs into chunks of about ``seconds`` of work each."""
+
+    def __init__(self, specs: Sequence[Any], seconds: float) -> None:
+        self.queue = deque(specs)
+        self.seconds = seconds
+        self.remaining = sum(cost(s) for s in specs)
+        self._units = 0.0
+        self._wall = 0.0
+
+    def __bool__(self) -> bool:
+        return bool(self.queue)
+
+    @property
+    def rate(self) -> float:
+        """Seconds per cost unit, measured once a run has completed."""
+        return self._wall / self._units if self._units > 0 else PRIOR_SECONDS_PER_UNIT
+
+    def observe(self, specs: Sequence[Any], results: Sequence[RunResult]) -> None:
+        by_id = {int(s.run_id): s for s in specs}
+        for res in results:
+            spec = by_id.get(res.run_id)
+            if spec is not None and res.ok:
+                self._units += cost(spec)
+                self._wall += float(res.run_row["wall_time"])
+
+    def next(self, threads: int) -> list[Any]:
+        # Smaller chunks near the end keep every worker busy until the last run.
+        target = min(self.seconds, self.remaining * self.rate / (2 * max(threads, 1)))
+        if self._units == 0:
+            target /= 3  # before any measurement, keep the first tasks short
+        chunk: list[Any] = []
+        spent = 0.0
+        while self.queue and len(chunk) < MAX_CHUNK_RUNS:
+            spec = self.queue[0]
+            c = cost(spec)
+            if chunk and spent + c * self.rate > target:
+                break
+            chunk.append(self.queue.popleft())
+            spent += c * self.rate
+            self.remaining -= c
+        return chunk
+
+
+def _lost(spec: Any, exc: BaseException) -> RunResult:
+    """The failed row of a run whose task could not complete on any worker."""
+    row = base_row(spec)
+    row["status"] = "failed"
+    row["reason"] = f"task lost: {type(exc).__name__}: {exc}"
+    return RunResult(row, [], None, None)
+
+
+def _threads(client: Any) -> int:
+    return int(sum(client.nthreads().values()))
+
+
+def run_sweep(
+    sweep: SweepLike,
+    out: str | os.PathLike[str],
+    client: Any = None,
+    *,
+    workers: int | None = None,
+    progress: bool | None = None,
+    chunk_seconds: float = CHUNK_SECONDS,
+    retries: int = RETRIES,
+) -> SweepReport:
+    """Run the pending runs of ``sweep`` into the store ``out``; resume what is already there.
+
+    Parameters
+    ----------
+    sweep
+        A loaded sweep (:func:`kdvsweep.sweep.config.load_sweep`).
+    out
+        The store folder: new, empty, or holding this same sweep (then only missing runs run).
+    client
+        A ``distributed.Client`` to use; default an embedded ``LocalCluster`` started here.
+    workers
+        Worker processes of the embedded cluster (default one per core); ignored with ``client``.
+    progress
+        Show the progress bar on stderr; ``None`` shows it on a terminal only.
+    chunk_seconds
+        Target wall time of one task.
+    retries
+        Retries of a task that raised.
+
+    Returns
+    -------
+    SweepReport
+        Counts and timings of this call.
+    """
+    if not chunk_seconds > 0:
+        raise ConfigError(f"run_sweep: chunk_seconds must be > 0, got {chunk_seconds}")
+    start = time.perf_counter()
+    with Store.open(out, sweep) as store:
+        todo = store.pending(sweep.runs)
+        report = SweepReport(Path(out), len(sweep.runs), skipped=len(sweep.runs) - len(todo))
+        if not todo:
+            return report
+        with contextlib.ExitStack() as stack:
+            if client is None:
+                client = stack.enter_context(local_client(workers))
+            _drive(client, store, todo, report, progress, chunk_seconds, retries)
+    report.elapsed = time.perf_counter() - start
+    return report
+
+
+def _drive(
+    client: Any,
+    store: Store,
+    todo: list[Any],
+    report: SweepReport,
+    progress: bool | None,
+    chunk_seconds: float,
+    retries: int,
+) -> None:
+    """Keep a few chunks per worker in flight, store each batch of results as it arrives."""
+    from distributed import KilledWorker, as_completed
+
+    chunker = _Chunker(todo, chunk_seconds)
+    ongoing = as_completed()
+    inflight: dict[str, tuple[Any, list[Any]]] = {}  # task key -> (future, its runs)
+    threads = max(_threads(client), 1)
+    report.workers = threads
+    checked = time.monotonic()
+    failed_before = len(store.failed)  # shown on the bar, not counted in the report
+    kills: dict[int, int] = {}  # run id -> tasks holding that run that ended in KilledWorker
+
+    def submit(chunk: list[Any]) -> None:
+        fut = client.submit(execute_chunk, chunk, pure=False, retries=retries)
+        inflight[fut.key] = (fut, chunk)
+        ongoing.add(fut)
+        report.chunks += 1
+
+    def fill() -> None:
+        while chunker and len(inflight) < IN_FLIGHT_PER_THREAD * threads + 1:
+            submit(chunker.next(threads))
+
+    def collect(fut: Any, chunk: list[Any]) -> list[RunResult]:
+        """The results of a finished task; resubmits and returns nothing if it was lost."""
+        try:
+            return list(fut.result())
+        except KilledWorker as exc:  # its workers died (crash, out of memory) each time
+            # Isolate the run that causes it: the runs of the chunk go again one by one, and a
+            # run is failed when its task dies with it alone for the second time it is caught
+            # in such a task (a bystander queued on the same worker gets a second chance).
+            for spec in chunk:
+                kills[int(spec.run_id)] = kills.get(int(spec.run_id), 0) + 1
+            if len(chunk) == 1 and kills[int(chunk[0].run_id)] >= 2:
+                return [_lost(chunk[0], exc)]
+            for spec in chunk:
+                submit([spec])
+            return []
+        finally:
+            fut.release()
+
+    with Progress(report.total, report.skipped, failed_before, enabled=progress) as bar:
+        try:
+            fill()
+            for batch in ongoing.batches():
+                results: list[RunResult] = []
+                broken: BaseException | None = None
+                for fut in batch:
+                    _, chunk = inflight.pop(fut.key)
+                    try:
+                        got = collect(fut, chunk)
+                    except Exception as exc:
+                        # The runner turns every error of a run into a row, so this is the
+                        # infrastructure (kdvsweep missing on a worker, a version mismatch):
+                        # stop rather than store good runs as failed.
+                        broken = exc
+                        continue
+                    chunker.observe(chunk, got)
+                    results.extend(got)
+                tick = time.perf_counter()
+                stored = store.write(results)
+                report.store_time += time.perf_counter() - tick
+                failed = sum(not r.ok for r in results)
+                report.stored += stored
+                report.failed += failed
+                report.compute += sum(float(r.run_row["wall_time"]) for r in results)
+                bar.update(stored, failed)
+                if broken is not None:
+                    raise KdvsweepError(
+                        f"a task failed outside the runs ({type(broken).__name__}: {broken}); "
+                        f"{report.skipped + report.stored} runs are stored in {store.out}; fix "
+                        "the cause and run the same sweep again to resume"
+                    ) from broken
+                if time.monotonic() - checked > 2.0:  # workers come and go (adaptive clusters)
+                    threads = max(_threads(client), 1)
+                    report.workers = max(report.workers, threads)
+                    checked = time.monotonic()
+                fill()
+        finally:
+            # Interrupted or broken: tasks of this sweep must not go on running on a shared
+            # cluster after we stop listening.
+            if inflight:
+                with contextlib.suppress(Exception):  # the client may be closing already
+                    client.cancel([fut for fut, _ in inflight.values()])
+
+
+@contextlib.contextmanager
+def local_client(workers: int | None = None) -> Iterator[Any]:
+    """A client of an embedded ``LocalCluster``: ``workers`` single-threaded processes.
+
+    The scheduler listens on the loopback interface only and has no dashboard.
+    """
+    import dask
+    from distributed import Client, LocalCluster
+
+    count = workers if workers is not None else (os.cpu_count() or 1)
+    if count < 1:
+        raise ConfigError(f"workers must be >= 1, got {count}")
+    with (
+        dask.config.set(WORKER_CONFIG),
+        LocalCluster(
+            n_workers=count,
+            threads_per_worker=1,
+            processes=True,
+            host="127.0.0.1",
+            dashboard_address=None,
+            # The scheduler's HTTP server (health, metrics) would try port 8787 on all interfaces
+            # and warn when it is taken; a random loopback port keeps it private and quiet.
+            scheduler_kwargs={"dashboard": False, "dashboard_address": "127.0.0.1:0"},
+            silence_logs=logging.ERROR,
+        ) as cluster,
+        Client(cluster) as client,
+    ):
+        yield client
+
+
+@contextlib.contextmanager
+def connect(workers: int | None = None, scheduler: str | None = None) -> Iterator[Any]:
+    """A client: of the scheduler at ``scheduler`` if given, else of an embedded cluster."""
+    if scheduler is not None:
+        if workers is not None:
+            raise ConfigError(
+                "workers applies to the embedded cluster only; an existing scheduler "
+                f"({scheduler}) has its own workers"
+            )
+        from distributed import Client
+
+        with Client(scheduler) as client:
+            yield client
+    else:
+        with local_client(workers) as client:
+            yield client
+
+
+def run(
+    path: str | os.PathLike[str],
+    out: str | os.PathLike[str] | None = None,
+    *,
+    workers: int | None = None,
+    scheduler: str | None = None,
+    progress: bool | None = None,
+) -> Path:
+    """Load the sweep file ``path`` and run it into ``out`` (default ``results/<sweep name>``).
+
+    Returns the output folder. The public ``kdvsweep.sweep.run``.
+    """
+    from .config import load_sweep
+
+    if scheduler is not None and workers is not None:
+        raise ConfigError(
+            f"workers ({workers}) applies to the embedded cluster only; the scheduler at "
+            f"{scheduler} has its own workers"
+        )
+    sweep = load_sweep(path)
+    target = Path(out) if out is not None else Path("results") / sweep.name
+    if scheduler is None:
+        run_sweep(sweep, target, workers=workers, progress=progress)
+    else:
+        # Open (and validate) the store before connecting, as the embedded path does.
+        Store.open(target, sweep).close()
+        with connect(workers, scheduler) as client:
+            run_sweep(sweep, target, client, progress=progress)
+    return target
+
+
+__all__ = [
+    "CHUNK_SECONDS",
+    "SweepReport",
+    "connect",
+    "local_client",
+    "run",
+    "run_sweep",
+]

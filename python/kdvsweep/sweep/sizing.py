@@ -1,0 +1,176 @@
+"""Automatic sizing of soliton runs and the resolution check.
+
+Kinematics (unperturbed speeds ``c_i = 4 d kappa_i^2``, centres ``p_i + c_i t`` between collisions):
+
+- *Gap.* Both families have tails ``C e^{-2 kappa |x - x0|}`` relative to the peak, ``C = 4`` for
+  KdV (``sech^2``) and ``C = 2`` for mKdV (``sech``), REFERENCES.md 1.1 and 2.1. Two solitons count
+  as apart when the wider one's tail at the other's centre is below ``tail``:
+  ``s_ij = ln(C / tail) / (2 min(kappa_i, kappa_j))``. Auto positions put neighbours ``s_ij`` apart,
+  in the listed order, the group centred on ``x = 0``.
+- *End time.* Every pair with the faster soliton behind must overtake and end ``s_ij`` apart, plus
+  the shifts that collisions with third solitons may add (bounded by the pairwise shift magnitudes
+  ``ln((k_i + k_j)/|k_i - k_j|)/k_i``, REFERENCES.md 1.4 and 2.3): ``T = max t_ij``.
+- *Length.* The box must be long enough that no soliton meets another's periodic image before
+  ``T``. In relative coordinates ``d_ij(t) = x_i - x_j`` moves linearly, so it is enough that
+  ``|d_ij| + s_ij <= L`` at ``t = 0`` and at ``t = T`` (there enlarged by both solitons' shift
+  bounds); ``i = j`` gives ``L >= s_ii``. Single solitons do cross ``x = +-L/2`` (the lab frame
+  moves), so tracking must unwrap positions. Radiation (group velocity ``-3 d k^2``, to the left)
+  wraps around too; for separated solitons of an integrable equation it is at the ``tail`` level and
+  is not budgeted.
+
+Resolution: the Fourier transform of ``sech^2(x/w)`` and of ``sech(x/w)`` decays like
+``e^{-pi k w / 2}``, so keeping ``D`` decades at the dealiasing cutoff ``phi pi / dx`` needs
+``w / dx >= 2 D ln(10) / (phi pi^2)`` points per width. ``D = 16`` is the double-precision level of
+REFERENCES.md 6.5 (``k_max >~ 23.5 kappa``, ``dx <~ 0.13/kappa``, ``0.09/kappa`` with 2/3
+dealiasing; computed there); it gives 11.2 points per width for KdV (``phi = 2/3``) and 14.9 for
+mKdV (``phi = 1/2``): below it a sweep warns. ``D = 6`` (4.2 and 5.6 points per width) is our
+refusal level: the profile's spectrum would still be at 1e-6 where the nonlinear term is cut.
+
+Time step (warning only): the rule of thumb of REFERENCES.md 6.5 for RK4-type exponential or
+integrating-factor steps, ``dt (|a| max|u| + |b| max u^2) k_cut <~ 2 sqrt 2`` (computed there), with
+``k_cut = phi pi / dx`` the largest wavenumber the nonlinear term keeps, and ``max|u|`` the largest
+amplitude, or for mKdV solitons of both polarities the sum of the amplitudes (their peak when they
+meet, seen on the exact 2-soliton).
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+from collections.abc import Sequence
+
+from ..initial import soliton_width as width
+
+WARN_DECADES = 16
+REFUSE_DECADES = 6
+DT_RULE = 2.0 * math.sqrt(2.0)
+TAIL_CONSTANT = {"kdv": 4.0, "mkdv": 2.0}
+
+
+def gap(k_i: float, k_j: float, family: str, tail: float) -> float:
+    """Centre distance where the wider soliton's relative tail at the other's centre is ``tail``."""
+    return math.log(TAIL_CONSTANT[family] / tail) / (2.0 * min(k_i, k_j))
+
+
+def shift_bound(k_i: float, k_j: float) -> float:
+    """Magnitude of soliton i's position shift from overtaking j, ``ln((ki+kj)/|ki-kj|)/ki``."""
+    return math.log((k_i + k_j) / abs(k_i - k_j)) / k_i
+
+
+def auto_positions(kappas: Sequence[float], family: str, tail: float) -> list[float]:
+    """Centres in the listed order, neighbours one gap apart, the group centred on 0."""
+    positions = [0.0]
+    for left, right in itertools.pairwise(kappas):
+        positions.append(positions[-1] + gap(left, right, family, tail))
+    middle = 0.5 * (positions[0] + positions[-1])
+    return [p - middle for p in positions]
+
+
+def _overtaking(positions: Sequence[float], speeds: Sequence[float]) -> list[tuple[int, int]]:
+    """Pairs (i, j) with soliton i behind (left of) j and faster: they collide."""
+    n = len(positions)
+    return [
+        (i, j)
+        for i in range(n)
+        for j in range(n)
+        if positions[i] < positions[j] and speeds[i] > speeds[j]
+    ]
+
+
+def _shift_bounds(kappas: Sequence[float], pairs: list[tuple[int, int]]) -> list[list[float]]:
+    """``b[i][k]``: bound on soliton i's shift from its collision with k (0 if they never meet)."""
+    b = [[0.0] * len(kappas) for _ in kappas]
+    for i, j in pairs:
+        b[i][j] = shift_bound(kappas[i], kappas[j])
+        b[j][i] = shift_bound(kappas[j], kappas[i])
+    return b
+
+
+def end_time(
+    positions: Sequence[float],
+    kappas: Sequence[float],
+    speeds: Sequence[float],
+    family: str,
+    tail: float,
+) -> float:
+    """Time by which every overtaking pair is one gap apart again (0 when none overtakes)."""
+    pairs = _overtaking(positions, speeds)
+    b = _shift_bounds(kappas, pairs)
+    t_end = 0.0
+    for i, j in pairs:
+        third = sum(b[i][k] + b[j][k] for k in range(len(kappas)) if k not in (i, j))
+        distance = positions[j] - positions[i] + gap(kappas[i], kappas[j], family, tail) + third
+        t_end = max(t_end, distance / (speeds[i] - speeds[j]))
+    return t_end
+
+
+def min_length(
+    positions: Sequence[float],
+    kappas: Sequence[float],
+    speeds: Sequence[float],
+    family: str,
+    tail: float,
+    t_end: float,
+) -> float:
+    """Shortest period keeping every soliton a gap from the others' images on ``[0, t_end]``."""
+    pairs = _overtaking(positions, speeds)
+    b = _shift_bounds(kappas, pairs)
+    total = [sum(row) for row in b]
+    need = 0.0
+    n = len(kappas)
+    for i in range(n):
+        for j in range(i, n):
+            start = abs(positions[i] - positions[j])
+            end = abs(positions[i] - positions[j] + (speeds[i] - speeds[j]) * t_end)
+            if i != j:
+                end += total[i] + total[j]
+            need = max(need, max(start, end) + gap(kappas[i], kappas[j], family, tail))
+    return need
+
+
+def nice_ceil(value: float) -> float:
+    """``value`` rounded up to two significant digits (68.7 -> 69, 6.87 -> 6.9)."""
+    step = 10.0 ** (math.floor(math.log10(value)) - 1)
+    return float(f"{math.ceil(value / step - 1e-9) * step:.12g}")
+
+
+def min_points_per_width(dealias: float, decades: float) -> float:
+    """Points per soliton width keeping ``decades`` of spectrum at the dealiasing cutoff."""
+    return 2.0 * decades * math.log(10.0) / (dealias * math.pi**2)
+
+
+def points_per_width(kappas: Sequence[float], family: str, n: int, length: float) -> float:
+    """Points per width of the narrowest soliton on a grid of ``n`` points over ``length``."""
+    return min(width(k, family) for k in kappas) / (length / n)
+
+
+def auto_points(narrowest: float, length: float, dealias: float) -> int:
+    """Smallest FFT-friendly even ``n`` (``2^p`` or ``3 2^p``, at least 16) with no warning."""
+    need = length / narrowest * min_points_per_width(dealias, WARN_DECADES)
+    n = 16
+    while n < need:
+        n = n // 2 * 3 if n & (n - 1) == 0 else n // 3 * 4  # 16, 24, 32, 48, 64, ...
+    return n
+
+
+def dt_limit(max_u: float, a: float, b: float, dealias: float, dx: float) -> float:
+    """The rule-of-thumb largest stable step of REFERENCES.md 6.5 (inf for a linear equation)."""
+    rate = (abs(a) * max_u + abs(b) * max_u**2) * dealias * math.pi / dx
+    return math.inf if rate == 0 else DT_RULE / rate
+
+
+__all__ = [
+    "REFUSE_DECADES",
+    "WARN_DECADES",
+    "auto_points",
+    "auto_positions",
+    "dt_limit",
+    "end_time",
+    "gap",
+    "min_length",
+    "min_points_per_width",
+    "nice_ceil",
+    "points_per_width",
+    "shift_bound",
+    "width",
+]

@@ -1,0 +1,216 @@
+"""The parameter space of a sweep: ``[[vary]]`` tables expanded into one value set per run.
+
+Each ``[[vary]]`` table is one axis. The keys of one table are zipped (equal lengths, varied
+together); the tables are combined as a cartesian product in file order, the first table varying
+slowest (as nested loops written in file order). A key's values are a list, a linear or log range
+``{from, to, count, spacing}``, or, in a table holding ``draw = {method, count, seed}``, a range
+``{from, to, spacing}`` sampled at random: ``method = "latin"`` (Latin hypercube, one point per
+stratum in every dimension, scipy.stats.qmc) or ``"uniform"`` (independent uniform draws).
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+import re
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.stats import qmc
+
+from .expr import RESERVED
+from .schema import Source, Table, describe, is_number
+
+MAX_RUNS = 1_000_000
+SIGNIFICANT_DIGITS = 12
+
+_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*\Z")
+_RANGE_KEYS = ("from", "to", "count", "spacing")
+_SPACINGS = ("linear", "log")
+_DRAW_KEYS = ("method", "count", "seed")
+_METHODS = ("latin", "uniform")
+
+Value = float | int | str
+
+
+def canonical(value: float) -> float:
+    """``value`` rounded to 12 significant digits.
+
+    Generated values (ranges, samples, expressions) are rounded so that tables show 0.35, not
+    0.35000000000000003, and so that a last-bit difference between platforms' libm cannot change
+    the sweep digest.
+    """
+    return float(f"{value:.{SIGNIFICANT_DIGITS}g}")
+
+
+@dataclass(frozen=True)
+class Axis:
+    """One ``[[vary]]`` table: parameter names and one value tuple per position."""
+
+    names: tuple[str, ...]
+    columns: tuple[tuple[Value, ...], ...]
+
+    def __len__(self) -> int:
+        return len(self.columns[0])
+
+
+def check_name(src: Source, key: str, name: str) -> None:
+    """Reject names that are not identifiers or that shadow a function or constant."""
+    if not _NAME.match(name):
+        raise src.error(key, repr(name), "a parameter name made of letters, digits and _")
+    if name in RESERVED or name == "draw":
+        raise src.error(
+            key,
+            repr(name),
+            "a parameter name other than draw and the expression words "
+            + ", ".join(sorted(RESERVED)),
+        )
+
+
+def _bounds(tab: Table, spacing: str) -> tuple[float, float]:
+    lo, hi = tab.number("from"), tab.number("to")
+    if spacing == "log" and (lo <= 0 or hi <= 0):
+        bad = "from" if lo <= 0 else "to"
+        raise tab.fail(bad, tab.raw(bad), "a positive number (log spacing)")
+    return float(lo), float(hi)
+
+
+def _range(src: Source, key: str, data: dict) -> tuple[float, ...]:
+    tab = Table(src, data, key, _RANGE_KEYS)
+    spacing = tab.text("spacing", _SPACINGS, default="linear")
+    lo, hi = _bounds(tab, spacing)
+    count = tab.integer("count", minimum=1)
+    if count > 1 and lo == hi:
+        raise tab.fail(
+            "to",
+            tab.raw("to"),
+            f"a value different from from = {tab.raw('from')!r} "
+            f"(a range of {count} equal values is empty)",
+        )
+    if count == 1 and lo != hi:
+        raise tab.fail("count", count, "an integer >= 2 (from and to differ)")
+    if spacing == "log":
+        values = np.exp(np.linspace(math.log(lo), math.log(hi), count))
+    else:
+        values = np.linspace(lo, hi, count)
+    values[0], values[-1] = lo, hi  # the end points exactly as written
+    return tuple(canonical(float(v)) for v in values)
+
+
+def _list(src: Source, key: str, values: list) -> tuple[Value, ...]:
+    if not values:
+        raise src.error(key, "an empty list", "a non-empty list of numbers or of text values")
+    if all(isinstance(v, str) for v in values):
+        return tuple(values)
+    for i, v in enumerate(values):
+        if not is_number(v) or not math.isfinite(v):
+            raise src.error(
+                f"{key}[{i}]",
+                describe(v),
+                "a finite number like the other values (a list is all numbers or all text)",
+            )
+    return tuple(values)
+
+
+def _draw(src: Source, tab: Table, names: list[str]) -> tuple[tuple[float, ...], ...]:
+    spec = Table(src, tab.raw("draw"), tab.key("draw"), _DRAW_KEYS)
+    method = spec.text("method", _METHODS)
+    count = spec.integer("count", minimum=1)
+    seed = spec.integer("seed", minimum=0)
+    if not names:
+        raise src.error(tab.path, "only draw", "at least one range {from, to} to sample")
+    bounds = []
+    for name in names:
+        value = tab.raw(name)
+        if not isinstance(value, dict):
+            raise tab.fail(name, value, "a range {from, to} (a table with draw samples ranges)")
+        rng_tab = Table(src, value, tab.key(name), ("from", "to", "spacing"))
+        spacing = rng_tab.text("spacing", _SPACINGS, default="linear")
+        lo, hi = _bounds(rng_tab, spacing)
+        if lo == hi:
+            raise rng_tab.fail("to", rng_tab.raw("to"), "a value different from from")
+        bounds.append((lo, hi, spacing))
+    if method == "latin":
+        unit = qmc.LatinHypercube(d=len(names), rng=seed).random(count)
+    else:
+        unit = np.random.default_rng(seed).random((count, len(names)))
+    columns = []
+    for j, (lo, hi, spacing) in enumerate(bounds):
+        u = unit[:, j]
+        if spacing == "log":
+            col = np.exp(math.log(lo) + u * (math.log(hi) - math.log(lo)))
+        else:
+            col = lo + u * (hi - lo)
+        columns.append(tuple(canonical(float(v)) for v in col))
+    return tuple(columns)
+
+
+def read_space(src: Source, data: object) -> list[Axis]:
+    """Parse the ``vary`` array of tables into axes (no ``vary``: a single run)."""
+    if data is None:
+        return []
+    if isinstance(data, dict):
+        raise src.error("vary", "a single table [vary]", "an array of tables written [[vary]]")
+    if not isinstance(data, list) or not data:
+        raise src.error("vary", describe(data), "one or more [[vary]] tables")
+    axes: list[Axis] = []
+    seen: dict[str, str] = {}
+    for index, block in enumerate(data):
+        path = f"vary[{index}]"
+        if not isinstance(block, dict):
+            raise src.error(path, describe(block), "a table of parameters")
+        if not block:
+            raise src.error(path, "an empty table", "at least one parameter")
+        tab = Table(src, block, path, list(block))
+        names = [k for k in block if k != "draw"]
+        for name in names:
+            check_name(src, tab.key(name), name)
+            if name in seen:
+                raise src.error(
+                    tab.key(name),
+                    "a second definition",
+                    f"each parameter once (already set in {seen[name]})",
+                )
+            seen[name] = tab.key(name)
+        if "draw" in block:
+            columns: tuple[tuple[Value, ...], ...] = _draw(src, tab, names)
+        else:
+            cols = []
+            for name in names:
+                value = block[name]
+                if isinstance(value, list):
+                    cols.append(_list(src, tab.key(name), value))
+                elif isinstance(value, dict):
+                    cols.append(_range(src, tab.key(name), value))
+                else:
+                    raise tab.fail(name, value, "a list of values or a range {from, to, count}")
+            first = names[0]
+            for name, col in zip(names, cols, strict=True):
+                if len(col) != len(cols[0]):
+                    raise src.error(
+                        tab.key(name),
+                        f"{len(col)} values",
+                        f"{len(cols[0])} like {tab.key(first)} (keys of one [[vary]] table are "
+                        "zipped)",
+                    )
+            columns = tuple(cols)
+        axes.append(Axis(tuple(names), columns))
+    total = math.prod(len(a) for a in axes)
+    if total > MAX_RUNS:
+        raise src.error("vary", f"{total} runs", f"at most {MAX_RUNS} runs in one sweep")
+    return axes
+
+
+def expand(axes: list[Axis]) -> list[dict[str, Value]]:
+    """One parameter dict per run: the cartesian product of the axes, first axis slowest."""
+    runs = []
+    for position in itertools.product(*(range(len(a)) for a in axes)):
+        params: dict[str, Value] = {}
+        for axis, i in zip(axes, position, strict=True):
+            for name, col in zip(axis.names, axis.columns, strict=True):
+                params[name] = col[i]
+        runs.append(params)
+    return runs
+
+
+__all__ = ["MAX_RUNS", "Axis", "canonical", "check_name", "expand", "read_space"]

@@ -1,0 +1,273 @@
+"""Analytic results for KdV and mKdV soliton collisions: speeds, amplitudes, shifts, regimes.
+
+Solitons are labelled by ``kappa``, the inverse-scattering parameter: the bound state
+``lambda = -kappa^2`` of the Schrödinger problem for KdV, the Zakharov-Shabat eigenvalue
+``zeta = i kappa`` for mKdV. In the canonical forms
+
+* KdV ``u_t + 6 u u_x + u_xxx = 0``: ``u = 2 k^2 sech^2(k (x - 4 k^2 t - x0))``,
+* focusing mKdV ``u_t + 6 u^2 u_x + u_xxx = 0``: ``u = ±2 k sech(2 k (x - 4 k^2 t - x0))``,
+
+so both move at ``4 kappa^2`` and both tails decay as ``exp(-2 kappa |x|)``. A general
+``u_t + a u u_x + d u_xxx = 0`` (or ``b u^2 u_x``) is the canonical one under
+``u = alpha w(x, d t)`` with ``alpha = 6 d / a`` (or ``sqrt(6 d / b)``): positions are untouched,
+so the phase shifts below hold for every such equation; speeds scale by ``d``, heights by
+``|alpha|``.
+
+Phase shift of soliton ``i`` in an N-soliton collision (every pair meets once), with the shift
+``x_i^+ - x_i^-`` of the asymptotic centre line ``x_i ~ c_i t + x_i^±`` as ``t -> ±inf``:
+
+    Delta x_i = (1/k_i) sum_{j != i} sign(k_i - k_j) ln((k_i + k_j) / |k_i - k_j|)
+
+Derivation (KdV, two solitons): in Hirota's form ``u = 2 (ln tau)_xx`` with
+``tau = 1 + e^{eta_1} + e^{eta_2} + A e^{eta_1 + eta_2}``,
+``eta_i = 2 k_i (x - 4 k_i^2 t - x0_i)``, ``A = ((k_1 - k_2)/(k_1 + k_2))^2``. Following soliton 1
+(``k_1 > k_2``), ``e^{eta_2} -> 0`` as ``t -> -inf`` so ``tau ~ 1 + e^{eta_1}``, while
+``e^{eta_2} -> inf`` as ``t -> +inf`` so ``tau ~ e^{eta_2} (1 + A e^{eta_1})``; the factor
+``e^{eta_2}`` is killed by two x-derivatives of the logarithm, and
+``A e^{eta_1} = e^{eta_1 + ln A}`` moves the centre by ``-ln A / (2 k_1)``: the formula.
+The N-soliton tau function has only pairwise factors ``A_ij``, so the shifts add pair by pair.
+For mKdV the Hirota function ``f`` carries the same ``A_ij`` (the polarity enters only as a
+constant phase ``i eps_i``), so same- and opposite-polarity pairs shift identically and, in
+kappa, as KdV.
+
+Sources: Gardner, Greene, Kruskal & Miura 1974 (Comm. Pure Appl. Math. 27, 97); Ablowitz &
+Segur 1981, *Solitons and the Inverse Scattering Transform*, SIAM, Ch. 1; Drazin & Johnson 1989,
+*Solitons: an introduction*, CUP, Ch. 4 and Problem 4.6 (equation numbers from memory, not
+checked); Hirota 1971 (Phys. Rev. Lett. 27, 1192) and 1972 (J. Phys. Soc. Jpn 33, 1456) for the
+tau functions; Zakharov & Shabat 1972 (Sov. Phys. JETP 34, 62) for the mKdV/ZS shift. Pairwise
+additivity: Zakharov 1971. Interaction regimes: Lax 1968 (Comm. Pure Appl. Math. 21, 467).
+Bibliographic details (volumes, pages) are from memory.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+
+import numpy as np
+
+from .exceptions import ConfigError, ShapeError
+from .model import Equation
+
+# Lax 1968: amplitude ratios of a KdV pair at which the interaction changes character.
+LAX_EXCHANGE_LIMIT = (3.0 + math.sqrt(5.0)) / 2.0
+LAX_SINGLE_PEAK_LIMIT = 3.0
+
+REGIMES = ("exchange", "mixed", "absorb-emit")
+
+
+def _scales(equation: str | Equation) -> tuple[str, float, float]:
+    """``(family, alpha, d)``: the exact scaling ``u = alpha w(x, d t)`` to the canonical form."""
+    if isinstance(equation, str):
+        try:
+            eq = Equation.preset(equation)
+        except ConfigError as err:
+            raise ConfigError(f"theory: {err}") from None
+    elif isinstance(equation, Equation):
+        eq = equation
+    else:
+        raise ConfigError(
+            f"theory: equation must be a preset name or a kdvsweep.Equation, got {equation!r}"
+        )
+    if eq.family == "kdv":
+        return "kdv", 6.0 * eq.d / eq.a, eq.d
+    if eq.family == "mkdv" and eq.b * eq.d > 0:
+        return "mkdv", math.sqrt(6.0 * eq.d / eq.b), eq.d
+    raise ConfigError(
+        f"theory: soliton formulas cover KdV (a != 0, b = 0) and focusing mKdV (b d > 0); "
+        f"got {eq!r}"
+    )
+
+
+def _as_kappas(kappas: object, name: str = "kappas") -> np.ndarray:
+    arr = np.atleast_1d(np.asarray(kappas, dtype=np.float64))
+    if arr.ndim != 1:
+        raise ShapeError(f"theory: {name} must be a 1-D sequence, got shape {arr.shape}")
+    if not np.all(np.isfinite(arr)) or np.any(arr <= 0):
+        raise ConfigError(f"theory: {name} must be finite and positive, got {arr.tolist()}")
+    return arr
+
+
+def family(equation: str | Equation) -> str:
+    """``"kdv"`` or ``"mkdv"``: which soliton formulas apply to ``equation`` (else ConfigError)."""
+    return _scales(equation)[0]
+
+
+def polarities(equation: str | Equation) -> tuple[int, ...]:
+    """Soliton polarities of ``equation``: ``(1,)`` or ``(-1,)`` for KdV, ``(1, -1)`` for mKdV."""
+    fam, alpha, _ = _scales(equation)
+    if fam == "mkdv":
+        return (1, -1)
+    return (1,) if alpha > 0 else (-1,)
+
+
+def speeds(kappas: object, equation: str | Equation = "kdv") -> np.ndarray:
+    """Soliton speeds ``4 d kappa^2`` (``4 kappa^2`` in the canonical forms)."""
+    _, _, d = _scales(equation)
+    return 4.0 * d * _as_kappas(kappas) ** 2
+
+
+def amplitudes(kappas: object, equation: str | Equation = "kdv") -> np.ndarray:
+    """Peak heights ``|u|``: ``2 kappa^2`` (KdV) or ``2 kappa`` (mKdV), times ``|alpha|``."""
+    fam, alpha, _ = _scales(equation)
+    ks = _as_kappas(kappas)
+    return abs(alpha) * (2.0 * ks**2 if fam == "kdv" else 2.0 * ks)
+
+
+def tail_lengths(kappas: object) -> np.ndarray:
+    """The e-folding length ``1 / (2 kappa)`` of a soliton's tail, the same for KdV and mKdV."""
+    return 0.5 / _as_kappas(kappas)
+
+
+def kappa_from_speed(speed: object, equation: str | Equation = "kdv") -> np.ndarray:
+    """Invert :func:`speeds`: ``kappa = sqrt(c / (4 d))`` (NaN where ``c / d <= 0``)."""
+    _, _, d = _scales(equation)
+    c = np.asarray(speed, dtype=np.float64) / (4.0 * d)
+    return np.sqrt(np.where(c > 0, c, np.nan))
+
+
+def kappa_from_amplitude(amplitude: object, equation: str | Equation = "kdv") -> np.ndarray:
+    """Invert :func:`amplitudes` from a peak height ``|u|`` (its sign is ignored)."""
+    fam, alpha, _ = _scales(equation)
+    a = np.abs(np.asarray(amplitude, dtype=np.float64)) / abs(alpha)
+    return np.sqrt(a / 2.0) if fam == "kdv" else a / 2.0
+
+
+def pair_shift(kappa_i: float, kappa_j: float) -> float:
+    """Shift of soliton ``i`` from one collision with soliton ``j`` (KdV and mKdV alike, in kappa).
+
+    ``(1/kappa_i) sign(kappa_i - kappa_j) ln((kappa_i + kappa_j)/|kappa_i - kappa_j|)``: forward for
+    the faster soliton, backward for the slower. Gardner et al. 1974; Ablowitz & Segur 1981, Ch. 1.
+    """
+    ki, kj = (float(v) for v in _as_kappas([kappa_i, kappa_j], "kappa_i, kappa_j"))
+    if ki == kj:
+        raise ConfigError(
+            f"theory: equal kappas ({ki}) never collide; the shift is undefined for equal speeds"
+        )
+    return math.copysign(math.log((ki + kj) / abs(ki - kj)), ki - kj) / ki
+
+
+def phase_shifts(
+    kappas: Sequence[float] | np.ndarray,
+    equation: str | Equation = "kdv",
+    collisions: object | None = None,
+) -> np.ndarray:
+    """The asymptotic position shift of each soliton (input order) after all its collisions.
+
+    Parameters
+    ----------
+    kappas
+        Soliton parameters, all distinct and positive.
+    equation
+        ``"kdv"``, ``"mkdv"`` (either polarity) or an :class:`~kdvsweep.Equation` of either family;
+        it only validates the family, since the shifts in kappa are the same for both.
+    collisions
+        Optional ``(N, N)`` symmetric array: how many times each pair meets (on a periodic domain a
+        fast soliton can lap a slow one). Default: every pair once, the infinite-line result.
+
+    Returns
+    -------
+    numpy.ndarray
+        ``Delta x_i = sum_j n_ij * pair_shift(kappa_i, kappa_j)`` (pairwise additivity:
+        Zakharov 1971; GGKM 1974; Drazin & Johnson 1989 Problem 4.6).
+    """
+    _scales(equation)
+    ks = _as_kappas(kappas)
+    n = ks.size
+    if collisions is None:
+        counts = np.ones((n, n)) - np.eye(n)
+    else:
+        counts = np.asarray(collisions, dtype=np.float64)
+        if counts.shape != (n, n):
+            raise ShapeError(
+                f"theory: collisions must have shape ({n}, {n}) for {n} kappas, got {counts.shape}"
+            )
+        if not np.array_equal(counts, counts.T) or np.any(counts < 0):
+            raise ConfigError("theory: collisions must be a symmetric array of counts >= 0")
+    out = np.zeros(n)
+    for i in range(n):
+        for j in range(n):
+            if i != j and counts[i, j] != 0:
+                out[i] += counts[i, j] * pair_shift(ks[i], ks[j])
+    return out
+
+
+def shift_balance(kappas: object, shifts: object) -> float:
+    """``sum_i kappa_i Delta x_i``, zero for any collision (the sum rule).
+
+    The first moment of the mass (KdV ``int u``, mKdV ``int u^2``) moves at a constant rate
+    (``d/dt int x u dx = 3 int u^2 dx`` for KdV), and soliton ``i`` carries a mass proportional to
+    ``kappa_i``, so mass-weighted shifts cancel. Useful to check measured shifts without a formula.
+    """
+    ks = _as_kappas(kappas)
+    dx = np.asarray(shifts, dtype=np.float64)
+    if dx.shape != ks.shape:
+        raise ShapeError(f"theory: shifts must match kappas' shape {ks.shape}, got {dx.shape}")
+    return float(np.sum(ks * dx))
+
+
+def amplitude_ratio(kappa1: float, kappa2: float) -> float:
+    """Ratio ``>= 1`` of the larger to the smaller KdV amplitude, ``(kappa_max / kappa_min)^2``."""
+    k = _as_kappas([kappa1, kappa2], "kappa1, kappa2")
+    return float((k.max() / k.min()) ** 2)
+
+
+def interaction_regime(kappa1: float, kappa2: float) -> str:
+    """Lax's (1968) class of a KdV two-soliton interaction, from the amplitude ratio ``r >= 1``.
+
+    * ``"exchange"`` for ``r < (3 + sqrt 5)/2``: two maxima at all times; the humps trade mass.
+    * ``"mixed"`` for ``(3 + sqrt 5)/2 <= r < 3``: two maxima at the symmetric instant, one at times
+      shortly before and after.
+    * ``"absorb-emit"`` for ``r >= 3``: one maximum at the symmetric instant; the large soliton
+      swallows the small one and re-emits it.
+
+    Sources: Lax 1968 (Comm. Pure Appl. Math. 21, 467); Drazin & Johnson 1989, Problem 4.5.
+    """
+    r = amplitude_ratio(kappa1, kappa2)
+    if r == 1.0:
+        raise ConfigError(f"theory: equal kappas ({kappa1}) do not interact")
+    if r < LAX_EXCHANGE_LIMIT:
+        return "exchange"
+    if r < LAX_SINGLE_PEAK_LIMIT:
+        return "mixed"
+    return "absorb-emit"
+
+
+def peaks_at_closest_approach(kappa1: float, kappa2: float) -> int:
+    """Maxima of a KdV pair at the symmetric instant: 2 below amplitude ratio 3, else 1 (Lax)."""
+    return 2 if amplitude_ratio(kappa1, kappa2) < LAX_SINGLE_PEAK_LIMIT else 1
+
+
+def symmetric_phases(kappa1: float, kappa2: float) -> np.ndarray:
+    """Phase constants ``x0`` making the Hirota 2-soliton symmetric about ``x = 0`` at ``t = 0``.
+
+    ``x0_i = ln(A) / (4 kappa_i)`` with ``A = ((kappa1 - kappa2)/(kappa1 + kappa2))^2`` makes
+    ``tau(x) e^{-(kappa1 + kappa2) x}`` even in ``x`` (derivation: match the four exponentials of
+    tau in pairs under ``x -> -x``). This is the closest approach of the pair.
+    """
+    k = _as_kappas([kappa1, kappa2], "kappa1, kappa2")
+    if k[0] == k[1]:
+        raise ConfigError(f"theory: equal kappas ({k[0]}) have no symmetric collision")
+    log_a = 2.0 * math.log(abs(k[0] - k[1]) / (k[0] + k[1]))
+    return log_a / (4.0 * k)
+
+
+__all__ = [
+    "LAX_EXCHANGE_LIMIT",
+    "LAX_SINGLE_PEAK_LIMIT",
+    "REGIMES",
+    "amplitude_ratio",
+    "amplitudes",
+    "family",
+    "interaction_regime",
+    "kappa_from_amplitude",
+    "kappa_from_speed",
+    "pair_shift",
+    "peaks_at_closest_approach",
+    "phase_shifts",
+    "polarities",
+    "shift_balance",
+    "speeds",
+    "symmetric_phases",
+    "tail_lengths",
+]
