@@ -546,3 +546,38 @@ def test_scancel_mid_sweep_loses_and_duplicates_nothing(
     assert stored_run_ids(out) == list(range(len(K2)))  # each run stored exactly once
     assert_same_tables(local_tables, load(out))
     assert wait_until_gone(job_name) == {}
+
+
+def test_cli_run_with_a_cluster_profile(
+    partition: str, tmp_path: Path, job_name: str, sweep: Any, local_tables: Any
+) -> None:
+    # `kdvsweep run FILE --cluster PROFILE`: the same tables as locally, job logs beside the
+    # results, no job left behind.
+    from kdvsweep.cli import main
+    from kdvsweep.results import load
+
+    profile_file = tmp_path / "profile.toml"
+    profile_file.write_text(
+        f"""
+[batch]
+system = "slurm"
+queue = "{partition}"
+jobs = 2
+cores = 1
+memory = "1GiB"
+walltime = "00:15:00"
+job_name = "{job_name}"
+start_timeout = {START_TIMEOUT}
+
+[network]
+interface = "lo"
+dashboard = "127.0.0.1:0"
+""",
+        encoding="utf-8",
+    )
+    out = tmp_path / "store"
+    args = ["run", str(sweep.path), "--out", str(out), "--cluster", str(profile_file)]
+    assert main([*args, "--no-progress"]) == 0
+    assert_same_tables(local_tables, load(out))
+    assert list((out / "batch-logs").glob("*.err"))
+    assert wait_until_gone(job_name) == {}

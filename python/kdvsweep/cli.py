@@ -58,6 +58,12 @@ def _parser() -> argparse.ArgumentParser:
         where.add_argument(
             "--scheduler", metavar="ADDR", help="use the dask cluster at ADDR (tcp://host:port)"
         )
+        where.add_argument(
+            "--cluster",
+            type=Path,
+            metavar="PROFILE",
+            help="start workers as batch jobs described by a cluster profile (TOML)",
+        )
         p.add_argument(
             "--chunk-seconds",
             type=float,
@@ -133,15 +139,27 @@ def _run(args: argparse.Namespace, file: Path) -> int:
     out = args.out if args.out is not None else Path("results") / sweep.name
     chunk = args.chunk_seconds if args.chunk_seconds is not None else CHUNK_SECONDS
     try:
-        if args.scheduler is None:
+        if args.scheduler is None and getattr(args, "cluster", None) is None:
             report = run_sweep(
                 sweep, out, workers=args.workers, progress=args.progress, chunk_seconds=chunk
             )
-        else:
+        elif args.scheduler is not None:
             from .sweep.store import Store
 
             Store.open(out, sweep).close()  # refuse a wrong folder before connecting
             with connect(None, args.scheduler) as client:
+                report = run_sweep(sweep, out, client, progress=args.progress, chunk_seconds=chunk)
+        else:
+            from .sweep.cluster import cluster_client, load_profile
+            from .sweep.store import Store
+
+            profile = load_profile(args.cluster)  # a bad profile fails before anything starts
+            Store.open(out, sweep).close()  # refuse a wrong folder before submitting jobs
+
+            def echo(message: str) -> None:
+                print(f"kdvsweep: {message}", file=sys.stderr)
+
+            with cluster_client(profile, logs=out / "batch-logs", echo=echo) as client:
                 report = run_sweep(sweep, out, client, progress=args.progress, chunk_seconds=chunk)
     except KeyboardInterrupt:
         print(

@@ -243,7 +243,7 @@ def _draw_tracks(
             [], [], color="0.2", lw=1.3, ls=(0, (4, 3)), label="fitted asymptote, extrapolated"
         )
         ax.get_figure().legend(
-            handles=handles, loc="outside lower center", ncols=min(len(handles), 4), frameon=False
+            handles=handles, loc="outside lower center", ncols=min(len(handles), 2), frameon=False
         )
 
 
