@@ -38,7 +38,7 @@ from kdvsweep.sweep.cluster import (
 )
 
 ROOT = Path(__file__).resolve().parents[1]
-DOCS = ROOT / "docs" / "cluster.md"
+DOCS = ROOT / "README.md"
 REQUIRE_SLURM = os.environ.get("KDVSWEEP_REQUIRE_SLURM") == "1"
 #: Written by .ci/slurm-up.sh when it fails: its reason.
 SLURM_UP_ERROR = Path("/run/kdvsweep-slurm-up.error")
@@ -55,8 +55,9 @@ def minimal(**batch: Any) -> dict[str, Any]:
 
 
 def test_documented_example_profile_is_valid(tmp_path: Path) -> None:
-    # The first TOML block of docs/cluster.md is the example users copy: it must load as written.
-    blocks = re.findall(r"```toml\n(.*?)```", DOCS.read_text(encoding="utf-8"), flags=re.S)
+    # The README's cluster profile example is what users copy: it must load as written.
+    section = DOCS.read_text(encoding="utf-8").split("## Running a sweep on a batch cluster")[1]
+    blocks = re.findall(r"```toml\n(.*?)```", section, flags=re.S)
     assert blocks, f"{DOCS} has no ```toml block"
     path = tmp_path / "mycluster.toml"
     path.write_text(blocks[0], encoding="utf-8")

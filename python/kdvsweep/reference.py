@@ -29,6 +29,8 @@ CONTOUR_POINTS = 64
 _SAFETY = 0.9
 _SHRINK_LIMIT = 0.2
 _GROWTH_LIMIT = 5.0
+# Accepted growth below this keeps the step (hysteresis, as the core: it reuses its exponentials).
+_HOLD_LIMIT = 1.25
 _DEFAULT_TOL = 1e-9
 
 Spectrum = np.ndarray
@@ -405,6 +407,8 @@ class ReferenceSimulation:
             factor = _GROWTH_LIMIT if err == 0 else _SAFETY * (self.tol / err) ** 0.25
             factor = min(max(factor, _SHRINK_LIMIT), _GROWTH_LIMIT)
             if err <= self.tol:
+                if 1.0 <= factor < _HOLD_LIMIT:
+                    factor = 1.0
                 v, nv = v_new, n_new
                 self.time = target if landing else self.time + h
                 self.steps += 1

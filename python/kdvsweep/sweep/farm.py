@@ -76,15 +76,19 @@ MAX_CHUNK_RUNS = 500
 #: Task retries after an exception (a lost worker is rescheduled by the scheduler itself).
 RETRIES = 2
 
-#: dask settings for the embedded cluster's workers (read when each nanny starts, so they hold
-#: for the workers it restarts too). Measured on the test sweep, each of these defaults made a
-#: run in a worker markedly slower than the same run in a plain process (about 1.7x for the
-#: malloc setting): the statistical profiler samples the running task's stack every 10 ms, and
-#: MALLOC_TRIM_THRESHOLD_=65536 makes glibc return memory on nearly every free of a NumPy array.
-#: The worker's memory stays flat without it (see bench_sweep).
+#: dask settings for the embedded cluster (read when the scheduler and each nanny start, so they
+#: hold for restarted workers too). Measured here: with the defaults, a run in a worker was
+#: markedly slower than in a plain process (about 1.7x from the malloc setting alone: glibc then
+#: returns memory on nearly every free of a NumPy array; the statistical profiler samples the
+#: running task every 10 ms), and an idle 2-worker cluster used 15% of a core (event-loop health
+#: ticks every 20 ms, system and memory monitors every 0.5 s and 0.1 s); 3% with the longer
+#: intervals below. Worker memory stays flat without the malloc setting (see bench_sweep).
 WORKER_CONFIG = {
     "distributed.worker.profile.enabled": False,
     "distributed.nanny.pre-spawn-environ.MALLOC_TRIM_THRESHOLD_": None,
+    "distributed.admin.tick.interval": "1s",
+    "distributed.admin.system-monitor.interval": "2s",
+    "distributed.worker.memory.monitor-interval": "1s",
 }
 
 
