@@ -45,7 +45,7 @@ _TOP = ("sweep", "model", "initial", "run", "vary", "derive", "sizing")
 _SWEEP = ("name", "note")
 _MODEL = ("equation", "points", "length", "scheme", "dt", "tol")
 _EQUATION = ("preset", "a", "b", "d", "f", "g", "v", "dealias")
-_RUN = ("end", "frame_every", "keep_frames", "keep_stride")
+_RUN = ("end", "frame_every", "keep_frames", "keep_stride", "predict_content")
 _SIZING = ("tail",)
 _SOLITON_SIZES = ("kappa", "amplitude", "speed")
 _INITIAL = {
@@ -196,6 +196,7 @@ class _Template:
     frame_every: float
     keep_frames: bool
     keep_stride: int
+    predict_content: bool
     tail: float
     sizing_given: bool
     base: Path
@@ -259,6 +260,7 @@ def _read_template(src: Source, doc: dict, base: Path, stem: str) -> _Template:
     frame_every = run.number("frame_every", positive=True)
     keep_frames = run.flag("keep_frames", default=False)
     keep_stride = run.integer("keep_stride", default=1, minimum=1)
+    predict_content = run.flag("predict_content", default=False)
 
     stab = Table(src, top.raw("sizing", {}), "sizing", _SIZING)
     tail = stab.number("tail", default=DEFAULT_TAIL, positive=True)
@@ -301,6 +303,7 @@ def _read_template(src: Source, doc: dict, base: Path, stem: str) -> _Template:
         frame_every=float(frame_every),
         keep_frames=keep_frames,
         keep_stride=keep_stride,
+        predict_content=predict_content,
         tail=float(tail),
         sizing_given=top.has("sizing"),
         base=base,
@@ -737,6 +740,8 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
         "store_frames": tpl.keep_frames,
         "frame_stride": tpl.keep_stride,
     }
+    if tpl.predict_content:  # only when asked, so the digests of other sweeps stay as they were
+        run["predict_content"] = True
     return RunSpec(ctx.run_id, dict(ctx.params), model, initial, run)
 
 
