@@ -397,7 +397,7 @@ def relative_error(
     df = _with_errors(solitons).dropna(subset=["shift_rel_error", parameter])
     df = df[df["shift_rel_error"] > 0]
     if ax is None:
-        fig = _figure(7.5, 5.0)
+        fig = _figure(7.5, 6.0)
         ax = fig.add_subplot()
     else:
         fig = ax.get_figure()
@@ -423,7 +423,8 @@ def relative_error(
     ax.set_ylabel("relative shift error")
     ax.grid(alpha=0.3, which="both")
     if len(df):
-        ax.legend(loc="best", ncol=2 if df["soliton"].nunique() * len(group_by) > 4 else 1)
+        # Outside the axes: with several groups a legend inside would cover the points.
+        fig.legend(loc="outside lower center", ncols=2, frameon=False, fontsize=9)
     return fig
 
 
