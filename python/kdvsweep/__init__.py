@@ -6,6 +6,7 @@ A Rust pseudo-spectral core stepped from Python; see the README for the job and 
 from . import analysis, exact, initial, spectrum, sweep, theory
 from .exceptions import ConfigError, KdvsweepError, NumericalError, ShapeError
 from .model import Equation, Grid
+from .results import Results, load
 from .simulation import SCHEMES, Simulation, invariants
 
 __version__ = "0.1.0"
@@ -17,6 +18,7 @@ __all__ = [
     "Grid",
     "KdvsweepError",
     "NumericalError",
+    "Results",
     "ShapeError",
     "Simulation",
     "__version__",
@@ -24,6 +26,7 @@ __all__ = [
     "exact",
     "initial",
     "invariants",
+    "load",
     "spectrum",
     "sweep",
     "theory",
