@@ -31,3 +31,43 @@ def periodic_soliton(
         else:
             total += 2 * kappa / np.cosh(2 * kappa * xi)
     return total
+
+
+def pair_sweep_text(
+    name: str,
+    k2: list[float],
+    bad: int | None = None,
+    frame_every: float = 0.2,
+    keep_stride: int | None = None,
+) -> str:
+    """A small sweep file of KdV pairs: kappa1 = 0.8 overtakes kappa2, sizes chosen automatically.
+
+    Run ``bad`` gets dt = 2, with which ETDRK4 loses the solution, so a failed row travels the
+    same way as the others (common practice, no source); the rest use dt = 0.01.
+    """
+    dts = [2.0 if i == bad else 0.01 for i in range(len(k2))]
+    frames = "" if keep_stride is None else f"keep_frames = true\nkeep_stride = {keep_stride}\n"
+    return f"""
+[sweep]
+name = "{name}"
+
+[[vary]]
+k2 = {k2!r}
+dt = {dts!r}
+
+[model]
+equation = "kdv"
+points = "auto"
+length = "auto"
+scheme = "etdrk4"
+dt = "dt"
+
+[initial]
+kind = "solitons"
+kappa = [0.8, "k2"]
+position = "auto"
+
+[run]
+end = "auto"
+frame_every = {frame_every}
+{frames}"""

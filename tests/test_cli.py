@@ -17,6 +17,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
+from conftest import pair_sweep_text
 
 from kdvsweep import cli
 from kdvsweep.results import Results, load
@@ -28,33 +29,7 @@ BAD = 3  # dt = 2 on this run: stored as failed
 
 
 def sweep_text(k2: list[float] = K2, name: str = "cli-test") -> str:
-    dts = [2.0 if i == BAD else 0.01 for i in range(len(k2))]
-    return f"""
-[sweep]
-name = "{name}"
-
-[[vary]]
-k2 = {k2!r}
-dt = {dts!r}
-
-[model]
-equation = "kdv"
-points = "auto"
-length = "auto"
-scheme = "etdrk4"
-dt = "dt"
-
-[initial]
-kind = "solitons"
-kappa = [0.8, "k2"]
-position = "auto"
-
-[run]
-end = "auto"
-frame_every = 0.2
-keep_frames = true
-keep_stride = 10
-"""
+    return pair_sweep_text(name, k2, bad=BAD, keep_stride=10)
 
 
 def kdvsweep(*args: str, **kw: object) -> subprocess.Popen[str]:

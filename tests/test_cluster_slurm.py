@@ -23,6 +23,7 @@ from pathlib import Path
 from typing import Any, NoReturn
 
 import pytest
+from conftest import pair_sweep_text
 
 from kdvsweep.exceptions import ConfigError
 from kdvsweep.sweep.cluster import (
@@ -399,30 +400,7 @@ def test_workers_that_never_start_raise_and_cancel(
 #: gets dt = 2, with which ETDRK4 loses the solution, so a failed row travels the same way.
 K2 = [0.42, 0.46, 0.50, 0.54, 0.58, 0.62, 0.45, 0.55]
 BAD = 3
-SWEEP_TEXT = f"""
-[sweep]
-name = "cluster-test"
-
-[[vary]]
-k2 = {K2!r}
-dt = {[2.0 if i == BAD else 0.01 for i in range(len(K2))]!r}
-
-[model]
-equation = "kdv"
-points = "auto"
-length = "auto"
-scheme = "etdrk4"
-dt = "dt"
-
-[initial]
-kind = "solitons"
-kappa = [0.8, "k2"]
-position = "auto"
-
-[run]
-end = "auto"
-frame_every = 0.1
-"""
+SWEEP_TEXT = pair_sweep_text("cluster-test", K2, bad=BAD, frame_every=0.1)
 
 
 @pytest.fixture(scope="module")

@@ -19,6 +19,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 import pytest
+from conftest import pair_sweep_text
 
 from kdvsweep.exceptions import KdvsweepError
 from kdvsweep.results import Results, load
@@ -33,33 +34,7 @@ TIMING = list(TIMING_COLUMNS)
 
 def sweep_text(k2: list[float] = K2, bad: int | None = BAD) -> str:
     """A sweep file: kappa1 = 0.8 overtakes kappa2, sizes chosen automatically per run."""
-    dts = [2.0 if i == bad else 0.01 for i in range(len(k2))]
-    return f"""
-[sweep]
-name = "farm-test"
-
-[[vary]]
-k2 = {k2!r}
-dt = {dts!r}
-
-[model]
-equation = "kdv"
-points = "auto"
-length = "auto"
-scheme = "etdrk4"
-dt = "dt"
-
-[initial]
-kind = "solitons"
-kappa = [0.8, "k2"]
-position = "auto"
-
-[run]
-end = "auto"
-frame_every = 0.2
-keep_frames = true
-keep_stride = 5
-"""
+    return pair_sweep_text("farm-test", k2, bad=bad, keep_stride=5)
 
 
 def write_sweep(folder: Path, text: str, name: str = "sweep.toml") -> Sweep:
