@@ -234,8 +234,18 @@ impl Simulation {
     /// Advances by `duration` (at least 0).
     ///
     /// # Errors
-    /// As [`Simulation::advance_to`].
+    /// As [`Simulation::advance_with`].
     pub fn advance(&mut self, duration: f64) -> Result<()> {
+        self.advance_with(duration, &mut || true)
+    }
+
+    /// Advances by `duration` (at least 0) and checks the final state; `hook` as in
+    /// [`Simulation::advance_to`].
+    ///
+    /// # Errors
+    /// [`CoreError::InvalidParameter`] for a negative or non-finite duration, and the errors of
+    /// [`Simulation::advance_to`] and [`Simulation::check_now`].
+    pub fn advance_with(&mut self, duration: f64, hook: &mut dyn FnMut() -> bool) -> Result<()> {
         if !(duration.is_finite() && duration >= 0.0) {
             return Err(CoreError::invalid(
                 "duration",
@@ -243,7 +253,7 @@ impl Simulation {
                 "a finite number >= 0",
             ));
         }
-        self.advance_to(self.time + duration, &mut || true)?;
+        self.advance_to(self.time + duration, hook)?;
         self.check_now()
     }
 

@@ -51,16 +51,8 @@ impl Simulation {
     }
 
     fn advance(&mut self, py: Python<'_>, duration: f64) -> PyResult<()> {
-        if !(duration.is_finite() && duration >= 0.0) {
-            return Err(errors::ConfigError::new_err(format!(
-                "duration: expected a finite number >= 0, got {duration}"
-            )));
-        }
         let sim = &mut self.inner;
-        let target = sim.time() + duration;
-        run_detached(py, move |hook| {
-            sim.advance_to(target, hook).and_then(|()| sim.check_now())
-        })
+        run_detached(py, move |hook| sim.advance_with(duration, hook))
     }
 
     fn record<'py>(
