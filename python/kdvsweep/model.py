@@ -6,13 +6,19 @@ The model is ``u_t + (a u + b u^2) u_x + d u_xxx + f u_xxxxx = -g u + v u_xx`` o
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from .exceptions import ConfigError
 
 MIN_POINTS = 16
+
+#: The coefficients of the model, in the order of its terms.
+COEFFICIENTS = ("a", "b", "d", "f", "g", "v")
 
 
 @dataclass(frozen=True)
@@ -77,7 +83,7 @@ class Equation:
     name: str = field(default="custom", compare=False)
 
     def __post_init__(self) -> None:
-        for key in ("a", "b", "d", "f", "g", "v"):
+        for key in COEFFICIENTS:
             value = getattr(self, key)
             if isinstance(value, bool) or not isinstance(value, int | float | np.floating):
                 raise ConfigError(f"Equation: {key} must be a number, got {value!r}")
@@ -128,8 +134,49 @@ class Equation:
         return "linear"
 
     @property
+    def perturbed(self) -> bool:
+        """True when a term beyond the integrable flux and ``u_xxx`` is on (``f``, ``g`` or ``v``)."""
+        return self.f != 0.0 or self.g != 0.0 or self.v != 0.0
+
+    @property
+    def conservative(self) -> bool:
+        """True without damping or viscosity (``g = v = 0``): mass, momentum and energy are kept."""
+        return self.g == 0.0 and self.v == 0.0
+
+    @property
+    def integrable(self) -> bool:
+        """True for unperturbed KdV or focusing mKdV with ``d != 0``: the equations whose
+        solitons, pairwise phase shifts and inverse scattering transform kdvsweep computes."""
+        return not self.perturbed and self.soliton_form_or_none() is not None
+
+    def soliton_form_or_none(self) -> SolitonForm | None:
+        """:attr:`soliton_form`, or ``None`` when this equation has no soliton formula here."""
+        if self.d != 0 and self.b == 0 and self.a != 0:
+            return SolitonForm("kdv", 6.0 * self.d / self.a, self.d)
+        if self.d != 0 and self.a == 0 and self.b * self.d > 0:
+            return SolitonForm("mkdv", math.sqrt(6.0 * self.d / self.b), self.d)
+        return None
+
+    @property
+    def soliton_form(self) -> SolitonForm:
+        """The one-soliton family of this equation, for its amplitude/speed/width conversions.
+
+        Raises :class:`ConfigError` unless the flux is KdV (``a != 0, b = 0``) or focusing mKdV
+        (``a = 0, b d > 0``) with ``d != 0``. Perturbations ``f, g, v`` are allowed: the solitons of
+        the unperturbed equation are then initial data and first estimates.
+        """
+        form = self.soliton_form_or_none()
+        if form is None:
+            raise ConfigError(
+                f"equation {self.name!r} ({self.describe()}) has no soliton formula here; "
+                "expected KdV (a != 0, b = 0) or focusing mKdV (a = 0, b d > 0), with d != 0"
+            )
+        return form
+
+    @property
     def dealias_fraction(self) -> float:
         """The fraction of the Nyquist band kept in the nonlinear term."""
+        # TODO(rust helper): ask the core (_core.dealias_fraction(**self.core_fields())).
         if self.dealias is not None:
             return float(self.dealias)
         if self.b != 0:
@@ -143,5 +190,139 @@ class Equation:
         """``(a, b, d, f, g, v)``."""
         return (self.a, self.b, self.d, self.f, self.g, self.v)
 
+    def core_fields(self) -> dict[str, float | None]:
+        """The named fields the Rust core takes: ``a, b, d, f, g, v`` and ``dealias`` (or None)."""
+        dealias = None if self.dealias is None else float(self.dealias)
+        return {
+            "a": self.a,
+            "b": self.b,
+            "d": self.d,
+            "f": self.f,
+            "g": self.g,
+            "v": self.v,
+            "dealias": dealias,
+        }
 
-__all__ = ["Equation", "Grid"]
+    def columns(self) -> dict[str, float | str]:
+        """The equation as columns of the runs table: ``equation`` (the preset name, or ``"custom"``),
+        ``eq_a .. eq_v`` and ``dealias`` (the fraction actually used)."""
+        out: dict[str, float | str] = {"equation": self.name}
+        out.update({f"eq_{key}": getattr(self, key) for key in COEFFICIENTS})
+        out["dealias"] = self.dealias_fraction
+        return out
+
+    @classmethod
+    def from_columns(cls, row: Mapping[str, Any]) -> Equation:
+        """The equation stored in a row of the runs table (the inverse of :meth:`columns`).
+
+        Raises :class:`ConfigError` naming the missing column for stores written without them.
+        """
+        missing = [f"eq_{key}" for key in COEFFICIENTS if f"eq_{key}" not in row]
+        if missing:
+            raise ConfigError(
+                f"the runs table has no column {missing[0]}: the equation of this run is not stored "
+                "(a store written by kdvsweep before 0.2; run the sweep again into a new folder)"
+            )
+        coefs = {key: float(row[f"eq_{key}"]) for key in COEFFICIENTS}
+        dealias = row.get("dealias")
+        name = row.get("equation")
+        return cls(
+            **coefs,
+            dealias=None if dealias is None or not math.isfinite(float(dealias)) else float(dealias),
+            name=str(name) if isinstance(name, str) and name else "custom",
+        )
+
+    def describe(self) -> str:
+        """A short formula of the non-zero terms, e.g. ``u_t + 6 u u_x + u_xxx = -0.001 u``."""
+
+        def term(coef: float, body: str, first: bool) -> str:
+            mag = abs(coef)
+            num = "" if mag == 1.0 and body else f"{mag:.4g} "
+            if first:
+                return ("-" if coef < 0 else "") + num + body
+            return (" - " if coef < 0 else " + ") + num + body
+
+        left = "u_t"
+        for coef, body in ((self.a, "u u_x"), (self.b, "u^2 u_x"), (self.d, "u_xxx"), (self.f, "u_xxxxx")):
+            if coef != 0:
+                left += term(coef, body, False)
+        right = ""
+        for coef, body in ((-self.g, "u"), (self.v, "u_xx")):
+            if coef != 0:
+                right += term(coef, body, not right)
+        return f"{left} = {right or '0'}"
+
+
+@dataclass(frozen=True)
+class SolitonForm:
+    """The one-soliton family of an equation, by its exact scaling onto a canonical form.
+
+    Canonical forms: KdV ``u_t + 6 u u_x + u_xxx = 0`` has ``2 kappa^2 sech^2(kappa (x - 4 kappa^2 t
+    - x0))`` (Korteweg & de Vries 1895; normalised as in Ablowitz 2011, Sec. 1.1); focusing mKdV
+    ``u_t + 6 u^2 u_x + u_xxx = 0`` has ``2 kappa sech(2 kappa (x - 4 kappa^2 t - x0))`` (Wadati
+    1973), with ``kappa`` the eigenvalue parameter of the inverse scattering transform. A general ``a`` (or ``b``) and ``d`` is
+    reached by ``u = alpha w(x, d t)`` with ``alpha = 6 d / a`` (KdV) or ``sqrt(6 d / b)`` (mKdV), so
+    the speed is ``4 d kappa^2`` and the height ``|alpha|`` times the canonical one.
+    """
+
+    family: str  # "kdv" or "mkdv"
+    alpha: float  # u = alpha w, w canonical
+    d: float  # t' = d t
+
+    @property
+    def sign(self) -> int:
+        """Sign of a KdV soliton (+1 elevation, -1 depression); +1 for mKdV (polarity is free)."""
+        return 1 if self.alpha > 0 else -1
+
+    @property
+    def polarities(self) -> tuple[int, ...]:
+        """``(sign,)`` for KdV, ``(1, -1)`` for mKdV."""
+        return (1, -1) if self.family == "mkdv" else (self.sign,)
+
+    def amplitude(self, kappa: ArrayLike) -> Any:
+        """Peak ``|u|``: ``|alpha| 2 kappa^2`` (KdV), ``|alpha| 2 kappa`` (mKdV)."""
+        k = np.asarray(kappa, dtype=np.float64)
+        out = abs(self.alpha) * (2.0 * k**2 if self.family == "kdv" else 2.0 * k)
+        return float(out) if out.ndim == 0 else out
+
+    def speed(self, kappa: ArrayLike) -> Any:
+        """``4 d kappa^2`` in both families."""
+        k = np.asarray(kappa, dtype=np.float64)
+        out = 4.0 * self.d * k**2
+        return float(out) if out.ndim == 0 else out
+
+    def width(self, kappa: ArrayLike) -> Any:
+        """Inverse of the sech argument's scale: ``1/kappa`` (KdV), ``1/(2 kappa)`` (mKdV)."""
+        k = np.asarray(kappa, dtype=np.float64)
+        out = 1.0 / k if self.family == "kdv" else 0.5 / k
+        return float(out) if out.ndim == 0 else out
+
+    def kappa_from_amplitude(self, amplitude: float) -> float:
+        """Invert :meth:`amplitude` (``amplitude`` is the peak ``|u|``, > 0)."""
+        if not amplitude > 0:
+            raise ConfigError(f"solitons: amplitude must be positive, got {amplitude}")
+        scaled = amplitude / (2.0 * abs(self.alpha))
+        return math.sqrt(scaled) if self.family == "kdv" else scaled
+
+    def kappa_from_speed(self, speed: float) -> float:
+        """Invert :meth:`speed` (``speed`` must have the sign of ``d``)."""
+        if not speed / self.d > 0:
+            raise ConfigError(f"solitons: speed must have the sign of d = {self.d}, got {speed}")
+        return 0.5 * math.sqrt(speed / self.d)
+
+    def profile(self, x: ArrayLike, kappa: float, x0: float = 0.0, sign: int = 1) -> np.ndarray:
+        """One soliton centred at ``x0`` on the points ``x`` (no periodic images): ``alpha 2 kappa^2
+        sech^2(kappa (x - x0))`` (KdV) or ``sign alpha 2 kappa sech(2 kappa (x - x0))`` (mKdV)."""
+        z = np.asarray(x, dtype=np.float64) - x0
+        if self.family == "kdv":
+            return self.alpha * 2.0 * kappa**2 * _sech(kappa * z) ** 2
+        return sign * self.alpha * 2.0 * kappa * _sech(2.0 * kappa * z)
+
+
+def _sech(z: np.ndarray) -> np.ndarray:
+    """``sech z`` as ``2 e^{-|z|} / (1 + e^{-2|z|})``: no overflow for large ``|z|``."""
+    e = np.exp(-np.abs(z))
+    return 2.0 * e / (1.0 + e * e)
+
+
+__all__ = ["COEFFICIENTS", "Equation", "Grid", "SolitonForm"]
