@@ -17,14 +17,15 @@ from .model import Equation
 
 
 def _coefficients(equation: str | Equation) -> tuple[str, float, float]:
-    eq = Equation.preset(equation) if isinstance(equation, str) else equation
-    if eq.family == "kdv" and eq.f == eq.g == eq.v == 0:
-        return "kdv", eq.a, eq.d
-    if eq.family == "mkdv" and eq.f == eq.g == eq.v == 0 and eq.b * eq.d > 0:
-        return "mkdv", eq.b, eq.d
-    raise ConfigError(
-        f"exact: no exact soliton for {eq!r}; expected an unperturbed KdV or focusing mKdV equation"
-    )
+    """``(family, nonlinear coefficient, d)`` of an unperturbed KdV or focusing mKdV equation."""
+    eq = Equation.coerce(equation, "exact")
+    form = eq.soliton_form_or_none()
+    if form is None or eq.perturbed:
+        raise ConfigError(
+            f"exact: no exact soliton for {eq.describe()}; expected an unperturbed KdV or "
+            "focusing mKdV equation"
+        )
+    return form.family, (eq.a if form.family == "kdv" else eq.b), eq.d
 
 
 def multisoliton(

@@ -122,6 +122,20 @@ class Equation:
             raise ConfigError(f"Equation: unknown preset {name!r}; expected one of {valid}")
         return cls(**{**_PRESETS[name], **overrides}, name=name)
 
+    @classmethod
+    def coerce(cls, equation: str | Equation, who: str = "equation") -> Equation:
+        """``equation`` itself, or the preset it names; ConfigError (prefixed ``who``) otherwise."""
+        if isinstance(equation, Equation):
+            return equation
+        if isinstance(equation, str):
+            try:
+                return cls.preset(equation)
+            except ConfigError as err:
+                raise ConfigError(f"{who}: {err}") from None
+        raise ConfigError(
+            f"{who}: equation must be a preset name or a kdvsweep.Equation, got {equation!r}"
+        )
+
     @property
     def family(self) -> str:
         """``"kdv"`` (quadratic flux only), ``"mkdv"`` (cubic only), ``"gardner"`` or ``"linear"``."""
@@ -228,7 +242,9 @@ class Equation:
         name = row.get("equation")
         return cls(
             **coefs,
-            dealias=None if dealias is None or not math.isfinite(float(dealias)) else float(dealias),
+            dealias=None
+            if dealias is None or not math.isfinite(float(dealias))
+            else float(dealias),
             name=str(name) if isinstance(name, str) and name else "custom",
         )
 
@@ -243,7 +259,12 @@ class Equation:
             return (" - " if coef < 0 else " + ") + num + body
 
         left = "u_t"
-        for coef, body in ((self.a, "u u_x"), (self.b, "u^2 u_x"), (self.d, "u_xxx"), (self.f, "u_xxxxx")):
+        for coef, body in (
+            (self.a, "u u_x"),
+            (self.b, "u^2 u_x"),
+            (self.d, "u_xxx"),
+            (self.f, "u_xxxxx"),
+        ):
             if coef != 0:
                 left += term(coef, body, False)
         right = ""
@@ -301,8 +322,18 @@ class SolitonForm:
         """Invert :meth:`amplitude` (``amplitude`` is the peak ``|u|``, > 0)."""
         if not amplitude > 0:
             raise ConfigError(f"solitons: amplitude must be positive, got {amplitude}")
-        scaled = amplitude / (2.0 * abs(self.alpha))
-        return math.sqrt(scaled) if self.family == "kdv" else scaled
+        return float(self.kappa_of_height(amplitude))
+
+    def kappa_of_height(self, height: ArrayLike) -> Any:
+        """:meth:`amplitude` inverted elementwise for measured heights (their sign is ignored)."""
+        scaled = np.abs(np.asarray(height, dtype=np.float64)) / (2.0 * abs(self.alpha))
+        out = np.sqrt(scaled) if self.family == "kdv" else scaled
+        return float(out) if out.ndim == 0 else out
+
+    def tail_length(self, kappa: ArrayLike) -> Any:
+        """e-folding length ``1 / (2 kappa)`` of the soliton's tail (both families)."""
+        out = 0.5 / np.asarray(kappa, dtype=np.float64)
+        return float(out) if out.ndim == 0 else out
 
     def kappa_from_speed(self, speed: float) -> float:
         """Invert :meth:`speed` (``speed`` must have the sign of ``d``)."""

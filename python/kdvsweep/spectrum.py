@@ -3,12 +3,12 @@
 KdV ``u_t + 6 u u_x + u_xxx = 0``: the solitons emerging from ``u0`` are the bound states of
 ``-psi'' - u0 psi = -kappa^2 psi`` (potential ``-u0``; for KdV(-) ``u_t - 6 u u_x + u_xxx = 0``
 it is ``+u0``), amplitude ``2 kappa^2``, speed ``4 kappa^2`` (Gardner, Greene, Kruskal & Miura
-1967; REFERENCES.md 1.1, 5). Focusing mKdV ``u_t + 6 u^2 u_x + u_xxx = 0``: the eigenvalues of
+1967; Pöschl & Teller 1933 for ``A sech^2 x``). Focusing mKdV ``u_t + 6 u^2 u_x + u_xxx = 0``: the eigenvalues of
 the Zakharov-Shabat (ZS) problem ``v1' = -i zeta v1 + q v2``, ``v2' = i zeta v2 - q v1``,
 ``q = u0``; ``zeta = i kappa`` is a soliton of amplitude ``2 kappa`` (either polarity) and speed
-``4 kappa^2``, a pair ``zeta = +-xi + i kappa`` a breather (REFERENCES.md 2.1, 2.4). General
+``4 kappa^2``, a pair ``zeta = +-xi + i kappa`` a breather (Wadati 1973; Satsuma & Yajima 1974). General
 ``a`` (or ``b``) and ``d`` are mapped exactly by ``u = alpha w(x, d t)``, ``alpha = 6 d / a``
-(KdV) or ``sqrt(6 d / b)`` (mKdV), as in :mod:`kdvsweep.initial`.
+(KdV) or ``sqrt(6 d / b)`` (mKdV): :attr:`kdvsweep.Equation.soliton_form`.
 
 Method
 ------
@@ -112,7 +112,7 @@ class Breather:
     """A complex Zakharov-Shabat pair ``zeta = +-xi + i kappa`` (focusing mKdV), physical units.
 
     ``envelope_speed = 4 d (kappa^2 - 3 xi^2)`` and ``carrier_speed = 4 d (3 kappa^2 - xi^2)``
-    (REFERENCES.md 2.4).
+    (the Hirota 2-soliton with complex conjugate wavenumbers: Wadati 1973; Lamb 1980, from memory).
     """
 
     kappa: float
@@ -236,24 +236,20 @@ class _Form:
 
 
 def _form(equation: str | Equation) -> _Form:
-    eq = Equation.preset(equation) if isinstance(equation, str) else equation
-    if not isinstance(eq, Equation):
-        raise ConfigError(
-            f"bound_states: equation must be a preset name or a kdvsweep.Equation, got {eq!r}"
-        )
-    if eq.f != 0 or eq.g != 0 or eq.v != 0:
+    eq = Equation.coerce(equation, "bound_states")
+    if eq.perturbed:
         raise ConfigError(
             f"bound_states: equation {eq.name!r} has perturbation terms (f={eq.f}, g={eq.g}, "
             f"v={eq.v}); expected an integrable KdV or mKdV equation (f = g = v = 0)"
         )
-    if eq.d != 0 and eq.a != 0 and eq.b == 0:
-        return _Form("kdv", 6.0 * eq.d / eq.a, eq.d, True)
-    if eq.d != 0 and eq.a == 0 and eq.b != 0:
-        focusing = eq.b * eq.d > 0
-        return _Form("mkdv", float(np.sqrt(abs(6.0 * eq.d / eq.b))), eq.d, focusing)
+    solitons = eq.soliton_form_or_none()
+    if solitons is not None:
+        return _Form(solitons.family, solitons.alpha, solitons.d, True)
+    if eq.family == "mkdv" and eq.d != 0:  # defocusing: ZS is self-adjoint, no solitons
+        return _Form("mkdv", float(np.sqrt(abs(6.0 * eq.d / eq.b))), eq.d, False)
     raise ConfigError(
-        f"bound_states: equation {eq.name!r} (a={eq.a}, b={eq.b}, d={eq.d}) has no spectral "
-        "problem here; expected KdV (a != 0, b = 0, d != 0) or mKdV (a = 0, b != 0, d != 0)"
+        f"bound_states: equation {eq.name!r} ({eq.describe()}) has no spectral problem here; "
+        "expected KdV (a != 0, b = 0, d != 0) or mKdV (a = 0, b != 0, d != 0)"
     )
 
 

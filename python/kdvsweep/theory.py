@@ -47,7 +47,7 @@ from collections.abc import Sequence
 import numpy as np
 
 from .exceptions import ConfigError, ShapeError
-from .model import Equation
+from .model import Equation, SolitonForm
 
 # Lax 1968: amplitude ratios of a KdV pair at which the interaction changes character.
 LAX_EXCHANGE_LIMIT = (3.0 + math.sqrt(5.0)) / 2.0
@@ -56,27 +56,16 @@ LAX_SINGLE_PEAK_LIMIT = 3.0
 REGIMES = ("exchange", "mixed", "absorb-emit")
 
 
-def _scales(equation: str | Equation) -> tuple[str, float, float]:
-    """``(family, alpha, d)``: the exact scaling ``u = alpha w(x, d t)`` to the canonical form."""
-    if isinstance(equation, str):
-        try:
-            eq = Equation.preset(equation)
-        except ConfigError as err:
-            raise ConfigError(f"theory: {err}") from None
-    elif isinstance(equation, Equation):
-        eq = equation
-    else:
+def _form(equation: str | Equation) -> SolitonForm:
+    """The soliton family of ``equation`` (ConfigError for an equation without one)."""
+    eq = Equation.coerce(equation, "theory")
+    form = eq.soliton_form_or_none()
+    if form is None:
         raise ConfigError(
-            f"theory: equation must be a preset name or a kdvsweep.Equation, got {equation!r}"
+            "theory: soliton formulas cover KdV (a != 0, b = 0) and focusing mKdV (b d > 0); "
+            f"got {eq.describe()}"
         )
-    if eq.family == "kdv":
-        return "kdv", 6.0 * eq.d / eq.a, eq.d
-    if eq.family == "mkdv" and eq.b * eq.d > 0:
-        return "mkdv", math.sqrt(6.0 * eq.d / eq.b), eq.d
-    raise ConfigError(
-        f"theory: soliton formulas cover KdV (a != 0, b = 0) and focusing mKdV (b d > 0); "
-        f"got {eq!r}"
-    )
+    return form
 
 
 def _as_kappas(kappas: object, name: str = "kappas") -> np.ndarray:
@@ -90,47 +79,38 @@ def _as_kappas(kappas: object, name: str = "kappas") -> np.ndarray:
 
 def family(equation: str | Equation) -> str:
     """``"kdv"`` or ``"mkdv"``: which soliton formulas apply to ``equation`` (else ConfigError)."""
-    return _scales(equation)[0]
+    return _form(equation).family
 
 
 def polarities(equation: str | Equation) -> tuple[int, ...]:
     """Soliton polarities of ``equation``: ``(1,)`` or ``(-1,)`` for KdV, ``(1, -1)`` for mKdV."""
-    fam, alpha, _ = _scales(equation)
-    if fam == "mkdv":
-        return (1, -1)
-    return (1,) if alpha > 0 else (-1,)
+    return _form(equation).polarities
 
 
 def speeds(kappas: object, equation: str | Equation = "kdv") -> np.ndarray:
     """Soliton speeds ``4 d kappa^2`` (``4 kappa^2`` in the canonical forms)."""
-    _, _, d = _scales(equation)
-    return 4.0 * d * _as_kappas(kappas) ** 2
+    return np.asarray(_form(equation).speed(_as_kappas(kappas)))
 
 
 def amplitudes(kappas: object, equation: str | Equation = "kdv") -> np.ndarray:
     """Peak heights ``|u|``: ``2 kappa^2`` (KdV) or ``2 kappa`` (mKdV), times ``|alpha|``."""
-    fam, alpha, _ = _scales(equation)
-    ks = _as_kappas(kappas)
-    return abs(alpha) * (2.0 * ks**2 if fam == "kdv" else 2.0 * ks)
+    return np.asarray(_form(equation).amplitude(_as_kappas(kappas)))
 
 
 def tail_lengths(kappas: object) -> np.ndarray:
     """The e-folding length ``1 / (2 kappa)`` of a soliton's tail, the same for KdV and mKdV."""
-    return 0.5 / _as_kappas(kappas)
+    return np.asarray(0.5 / _as_kappas(kappas))
 
 
 def kappa_from_speed(speed: object, equation: str | Equation = "kdv") -> np.ndarray:
     """Invert :func:`speeds`: ``kappa = sqrt(c / (4 d))`` (NaN where ``c / d <= 0``)."""
-    _, _, d = _scales(equation)
-    c = np.asarray(speed, dtype=np.float64) / (4.0 * d)
+    c = np.asarray(speed, dtype=np.float64) / (4.0 * _form(equation).d)
     return np.sqrt(np.where(c > 0, c, np.nan))
 
 
 def kappa_from_amplitude(amplitude: object, equation: str | Equation = "kdv") -> np.ndarray:
     """Invert :func:`amplitudes` from a peak height ``|u|`` (its sign is ignored)."""
-    fam, alpha, _ = _scales(equation)
-    a = np.abs(np.asarray(amplitude, dtype=np.float64)) / abs(alpha)
-    return np.sqrt(a / 2.0) if fam == "kdv" else a / 2.0
+    return np.asarray(_form(equation).kappa_of_height(amplitude))
 
 
 def pair_shift(kappa_i: float, kappa_j: float) -> float:
@@ -171,7 +151,7 @@ def phase_shifts(
         ``Delta x_i = sum_j n_ij * pair_shift(kappa_i, kappa_j)`` (pairwise additivity:
         Zakharov 1971; GGKM 1974; Drazin & Johnson 1989 Problem 4.6).
     """
-    _scales(equation)
+    _form(equation)
     ks = _as_kappas(kappas)
     n = ks.size
     if collisions is None:

@@ -85,14 +85,7 @@ class RunAnalysis:
 
 
 def _equation(equation: str | Equation) -> Equation:
-    if isinstance(equation, Equation):
-        eq = equation
-    elif isinstance(equation, str):
-        eq = Equation.preset(equation)
-    else:
-        raise ConfigError(
-            f"analysis: equation must be a preset name or a kdvsweep.Equation, got {equation!r}"
-        )
+    eq = Equation.coerce(equation, "analysis")
     theory.family(eq)  # raises ConfigError for an equation without these solitons
     return eq
 
@@ -157,16 +150,12 @@ def _collision_matrix(n: int, pairs: Sequence[tuple[int, int]], counts: np.ndarr
 def _soliton_profile(
     x: np.ndarray, kappa: float, centre: float, sign: int, eq: Equation, length: float
 ) -> np.ndarray:
-    """The canonical soliton shape, scaled to ``eq``, with its two nearest periodic images."""
-    fam = theory.family(eq)
-    height = float(theory.amplitudes([kappa], eq)[0])
-    out = np.zeros_like(x)
-    for image in (-length, 0.0, length):
-        arg = 2.0 * kappa * (x - centre - image) if fam == "mkdv" else kappa * (x - centre - image)
-        e = np.exp(-np.abs(arg))
-        sech = 2.0 * e / (1.0 + e * e)  # 1/cosh without overflow
-        out += sign * height * (sech if fam == "mkdv" else sech**2)
-    return out
+    """The equation's soliton shape (polarity ``sign`` for mKdV; KdV's is the equation's) with its
+    two nearest periodic images."""
+    form = eq.soliton_form
+    return np.sum(
+        [form.profile(x, kappa, centre + image, sign) for image in (-length, 0.0, length)], axis=0
+    )
 
 
 def _radiation(

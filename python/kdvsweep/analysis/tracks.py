@@ -122,23 +122,19 @@ def _min_ring_gap(x: list[float], tails: list[float], length: float) -> float:
 
 
 class _Kinematics:
-    """Height -> tail length and speed for one equation (the theory scalings, evaluated once)."""
+    """Height -> kappa, tail length and speed for one equation (its soliton form)."""
 
     def __init__(self, equation: Equation | str) -> None:
-        self._fam = theory.family(equation)
-        self._height_scale = float(theory.amplitudes([1.0], equation)[0])  # height at kappa = 1
-        self._speed_scale = float(theory.speeds([1.0], equation)[0])  # speed at kappa = 1
+        self._form = Equation.coerce(equation, "analysis").soliton_form
 
     def tail(self, height: float) -> float:
-        h = abs(height) / self._height_scale
-        return 0.5 / (math.sqrt(h) if self._fam == "kdv" else h)
+        return float(self._form.tail_length(self._form.kappa_of_height(height)))
 
     def kappa(self, heights: np.ndarray) -> np.ndarray:
-        h = np.abs(heights) / self._height_scale
-        return np.sqrt(h) if self._fam == "kdv" else h
+        return np.asarray(self._form.kappa_of_height(heights))
 
     def speeds(self, heights: np.ndarray) -> np.ndarray:
-        return self._speed_scale * self.kappa(heights) ** 2
+        return np.asarray(self._form.speed(self.kappa(heights)))
 
 
 def check_record(frames: object, times: object, n: int) -> tuple[np.ndarray, np.ndarray]:
