@@ -5,7 +5,7 @@ Shift formula used throughout (the reference for every "shift" check below): for
 ``Delta x_2 = -(1/kappa_2) ln((kappa_1 + kappa_2)/(kappa_1 - kappa_2))`` - Drazin & Johnson 1989,
 *Solitons: an introduction*, Ch. 4 (the two-soliton solution and its phase shifts; the equation
 number is from memory and not checked, so none is given), equivalently Ablowitz & Segur 1981 Ch. 1;
-N solitons add pairwise (D&J Problem 4.6). REFERENCES.md 1.3-1.5 and 2.3 tabulate it. Each
+N solitons add pairwise (D&J Problem 4.6). Gardner, Greene, Kruskal & Miura 1974 and Zakharov & Shabat 1972 give it. Each
 expected value is computed here from that formula, not from kdvsweep.theory.
 
 Setup of the simulated collisions (``pair_record``): two one-solitons, built from
@@ -130,7 +130,7 @@ def test_interpolant_derivatives_match_numpy_spectral_derivative() -> None:
 
 @pytest.mark.parametrize("equation", ["kdv", "mkdv"])
 def test_peaks_to_round_off_on_resolved_solitons(equation: str) -> None:
-    # Reference: the exact centre of an analytic sech^2 / sech profile (REFERENCES.md 1.1, 2.1)
+    # Reference: the exact centre of an analytic sech^2 / sech profile (Korteweg & de Vries 1895; Ablowitz 2011 Sec. 1.1; Wadati 1973)
     # sampled at >= 8 points per width; the trigonometric interpolant is spectrally accurate.
     rng = np.random.default_rng(7)
     grid = kv.Grid(512, 60.0)
@@ -190,7 +190,7 @@ def test_noise_does_not_make_spurious_peaks() -> None:
 
 
 def test_tracking_unwraps_a_soliton_crossing_the_boundary() -> None:
-    # Reference: exact translation x0 + 4 kappa^2 t of the one-soliton (REFERENCES.md 1.1).
+    # Reference: exact translation x0 + 4 kappa^2 t of the one-soliton (Korteweg & de Vries 1895; Ablowitz 2011 Sec. 1.1).
     grid = kv.Grid(256, 40.0)
     k, x0 = 0.9, 12.0
     times = np.linspace(0.0, 20.0, 101)  # travels 64.8 = 1.6 domain lengths
@@ -227,9 +227,9 @@ def test_kdv_pair_shift_n512(ratio: float) -> None:
     expected = published_shifts(kappas)
     rel = np.abs(table["shift_measured"] - expected) / np.abs(expected)
     assert rel.max() < 1e-5, rel.tolist()
-    # The measured kappas (from the fitted speeds 4 kappa^2, REFERENCES.md 1.1) match the input.
+    # The measured kappas (from the fitted speeds 4 kappa^2, Korteweg & de Vries 1895; Ablowitz 2011 Sec. 1.1) match the input.
     np.testing.assert_allclose(table["kappa_measured"], kappas, rtol=1e-6)
-    # Sum rule: mass-weighted shifts cancel (REFERENCES.md 1.3; Miura, Gardner & Kruskal 1968).
+    # Sum rule: mass-weighted shifts cancel (Gardner, Greene, Kruskal & Miura 1974; Ablowitz & Segur 1981 Ch. 1; Miura, Gardner & Kruskal 1968).
     assert abs(theory.shift_balance(kappas, table["shift_measured"])) < 1e-5
     assert table["collisions"].tolist() == [1, 1]
     # The uncertainty is an honest bound here: within a factor 10 of the actual error or above it.
@@ -273,7 +273,7 @@ def test_collision_across_the_periodic_boundary() -> None:
 
 
 def test_three_soliton_shifts_are_sums_of_measured_pair_shifts() -> None:
-    # Pairwise additivity (Zakharov 1971; Drazin & Johnson 1989 Problem 4.6; REFERENCES.md 1.4),
+    # Pairwise additivity (Zakharov 1971; Drazin & Johnson 1989 Problem 4.6),
     # checked with measurements only: the 3-soliton shifts against the sums of the shifts measured
     # in the three separate pair collisions, and both against the formula. kappa_M^2 is the mean of
     # kappa_F^2 and kappa_S^2 so both neighbouring pairs close at the same rate, which lets every
@@ -309,7 +309,7 @@ def test_three_soliton_shifts_are_sums_of_measured_pair_shifts() -> None:
 @pytest.mark.parametrize("signs", [(1, 1), (1, -1)])
 def test_mkdv_pair_shifts_both_polarities(signs: tuple[int, int]) -> None:
     # mKdV u_t + 6u^2 u_x + u_xxx = 0, soliton 2k sech(2k(x - 4k^2 t)); shifts equal KdV's in kappa
-    # for either polarity (Zakharov & Shabat 1972, Wadati 1973 - REFERENCES.md 2.3, from memory
+    # for either polarity (Zakharov & Shabat 1972, Wadati 1973, from memory
     # there, confirmed there by tracking exact solutions). kappa_1 = 0.5 (amplitude 1, width 1):
     # n = 1024 gives 10.7 points per width; dt = 1.25e-3 as for mKdV in the demo sweep (at 2.5e-3
     # the opposite-polarity collision carries a 1.1e-5 time error).
@@ -330,7 +330,7 @@ def test_mkdv_pair_shifts_both_polarities(signs: tuple[int, int]) -> None:
 @pytest.mark.parametrize(
     ("ratio", "at_symmetric", "fewest"),
     [
-        # Lax 1968 (REFERENCES.md 4; D&J Problem 4.5): below (3 + sqrt 5)/2 = 2.618 two maxima at
+        # Lax 1968 (Drazin & Johnson 1989 Problem 4.5): below (3 + sqrt 5)/2 = 2.618 two maxima at
         # all times; between it and 3 two at the symmetric instant, one shortly before and after;
         # above 3 one at the symmetric instant.
         (2.50, 2, 2),
@@ -389,7 +389,7 @@ def test_noisy_frames() -> None:
 
 def test_radiation_is_not_a_soliton() -> None:
     # A negative dip makes only radiation in KdV(+) (no bound state of a repulsive potential,
-    # REFERENCES.md 5(e)); its ripples must not be taken for solitons, and the solitons' speeds
+    # general facts of the spectral problem, common practice); its ripples must not be taken for solitons, and the solitons' speeds
     # (set by their IST eigenvalues, which the small dip barely moves) must still be measured.
     ratio, s = 0.55, 16.0
     kappas = [K1, K1 * ratio]
@@ -454,6 +454,6 @@ def test_invariant_drift_reported() -> None:
     eq = kv.Equation.kdv()
     series = [kv.invariants(f, grid, eq) for f in frames[::20]]
     result = analyse_run(frames, times, grid, eq, kappas=kappas, invariants=series)
-    # Mass and momentum are conserved (REFERENCES.md 3.1); the spectral scheme keeps them tightly.
+    # Mass and momentum are conserved (Miura, Gardner & Kruskal 1968); the spectral scheme keeps them tightly.
     assert 0 <= result.summary["drift_mass"] < 1e-10
     assert 0 <= result.summary["drift_momentum"] < 1e-6

@@ -3,9 +3,10 @@
 Normalisation in every test: KdV ``u_t + 6 u u_x + u_xxx = 0`` with spectral problem
 ``-psi'' - u0 psi = -kappa^2 psi`` (solitons ``2 kappa^2 sech^2``), focusing mKdV
 ``u_t + 6 u^2 u_x + u_xxx = 0`` with Zakharov-Shabat ``v1' = -i zeta v1 + q v2``,
-``v2' = i zeta v2 - q v1``, ``q = u0``, ``zeta = i kappa`` (solitons ``2 kappa sech``); see
-REFERENCES.md "Conventions", 1.1 and 2.1. Tabulated values are from REFERENCES.md section 5, where
-they were computed from the published formulas; each test recomputes what it compares against.
+``v2' = i zeta v2 - q v1``, ``q = u0``, ``zeta = i kappa`` (solitons ``2 kappa sech``; Korteweg &
+de Vries 1895, Ablowitz 2011 Sec. 1.1, Wadati 1973). Tabulated values are those of Pöschl & Teller
+1933 and Satsuma & Yajima 1974, evaluated from their published formulas; each test recomputes what
+it compares against.
 """
 
 from __future__ import annotations
@@ -35,7 +36,7 @@ def poschl_teller(grid: Grid, lam: float) -> np.ndarray:
 def test_poschl_teller_kappas(lam: float) -> None:
     # Pöschl & Teller 1933 (levels also in Landau & Lifshitz, QM, Sec. 23 Problem 4 [memory]):
     # -psi'' - lam(lam+1) sech^2(x) psi = E psi has E_n = -(lam - n)^2 for n < lam, so KdV(+)
-    # data lam(lam+1) sech^2 x carry ceil(lam) solitons kappa_n = lam - n (REFERENCES.md 5(a);
+    # data lam(lam+1) sech^2 x carry ceil(lam) solitons kappa_n = lam - n (Pöschl & Teller 1933; Landau & Lifshitz Sec. 23;
     # lam = (sqrt 13 - 1)/2 is A = 3). L = 80 keeps exp(-kappa L) < 1e-10 for kappa >= 0.3.
     grid = Grid(640, 80.0)
     content = bound_states(poschl_teller(grid, lam), grid)
@@ -50,7 +51,7 @@ def test_poschl_teller_kappas(lam: float) -> None:
 
 def test_sign_and_scaling_of_general_kdv() -> None:
     # Exact scaling u = (6 d / a) w(x, d t) of u_t + a u u_x + d u_xxx = 0 onto KdV(+)
-    # (REFERENCES.md 1.7): KdV(-) (a = -6) data -6 sech^2 x are the same well (potential +u0),
+    # (the exact scaling u = alpha w(x, d t)): KdV(-) (a = -6) data -6 sech^2 x are the same well (potential +u0),
     # troughs of depth 2 kappa^2; a = 1 (Zabusky-Kruskal form) takes u = 6 w; d = 2 doubles speeds.
     grid = Grid(512, 60.0)
     w = poschl_teller(grid, 2.0)
@@ -68,7 +69,7 @@ def test_sign_and_scaling_of_general_kdv() -> None:
 
 def test_repulsive_data_have_no_solitons() -> None:
     # -psi'' + |u0| psi has no negative eigenvalue: u0 <= 0 carries no KdV(+) soliton
-    # (REFERENCES.md 5(e); fact of the trade).
+    # (a fact of the trade: common practice, no source).
     grid = Grid(256, 40.0)
     content = bound_states(-poschl_teller(grid, 1.5), grid)
     assert len(content) == 0
@@ -79,7 +80,7 @@ def square_well_kappas(height: float, half_width: float) -> np.ndarray:
     """Bound states of -psi'' - U psi on |x| < a, solved independently with scipy brentq.
 
     Finite square well (textbook, e.g. Landau & Lifshitz, Quantum Mechanics, Sec. 22 [memory];
-    REFERENCES.md 5(b)): with z = q a, z0 = a sqrt(U), even states z tan z = sqrt(z0^2 - z^2) on
+    the finite square well, Landau & Lifshitz Sec. 22): with z = q a, z0 = a sqrt(U), even states z tan z = sqrt(z0^2 - z^2) on
     (m pi, m pi + pi/2), odd states -z cot z = sqrt(z0^2 - z^2) on (m pi + pi/2, (m+1) pi);
     kappa = sqrt(z0^2 - z^2) / a.
     """
@@ -123,7 +124,7 @@ def test_box_matches_square_well_equations(
     # expect ~4x smaller errors when dx halves, and Richardson extrapolation (4 k(dx/2) - k(dx))/3
     # removing the dx^2 term. bound_states warns that the profile is not resolved.
     expected = square_well_kappas(height, half_width)
-    # Number of bound states ceil(2 z0 / pi) (REFERENCES.md 5(b)).
+    # Number of bound states ceil(2 z0 / pi) (the finite square well, Landau & Lifshitz Sec. 22).
     assert expected.size == math.ceil(2 * half_width * math.sqrt(height) / math.pi)
     results = []
     for points in (n, 2 * n):
@@ -159,7 +160,7 @@ def test_box_error_estimate_matches_the_actual_periodic_shift() -> None:
 def test_zakharov_shabat_sech(amplitude: float) -> None:
     # Satsuma & Yajima 1974: q = A sech x has eigenvalues zeta_n = i (|A| - n - 1/2) for
     # n < |A| - 1/2, all of the sign of A; mKdV solitons of amplitude 2 eta_n, speed 4 eta_n^2
-    # (REFERENCES.md 5(c)); A = 0.4 has none. L = 50: exp(-eta L) < 1e-10 for eta >= 0.5.
+    # (Satsuma & Yajima 1974); A = 0.4 has none. L = 50: exp(-eta L) < 1e-10 for eta >= 0.5.
     grid = Grid(512, 50.0)
     content = bound_states(amplitude / np.cosh(grid.x), grid, "mkdv")
     a = abs(amplitude)
@@ -174,7 +175,7 @@ def test_zakharov_shabat_sech(amplitude: float) -> None:
 
 def test_breather_eigenvalue_pair() -> None:
     # Breather u = 2 d/dx arctan[(a/b) cos(b x) / cosh(a x)] at t = 0 (Wadati 1973; Lamb 1980
-    # [memory]; normalisation of REFERENCES.md 2.4, checked there against the Hirota form):
+    # [memory]; normalisation of Wadati 1973 and Lamb 1980, agreeing with the Hirota form):
     # ZS pair zeta = +-xi + i eta with a = 2 eta, b = 2 xi; envelope speed 4 (eta^2 - 3 xi^2).
     eta, xi = 0.5, 0.35
     a, b = 2 * eta, 2 * xi
@@ -197,7 +198,7 @@ def test_breather_eigenvalue_pair() -> None:
 def hirota_mkdv_2soliton(
     x: np.ndarray, a: tuple[float, float], s: tuple[int, int], x0: tuple[float, float]
 ) -> np.ndarray:
-    """Hirota's mKdV 2-soliton at t = 0 (Hirota 1972; normalisation of REFERENCES.md 2.2).
+    """Hirota's mKdV 2-soliton at t = 0 (Hirota 1972).
 
     ``u = 2 d/dx arctan(N/D)``, ``N = s1 E1 + s2 E2``, ``D = 1 - s1 s2 A12 E1 E2``,
     ``Ei = exp(ai (x - x0i))``, ``A12 = ((a1 - a2)/(a1 + a2))^2``; soliton i has amplitude ``ai``
@@ -215,7 +216,7 @@ def hirota_mkdv_2soliton(
 def test_polarity_of_overlapping_two_soliton(signs: tuple[int, int]) -> None:
     # Amplitudes 2 and 1 with phase constants -1 and +1: the solitons overlap (the profile is not
     # a sum of two solitons), yet the IST gives eta = (1, 0.5) with the polarities of the pieces
-    # (Hirota 1972; REFERENCES.md 2.2), which the polarity rule must recover. (Exactly on top of
+    # (Hirota 1972), which the polarity rule must recover. (Exactly on top of
     # each other, opposite polarities make a profile too sharp for a small test grid.)
     grid = Grid(448, 44.0)
     u0 = hirota_mkdv_2soliton(grid.x, (2.0, 1.0), signs, (-1.0, 1.0))
@@ -374,7 +375,7 @@ def test_zero_profile_has_no_solitons() -> None:
 
 
 def test_cli_on_a_npy_profile(tmp_path, capsys) -> None:
-    # 6 sech^2 x: kappa = 2, 1, amplitudes 8, 2 (Pöschl-Teller, REFERENCES.md 1.6, 5(a)).
+    # 6 sech^2 x: kappa = 2, 1, amplitudes 8, 2 (Pöschl & Teller 1933; Drazin & Johnson 1989 Ch. 4).
     grid = Grid(512, 40.0)
     path = tmp_path / "u0.npy"
     np.save(path, poschl_teller(grid, 2.0))
