@@ -10,6 +10,7 @@ are reached by the exact scaling ``u = alpha w(x, d t)``.
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from . import _core
 from .exceptions import ConfigError
@@ -29,12 +30,12 @@ def _coefficients(equation: str | Equation) -> tuple[str, float, float]:
 
 
 def multisoliton(
-    x: object,
+    x: ArrayLike,
     t: float,
-    kappas: object,
-    x0s: object,
+    kappas: ArrayLike,
+    x0s: ArrayLike,
     equation: str | Equation = "kdv",
-    signs: object | None = None,
+    signs: ArrayLike | None = None,
 ) -> np.ndarray:
     """The Hirota N-soliton at time ``t`` on the points ``x`` (any N; cost grows as 2^N).
 
@@ -59,7 +60,7 @@ def multisoliton(
 
 
 def soliton(
-    x: object,
+    x: ArrayLike,
     t: float,
     kappa: float,
     x0: float = 0.0,

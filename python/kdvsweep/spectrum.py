@@ -76,7 +76,7 @@ import pandas as pd
 import scipy.linalg as sla
 
 from .exceptions import ConfigError, KdvsweepError, ShapeError
-from .model import Equation, Grid
+from .model import Equation, Grid, SolitonForm
 
 DEFAULT_TOL = 1e-8
 #: Fourier coefficients below this fraction of ``tol`` (relative to the largest) are not carried
@@ -536,10 +536,10 @@ def bound_states(
         )
     lam, err, box, polarity = _solve(form.kind, w, grid.length, coarse_m, fine_m)
     _warn_accuracy(lam.real, err, box.real, tol, coarse_m, fine_m)
+    breathers: tuple[Breather, ...] = ()
     if form.kind == "kdv":
-        kappas, breathers = lam.real, ()
+        kappas = lam.real
         polarity = np.full(kappas.shape, np.sign(form.alpha))
-        amplitudes = form.alpha * 2.0 * kappas**2
     else:
         # lam = kappa - i xi: a soliton has xi = 0 (exactly, for a real eigenvalue of a real
         # matrix); a conjugate pair is one breather, reported once, with xi > 0.
@@ -551,12 +551,13 @@ def bound_states(
         )
         kappas, err, box = lam.real[solitons], err[solitons], box[solitons]
         polarity = polarity[solitons]
-        amplitudes = polarity * form.alpha * 2.0 * kappas
+    shape = SolitonForm(form.kind, form.alpha, form.d)
+    amplitudes = polarity * np.asarray(shape.amplitude(kappas))
     return SolitonContent(
         equation=form.kind,
         kappas=kappas,
         amplitudes=amplitudes,
-        speeds=4.0 * form.d * kappas**2,
+        speeds=np.asarray(shape.speed(kappas)),
         polarity=polarity,
         breathers=breathers,
         resolution_error=err,

@@ -45,6 +45,7 @@ import math
 from collections.abc import Sequence
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from .exceptions import ConfigError, ShapeError
 from .model import Equation, SolitonForm
@@ -102,13 +103,13 @@ def tail_lengths(kappas: object) -> np.ndarray:
     return np.asarray(0.5 / _as_kappas(kappas))
 
 
-def kappa_from_speed(speed: object, equation: str | Equation = "kdv") -> np.ndarray:
+def kappa_from_speed(speed: ArrayLike, equation: str | Equation = "kdv") -> np.ndarray:
     """Invert :func:`speeds`: ``kappa = sqrt(c / (4 d))`` (NaN where ``c / d <= 0``)."""
     c = np.asarray(speed, dtype=np.float64) / (4.0 * _form(equation).d)
     return np.sqrt(np.where(c > 0, c, np.nan))
 
 
-def kappa_from_amplitude(amplitude: object, equation: str | Equation = "kdv") -> np.ndarray:
+def kappa_from_amplitude(amplitude: ArrayLike, equation: str | Equation = "kdv") -> np.ndarray:
     """Invert :func:`amplitudes` from a peak height ``|u|`` (its sign is ignored)."""
     return np.asarray(_form(equation).kappa_of_height(amplitude))
 

@@ -184,7 +184,8 @@ def _candidates(u: np.ndarray, threshold: float, sign: int) -> tuple[np.ndarray,
     """(frame, index) of the discrete maxima of ``sign * u`` above ``threshold`` (periodic)."""
     v = sign * u
     left, right = np.roll(v, 1, axis=1), np.roll(v, -1, axis=1)
-    return np.nonzero((v >= left) & (v > right) & (v > threshold))
+    rows, cols = np.nonzero((v >= left) & (v > right) & (v > threshold))
+    return rows, cols
 
 
 def find_peaks_many(
