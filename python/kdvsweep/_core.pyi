@@ -1,22 +1,41 @@
-"""Stubs of the compiled module kdvsweep._core (rust/python)."""
+"""Stubs of the compiled module kdvsweep._core (rust/python), checked by ``mypy.stubtest``."""
+
+from typing import final
 
 import numpy as np
 from numpy.typing import NDArray
 
+__all__ = [
+    "SCHEMES",
+    "Simulation",
+    "dealias_fraction",
+    "fft_floor",
+    "invariants",
+    "kdv_multisoliton",
+    "mkdv_multisoliton",
+]
+
 SCHEMES: list[str]
 
+@final
 class Simulation:
-    def __init__(
-        self,
+    def __new__(
+        cls,
         n: int,
         length: float,
-        coefficients: tuple[float, float, float, float, float, float],
-        dealias: float,
+        *,
+        a: float,
+        b: float,
+        d: float,
+        f: float,
+        g: float,
+        v: float,
         scheme: str,
         dt: float,
         tol: float,
+        dealias: float | None = None,
         max_amplitude: float | None = None,
-    ) -> None: ...
+    ) -> Simulation: ...
     def set_state(self, u: NDArray[np.float64], time: float) -> None: ...
     def advance(self, duration: float) -> None: ...
     def record(self, times: NDArray[np.float64]) -> NDArray[np.float64]: ...
@@ -34,8 +53,25 @@ class Simulation:
 def invariants(
     u: NDArray[np.float64],
     length: float,
-    coefficients: tuple[float, float, float, float, float, float],
+    *,
+    a: float,
+    b: float,
+    d: float,
+    f: float,
+    g: float,
+    v: float,
+    dealias: float | None = None,
 ) -> tuple[float, float, float]: ...
+def dealias_fraction(
+    *,
+    a: float,
+    b: float,
+    d: float,
+    f: float,
+    g: float,
+    v: float,
+    dealias: float | None = None,
+) -> float: ...
 def kdv_multisoliton(
     x: NDArray[np.float64],
     t: float,

@@ -189,15 +189,10 @@ class Equation:
 
     @property
     def dealias_fraction(self) -> float:
-        """The fraction of the Nyquist band kept in the nonlinear term."""
-        # TODO(rust helper): ask the core (_core.dealias_fraction(**self.core_fields())).
-        if self.dealias is not None:
-            return float(self.dealias)
-        if self.b != 0:
-            return 0.5
-        if self.a != 0:
-            return 2.0 / 3.0
-        return 1.0
+        """The fraction of the Nyquist band kept in the nonlinear term (the core's own rule)."""
+        from . import _core
+
+        return float(_core.dealias_fraction(**self.core_fields()))
 
     @property
     def coefficients(self) -> tuple[float, float, float, float, float, float]:

@@ -1,4 +1,9 @@
-"""The user-facing simulation: a thin layer over the Rust stepper that checks and coerces inputs."""
+"""The user-facing simulation: a thin layer over the Rust stepper that checks and coerces inputs.
+
+This module is the one home of the step options: the scheme names (:data:`SCHEMES`, read from the
+compiled core), the defaults :data:`DEFAULT_DT` and :data:`DEFAULT_TOL`, and the rule that a
+tolerance belongs to the adaptive scheme only (:func:`step_options`).
+"""
 
 from __future__ import annotations
 
@@ -10,7 +15,72 @@ from . import _core
 from .exceptions import ConfigError, ShapeError
 from .model import Equation, Grid
 
-SCHEMES = ("etdrk4", "ifrk4", "strang", "adaptive")
+#: The time-stepping schemes, in documented order (the core's own list).
+SCHEMES: tuple[str, ...] = tuple(_core.SCHEMES)
+
+#: The scheme used when none is named.
+DEFAULT_SCHEME = "etdrk4"
+
+#: The one scheme that takes a tolerance (and treats ``dt`` as its first trial step).
+ADAPTIVE = "adaptive"
+
+#: Default step (fixed schemes) or first trial step (adaptive).
+DEFAULT_DT = 1e-3
+
+#: Default relative L2 error per step of the adaptive scheme.
+DEFAULT_TOL = 1e-9
+
+
+def _positive(name: str, value: object) -> float:
+    """``value`` as a finite positive float, or a one-line :class:`ConfigError` naming ``name``."""
+    if isinstance(value, bool) or not isinstance(value, int | float | np.integer | np.floating):
+        raise ConfigError(f"{name}: expected a finite positive number, got {value!r}")
+    number = float(value)
+    if not (math.isfinite(number) and number > 0):
+        raise ConfigError(f"{name}: expected a finite positive number, got {number}")
+    return number
+
+
+def step_options(
+    scheme: str, dt: float | None = None, tol: float | None = None
+) -> tuple[float, float | None]:
+    """Check the step options of ``scheme`` and fill in their defaults.
+
+    Parameters
+    ----------
+    scheme
+        One of :data:`SCHEMES`.
+    dt
+        The step (fixed schemes) or the first trial step (adaptive); ``None`` means
+        :data:`DEFAULT_DT`.
+    tol
+        Relative L2 error allowed per step, in (0, 1): the adaptive scheme only; ``None`` means
+        :data:`DEFAULT_TOL` for it.
+
+    Returns
+    -------
+    tuple
+        ``(dt, tol)`` as floats, with ``tol = None`` for a fixed-step scheme.
+
+    Raises
+    ------
+    ConfigError
+        For an unknown scheme, a ``dt`` or ``tol`` that is not a finite positive number, a ``tol``
+        of 1 or more, or a ``tol`` given to a fixed-step scheme (one line naming the option).
+    """
+    if not isinstance(scheme, str) or scheme not in SCHEMES:
+        raise ConfigError(f"scheme: unknown scheme {scheme!r}; expected one of {', '.join(SCHEMES)}")
+    step = DEFAULT_DT if dt is None else _positive("dt", dt)
+    if scheme != ADAPTIVE:
+        if tol is not None:
+            raise ConfigError(
+                f"tol: applies to the {ADAPTIVE} scheme only, not {scheme!r}; leave it out"
+            )
+        return step, None
+    tolerance = DEFAULT_TOL if tol is None else _positive("tol", tol)
+    if tolerance >= 1:
+        raise ConfigError(f"tol: expected a relative tolerance below 1, got {tolerance}")
+    return step, tolerance
 
 
 def as_profile(u: object, n: int, name: str = "u") -> np.ndarray:
@@ -37,22 +107,28 @@ class Simulation:
     grid, equation
         The periodic grid and the equation.
     scheme
-        ``"etdrk4"`` (default), ``"ifrk4"``, ``"strang"`` or ``"adaptive"``.
+        One of :data:`SCHEMES`: ``"etdrk4"`` (default), ``"ifrk4"``, ``"strang"`` or
+        ``"adaptive"``.
     dt
         The step (fixed schemes) or the first trial step (adaptive); a record interval that is not a
         whole number of steps is crossed with the largest equal steps of at most ``dt``.
     tol
-        Adaptive scheme only: relative L2 error allowed per step (default 1e-9).
+        Adaptive scheme only: relative L2 error allowed per step (default :data:`DEFAULT_TOL`).
     max_amplitude
         Blow-up bound on ``max|u|``; default ``1e3 * max(1, max|u0|)`` set with the state.
+
+    Raises
+    ------
+    ConfigError
+        For bad options (see :func:`step_options`) or an equation the core rejects.
     """
 
     def __init__(
         self,
         grid: Grid,
         equation: Equation,
-        scheme: str = "etdrk4",
-        dt: float = 1e-3,
+        scheme: str = DEFAULT_SCHEME,
+        dt: float = DEFAULT_DT,
         tol: float | None = None,
         max_amplitude: float | None = None,
     ) -> None:
@@ -64,24 +140,19 @@ class Simulation:
             raise ConfigError(
                 f"Simulation: equation must be a kdvsweep.Equation, got {type(equation).__name__}"
             )
-        if scheme not in SCHEMES:
-            raise ConfigError(f"Simulation: unknown scheme {scheme!r}; expected one of {SCHEMES}")
-        if tol is not None and scheme != "adaptive":
-            raise ConfigError(
-                f"Simulation: tol applies to the adaptive scheme only, not {scheme!r}"
-            )
+        dt, tol = step_options(scheme, dt, tol)
         self.grid = grid
         self.equation = equation
         self.scheme = scheme
         self._core = _core.Simulation(
             grid.n,
             grid.length,
-            equation.coefficients,
-            equation.dealias_fraction,
-            scheme,
-            float(dt),
-            float(tol if tol is not None else 1e-9),
-            None if max_amplitude is None else float(max_amplitude),
+            **equation.core_fields(),
+            scheme=scheme,
+            dt=dt,
+            # A fixed-step scheme ignores the tolerance; the core takes one for every scheme.
+            tol=DEFAULT_TOL if tol is None else tol,
+            max_amplitude=None if max_amplitude is None else float(max_amplitude),
         )
 
     def set_state(self, u0: object, time: float = 0.0) -> None:
@@ -142,9 +213,18 @@ def invariants(u: object, grid: Grid, equation: Equation) -> dict[str, float]:
     + f u_xx^2/2)`` (the Hamiltonian of the conservative part).
     """
     mass, momentum, energy = _core.invariants(
-        as_profile(u, grid.n), grid.length, equation.coefficients
+        as_profile(u, grid.n), grid.length, **equation.core_fields()
     )
     return {"mass": mass, "momentum": momentum, "energy": energy}
 
 
-__all__ = ["SCHEMES", "Simulation", "invariants"]
+__all__ = [
+    "ADAPTIVE",
+    "DEFAULT_DT",
+    "DEFAULT_SCHEME",
+    "DEFAULT_TOL",
+    "SCHEMES",
+    "Simulation",
+    "invariants",
+    "step_options",
+]

@@ -7,67 +7,78 @@ use num_complex::Complex64;
 
 use crate::error::{CoreError, Result};
 
-/// Coefficients of the model and the dealiasing fraction of its nonlinear term.
-#[derive(Debug, Clone, PartialEq)]
-pub struct Equation {
+/// The coefficients of the model by name, as given (checked by [`Equation::new`]).
+///
+/// [`Default`] is all zeros, so a caller names only the terms it uses:
+/// `Coefficients { a: 6.0, d: 1.0, ..Coefficients::default() }` is KdV.
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct Coefficients {
     /// Quadratic flux coefficient (`a u u_x`).
     pub a: f64,
     /// Cubic flux coefficient (`b u^2 u_x`).
     pub b: f64,
-    /// Third-order dispersion.
+    /// Third-order dispersion (`d u_xxx`).
     pub d: f64,
-    /// Fifth-order dispersion.
+    /// Fifth-order dispersion (`f u_xxxxx`).
     pub f: f64,
     /// Linear damping (`-g u` on the right).
     pub g: f64,
     /// Viscosity (`v u_xx` on the right), at least 0.
     pub v: f64,
-    /// Fraction of the Nyquist band kept in the nonlinear term, in (0, 1].
-    pub dealias: f64,
 }
 
-impl Equation {
-    /// An equation with the alias-free dealiasing fraction `2/(p+1)` for its highest flux power `p`
-    /// (Orszag's 2/3 rule for quadratic, 1/2 for cubic, 1 for a linear equation).
-    ///
-    /// # Errors
-    /// [`CoreError::InvalidParameter`] for a non-finite coefficient or `v < 0` (ill-posed).
-    pub fn new(a: f64, b: f64, d: f64, f: f64, g: f64, v: f64) -> Result<Self> {
-        let dealias = if b != 0.0 {
+impl Coefficients {
+    /// The alias-free dealiasing fraction `2/(p+1)` for the highest flux power `p` present:
+    /// Orszag's (1971) 2/3 rule for a quadratic flux, 1/2 for a cubic one, 1 for a linear equation.
+    fn alias_free_fraction(&self) -> f64 {
+        if self.b != 0.0 {
             0.5
-        } else if a != 0.0 {
+        } else if self.a != 0.0 {
             2.0 / 3.0
         } else {
             1.0
-        };
-        Self::with_dealias(a, b, d, f, g, v, dealias)
+        }
     }
+}
 
-    /// As [`Equation::new`] with an explicit dealiasing fraction.
+/// A checked equation: finite coefficients, `v >= 0`, and the dealiasing fraction of its
+/// nonlinear term in (0, 1]. Built only by its constructors; read through its getters.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Equation {
+    coefficients: Coefficients,
+    dealias: f64,
+}
+
+impl Equation {
+    /// The equation with the given coefficients and dealiasing fraction; `dealias = None` picks
+    /// the alias-free fraction `2/(p+1)` for the highest flux power `p` (Orszag 1971: 2/3 for a
+    /// quadratic flux, 1/2 for a cubic one, 1 for a linear equation).
     ///
     /// # Errors
-    /// As [`Equation::new`], and for `dealias` outside (0, 1].
-    pub fn with_dealias(
-        a: f64,
-        b: f64,
-        d: f64,
-        f: f64,
-        g: f64,
-        v: f64,
-        dealias: f64,
-    ) -> Result<Self> {
-        for (name, value) in [("a", a), ("b", b), ("d", d), ("f", f), ("g", g), ("v", v)] {
+    /// [`CoreError::InvalidParameter`] for a non-finite coefficient, `v < 0` (ill-posed), or a
+    /// `dealias` outside (0, 1].
+    pub fn new(coefficients: Coefficients, dealias: Option<f64>) -> Result<Self> {
+        let c = coefficients;
+        for (name, value) in [
+            ("a", c.a),
+            ("b", c.b),
+            ("d", c.d),
+            ("f", c.f),
+            ("g", c.g),
+            ("v", c.v),
+        ] {
             if !value.is_finite() {
                 return Err(CoreError::invalid(name, value, "a finite number"));
             }
         }
-        if v < 0.0 {
+        if c.v < 0.0 {
             return Err(CoreError::invalid(
                 "v",
-                v,
+                c.v,
                 "v >= 0 (negative viscosity is ill-posed)",
             ));
         }
+        let dealias = dealias.unwrap_or_else(|| c.alias_free_fraction());
         if !(dealias > 0.0 && dealias <= 1.0) {
             return Err(CoreError::invalid(
                 "dealias",
@@ -76,51 +87,136 @@ impl Equation {
             ));
         }
         Ok(Equation {
-            a,
-            b,
-            d,
-            f,
-            g,
-            v,
+            coefficients: c,
             dealias,
         })
     }
 
+    /// An equation whose coefficients are known to be valid (finite, `v >= 0`), with the
+    /// alias-free dealiasing fraction.
+    fn trusted(coefficients: Coefficients) -> Self {
+        Equation {
+            dealias: coefficients.alias_free_fraction(),
+            coefficients,
+        }
+    }
+
     /// KdV `u_t + 6 u u_x + u_xxx = 0`.
     pub fn kdv() -> Self {
-        Equation {
+        Self::trusted(Coefficients {
             a: 6.0,
-            b: 0.0,
             d: 1.0,
-            f: 0.0,
-            g: 0.0,
-            v: 0.0,
-            dealias: 2.0 / 3.0,
-        }
+            ..Coefficients::default()
+        })
     }
 
     /// Focusing mKdV `u_t + 6 u^2 u_x + u_xxx = 0`.
     pub fn mkdv() -> Self {
-        Equation {
-            a: 0.0,
+        Self::trusted(Coefficients {
             b: 6.0,
             d: 1.0,
-            f: 0.0,
-            g: 0.0,
-            v: 0.0,
-            dealias: 0.5,
-        }
+            ..Coefficients::default()
+        })
+    }
+
+    /// All coefficients.
+    pub fn coefficients(&self) -> Coefficients {
+        self.coefficients
+    }
+
+    /// Quadratic flux coefficient (`a u u_x`).
+    pub fn a(&self) -> f64 {
+        self.coefficients.a
+    }
+
+    /// Cubic flux coefficient (`b u^2 u_x`).
+    pub fn b(&self) -> f64 {
+        self.coefficients.b
+    }
+
+    /// Third-order dispersion (`d u_xxx`).
+    pub fn d(&self) -> f64 {
+        self.coefficients.d
+    }
+
+    /// Fifth-order dispersion (`f u_xxxxx`).
+    pub fn f(&self) -> f64 {
+        self.coefficients.f
+    }
+
+    /// Linear damping (`-g u` on the right).
+    pub fn g(&self) -> f64 {
+        self.coefficients.g
+    }
+
+    /// Viscosity (`v u_xx` on the right), at least 0.
+    pub fn v(&self) -> f64 {
+        self.coefficients.v
+    }
+
+    /// Fraction of the Nyquist band kept in the nonlinear term, in (0, 1].
+    pub fn dealias(&self) -> f64 {
+        self.dealias
     }
 
     /// The linear symbol at wavenumber `k`; `nyquist` drops the odd (dispersive) part, which a real
     /// field cannot carry at the Nyquist mode.
     pub fn symbol(&self, k: f64, nyquist: bool) -> Complex64 {
+        let c = &self.coefficients;
         let k2 = k * k;
         let odd = if nyquist {
             0.0
         } else {
-            self.d * k2 * k - self.f * k2 * k2 * k
+            c.d * k2 * k - c.f * k2 * k2 * k
         };
-        Complex64::new(-self.g - self.v * k2, odd)
+        Complex64::new(-c.g - c.v * k2, odd)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::{Coefficients, Equation};
+    use crate::CoreError;
+
+    fn with(a: f64, b: f64, v: f64) -> Coefficients {
+        Coefficients {
+            a,
+            b,
+            d: 1.0,
+            v,
+            ..Coefficients::default()
+        }
+    }
+
+    #[test]
+    fn default_dealiasing_follows_the_highest_flux_power() {
+        // Orszag (1971): a product of p factors is alias-free when modes j < n/(p+1) are kept.
+        let fraction = |a, b| Equation::new(with(a, b, 0.0), None).unwrap().dealias();
+        assert_eq!(fraction(6.0, 0.0), 2.0 / 3.0);
+        assert_eq!(fraction(0.0, 6.0), 0.5);
+        assert_eq!(fraction(6.0, 6.0), 0.5);
+        assert_eq!(fraction(0.0, 0.0), 1.0);
+        assert_eq!(Equation::kdv().dealias(), 2.0 / 3.0);
+        assert_eq!(Equation::mkdv().dealias(), 0.5);
+        assert_eq!(
+            Equation::new(with(6.0, 0.0, 0.0), Some(1.0))
+                .unwrap()
+                .dealias(),
+            1.0
+        );
+    }
+
+    #[test]
+    fn invalid_equations_name_the_field() {
+        let name = |c, dealias| match Equation::new(c, dealias) {
+            Err(CoreError::InvalidParameter { name, .. }) => name,
+            other => panic!("expected an invalid parameter, got {other:?}"),
+        };
+        assert_eq!(name(with(f64::NAN, 0.0, 0.0), None), "a");
+        assert_eq!(name(with(6.0, f64::INFINITY, 0.0), None), "b");
+        assert_eq!(name(with(6.0, 0.0, -1.0), None), "v");
+        assert_eq!(name(with(6.0, 0.0, 0.0), Some(0.0)), "dealias");
+        assert_eq!(name(with(6.0, 0.0, 0.0), Some(1.5)), "dealias");
+        assert_eq!(name(with(6.0, 0.0, 0.0), Some(f64::NAN)), "dealias");
     }
 }

@@ -4,8 +4,10 @@
 use thiserror::Error;
 
 /// Errors returned by the core.
+///
+/// Exhaustive on purpose: a new variant must be handled by every `match` on it, such as the Python
+/// shell's map from core errors to exception classes.
 #[derive(Debug, Error, Clone, PartialEq)]
-#[non_exhaustive]
 pub enum CoreError {
     /// A parameter is out of its domain.
     #[error("{name}: expected {expected}, got {value}")]

@@ -37,6 +37,7 @@ pub fn invariants(u: &[f64], grid: &Grid, eq: &Equation) -> Result<Invariants> {
             got: u.len(),
         });
     }
+    let c = eq.coefficients();
     let mut tr = Transforms::new(&mut RealFftPlanner::new(), n);
     let mut buf = u.to_vec();
     let mut spec = vec![Complex64::new(0.0, 0.0); grid.modes()];
@@ -69,8 +70,8 @@ pub fn invariants(u: &[f64], grid: &Grid, eq: &Equation) -> Result<Invariants> {
     for ((&ui, &px), &pxx) in u.iter().zip(&ux).zip(&uxx) {
         mass += ui;
         momentum += ui * ui;
-        energy += ui * ui * ui * (eq.a / 6.0 + eq.b * ui / 12.0) - 0.5 * eq.d * px * px
-            + 0.5 * eq.f * pxx * pxx;
+        energy += ui * ui * ui * (c.a / 6.0 + c.b * ui / 12.0) - 0.5 * c.d * px * px
+            + 0.5 * c.f * pxx * pxx;
     }
     Ok(Invariants {
         mass: mass * dx,

@@ -36,7 +36,7 @@ pub mod schemes;
 pub mod simulation;
 pub mod spectral;
 
-pub use equation::Equation;
+pub use equation::{Coefficients, Equation};
 pub use error::{CoreError, Result};
 pub use grid::Grid;
 pub use invariants::{invariants, Invariants};

@@ -83,15 +83,17 @@ impl Simulation {
         if let Some(b) = max_amplitude {
             positive("max_amplitude", b)?;
         }
+        // One planner: the stepper's plans and the driver's own transforms share its cache.
+        let mut planner = RealFftPlanner::new();
         let driver = match scheme {
-            Scheme::Adaptive => {
-                Driver::Adaptive(Box::new(IfRk43::new(&mut RealFftPlanner::new(), &grid, eq)))
+            Scheme::Adaptive => Driver::Adaptive(Box::new(IfRk43::new(&mut planner, &grid, eq))),
+            Scheme::Etdrk4 | Scheme::IfRk4 | Scheme::Strang => {
+                Driver::Fixed(stepper(&mut planner, scheme, &grid, eq))
             }
-            _ => Driver::Fixed(stepper(scheme, &grid, eq)),
         };
         let m = grid.modes();
         Ok(Simulation {
-            transforms: Transforms::new(&mut RealFftPlanner::new(), grid.n()),
+            transforms: Transforms::new(&mut planner, grid.n()),
             spectrum: vec![Complex64::new(0.0, 0.0); m],
             spec_tmp: vec![Complex64::new(0.0, 0.0); m],
             phys: vec![0.0; grid.n()],

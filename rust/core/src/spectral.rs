@@ -9,7 +9,7 @@ use num_complex::Complex64;
 use realfft::{ComplexToReal, RealFftPlanner, RealToComplex};
 
 use crate::equation::Equation;
-use crate::error::Result;
+use crate::error::{CoreError, Result};
 use crate::grid::Grid;
 
 /// What a nonlinear evaluation saw of the physical field it transformed.
@@ -94,7 +94,7 @@ impl Nonlinear {
         let n = grid.n();
         let m = grid.modes();
         // Keep j < dealias * n/2: for the power p, j < n/(p+1) is alias-free (Orszag 1971).
-        let cut = eq.dealias * n as f64 / 2.0;
+        let cut = eq.dealias() * n as f64 / 2.0;
         let kept = ((cut - 1e-9).ceil() as usize).clamp(1, m);
         let mut k = grid.wavenumbers();
         k.iter_mut().skip(kept).for_each(|kj| *kj = 0.0);
@@ -102,8 +102,8 @@ impl Nonlinear {
             transforms: Transforms::new(planner, n),
             kept,
             k,
-            half_a: 0.5 * eq.a,
-            third_b: eq.b / 3.0,
+            half_a: 0.5 * eq.a(),
+            third_b: eq.b() / 3.0,
             inv_n: 1.0 / n as f64,
             phys: vec![0.0; n],
             input: vec![Complex64::new(0.0, 0.0); m],
@@ -120,10 +120,20 @@ impl Nonlinear {
         &mut self.input[..self.kept]
     }
 
+    /// Number of modes of a spectrum on this grid (`n/2 + 1`).
+    pub fn modes(&self) -> usize {
+        self.input.len()
+    }
+
     /// Copies the kept modes of `v` into the argument buffer.
-    pub fn load(&mut self, v: &[Complex64]) {
+    ///
+    /// # Errors
+    /// [`crate::CoreError::ShapeMismatch`] if `v` does not have [`Nonlinear::modes`] modes.
+    pub fn load(&mut self, v: &[Complex64]) -> Result<()> {
+        check_modes(v, self.modes())?;
         let kept = self.kept;
         self.input[..kept].copy_from_slice(&v[..kept]);
+        Ok(())
     }
 
     /// Evaluates the term at the argument buffer into `out` (all modes; zero beyond `kept()`).
@@ -172,6 +182,22 @@ impl Nonlinear {
         }
         out[kept..].fill(Complex64::new(0.0, 0.0));
         Ok(())
+    }
+}
+
+/// Checks that the spectrum `v` has `modes` modes (`n/2 + 1` for the grid of its stepper).
+///
+/// # Errors
+/// [`CoreError::ShapeMismatch`] naming `v` otherwise.
+pub fn check_modes(v: &[Complex64], modes: usize) -> Result<()> {
+    if v.len() == modes {
+        Ok(())
+    } else {
+        Err(CoreError::ShapeMismatch {
+            name: "v",
+            expected: modes,
+            got: v.len(),
+        })
     }
 }
 

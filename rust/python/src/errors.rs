@@ -8,7 +8,8 @@ pyo3::import_exception!(kdvsweep.exceptions, ConfigError);
 pyo3::import_exception!(kdvsweep.exceptions, ShapeError);
 pyo3::import_exception!(kdvsweep.exceptions, NumericalError);
 
-/// The Python exception for a core error; the message is the core's own.
+/// The Python exception for a core error; the message is the core's own. Every variant is named
+/// (no wildcard arm), so a new core error does not compile until it is mapped here.
 pub fn to_py(err: CoreError) -> PyErr {
     let msg = err.to_string();
     match err {
@@ -17,6 +18,8 @@ pub fn to_py(err: CoreError) -> PyErr {
         CoreError::NonFinite { .. }
         | CoreError::BlowUp { .. }
         | CoreError::StepSizeUnderflow { .. } => NumericalError::new_err(msg),
-        _ => KdvsweepError::new_err(msg),
+        // A stop without a pending Python exception (the shell's hook always leaves one) and an
+        // internal FFT failure (lengths are checked first): neither is the caller's input.
+        CoreError::Interrupted { .. } | CoreError::Fft(_) => KdvsweepError::new_err(msg),
     }
 }

@@ -1,5 +1,6 @@
 //! `kdvsweep._core`: the Python shell over `kdvsweep-core`. Conversion only: arrays in as slices,
-//! results out as new arrays, core errors as `kdvsweep.exceptions` classes.
+//! results out as new arrays, core errors as `kdvsweep.exceptions` classes. The equation crosses
+//! by named keyword fields (`a, b, d, f, g, v, dealias`), never by position.
 
 mod detach;
 mod errors;
@@ -11,13 +12,50 @@ use pyo3::prelude::*;
 use crate::detach::run_detached;
 use crate::errors::to_py;
 
-type Coefficients = (f64, f64, f64, f64, f64, f64);
-
-fn equation(c: Coefficients, dealias: f64) -> PyResult<kc::Equation> {
-    kc::Equation::with_dealias(c.0, c.1, c.2, c.3, c.4, c.5, dealias).map_err(to_py)
+/// The core's checked equation from its named fields (`dealias = None`: the core's own rule).
+#[allow(clippy::too_many_arguments)] // the model's six coefficients and its dealiasing fraction
+fn equation(
+    a: f64,
+    b: f64,
+    d: f64,
+    f: f64,
+    g: f64,
+    v: f64,
+    dealias: Option<f64>,
+) -> PyResult<kc::Equation> {
+    let coefficients = kc::Coefficients { a, b, d, f, g, v };
+    kc::Equation::new(coefficients, dealias).map_err(to_py)
 }
 
-/// A simulation of one equation on one grid (wrapped by `kdvsweep.Simulation`).
+/// Simulation(n, length, *, a, b, d, f, g, v, scheme, dt, tol, dealias=None, max_amplitude=None)
+/// --
+///
+/// Time stepping of ``u_t + (a u + b u^2) u_x + d u_xxx + f u_xxxxx = -g u + v u_xx`` on a
+/// periodic grid of ``n`` points on ``[-length/2, length/2)``, in the Rust core.
+///
+/// The public wrapper is ``kdvsweep.Simulation``, which checks and coerces its inputs; this class
+/// checks its own arguments too and raises ``kdvsweep.ConfigError`` (bad value),
+/// ``kdvsweep.ShapeError`` (bad length) or ``kdvsweep.NumericalError`` (unstable run).
+///
+/// Parameters
+/// ----------
+/// n : int
+///     Grid points, even and at least 16.
+/// length : float
+///     Period of the domain, positive.
+/// a, b, d, f, g, v : float
+///     Coefficients of the equation (keyword only); ``v >= 0``.
+/// scheme : str
+///     One of ``SCHEMES``: ``"etdrk4"``, ``"ifrk4"``, ``"strang"`` or ``"adaptive"``.
+/// dt : float
+///     The step (fixed schemes) or the first trial step (adaptive).
+/// tol : float
+///     Relative L2 error allowed per step, in (0, 1); used by the adaptive scheme only.
+/// dealias : float or None
+///     Fraction of the Nyquist band kept in the nonlinear term, in (0, 1]; ``None`` picks the
+///     alias-free fraction (see ``dealias_fraction``).
+/// max_amplitude : float or None
+///     Blow-up bound on ``max|u|``; ``None`` means ``1e3 * max(1, max|u0|)``, set with each state.
 #[pyclass(module = "kdvsweep._core")]
 struct Simulation {
     inner: kc::Simulation,
@@ -26,35 +64,57 @@ struct Simulation {
 #[pymethods]
 impl Simulation {
     #[new]
-    #[pyo3(signature = (n, length, coefficients, dealias, scheme, dt, tol, max_amplitude=None))]
+    #[pyo3(signature = (
+        n, length, *, a, b, d, f, g, v, scheme, dt, tol, dealias=None, max_amplitude=None
+    ))]
     #[allow(clippy::too_many_arguments)] // mirrors the Python constructor one to one
     fn new(
         n: usize,
         length: f64,
-        coefficients: Coefficients,
-        dealias: f64,
+        a: f64,
+        b: f64,
+        d: f64,
+        f: f64,
+        g: f64,
+        v: f64,
         scheme: &str,
         dt: f64,
         tol: f64,
+        dealias: Option<f64>,
         max_amplitude: Option<f64>,
     ) -> PyResult<Self> {
         let grid = kc::Grid::new(n, length).map_err(to_py)?;
-        let eq = equation(coefficients, dealias)?;
+        let eq = equation(a, b, d, f, g, v, dealias)?;
         let scheme: kc::Scheme = scheme.parse().map_err(to_py)?;
         let inner =
             kc::Simulation::new(grid, &eq, scheme, dt, tol, max_amplitude).map_err(to_py)?;
         Ok(Simulation { inner })
     }
 
+    /// Replace the state by the profile ``u`` (float64, length ``n``) at time ``time``.
+    ///
+    /// Resets the step counters and, unless ``max_amplitude`` was given, the blow-up bound.
+    /// Raises ``ShapeError`` for a wrong length and ``ConfigError`` for a non-finite value or time.
     fn set_state(&mut self, u: PyReadonlyArray1<'_, f64>, time: f64) -> PyResult<()> {
         self.inner.set_state(u.as_slice()?, time).map_err(to_py)
     }
 
+    /// Step forward by ``duration`` (at least 0), not to it, with the GIL released.
+    ///
+    /// Ctrl-C is honoured every few hundred steps (the state is then valid at the time reached).
+    /// Raises ``ConfigError`` for a negative or non-finite duration and ``NumericalError`` when
+    /// the run goes unstable.
     fn advance(&mut self, py: Python<'_>, duration: f64) -> PyResult<()> {
         let sim = &mut self.inner;
         run_detached(py, move |hook| sim.advance_with(duration, hook))
     }
 
+    /// Advance through the non-decreasing ``times`` (all at least ``time``) and return the states
+    /// there as a new array of shape ``(len(times), n)``, with the GIL released.
+    ///
+    /// Fixed-step schemes cross each interval with the largest equal steps of at most ``dt``, so
+    /// every row is the state exactly at its time. Raises ``ConfigError`` for decreasing,
+    /// non-finite or past times and ``NumericalError`` when the run goes unstable.
     fn record<'py>(
         &mut self,
         py: Python<'py>,
@@ -70,46 +130,99 @@ impl Simulation {
         out.into_pyarray(py).reshape([rows, n])
     }
 
+    /// The current time.
     #[getter]
     fn time(&self) -> f64 {
         self.inner.time()
     }
 
+    /// Accepted steps since the state was set.
     #[getter]
     fn steps(&self) -> u64 {
         self.inner.steps()
     }
 
+    /// Rejected trial steps since the state was set (adaptive scheme; 0 otherwise).
     #[getter]
     fn rejected(&self) -> u64 {
         self.inner.rejected()
     }
 
+    /// The blow-up bound on ``max|u|`` in force.
     #[getter]
     fn bound(&self) -> f64 {
         self.inner.bound()
     }
 
+    /// A copy of the current profile (a new float64 array of length ``n``).
     #[getter]
     fn state<'py>(&mut self, py: Python<'py>) -> Bound<'py, PyArray1<f64>> {
         self.inner.state().into_pyarray(py)
     }
 }
 
-/// Mass, momentum and energy of a profile.
+/// invariants(u, length, *, a, b, d, f, g, v, dealias=None)
+/// --
+///
+/// Mass ``int u``, momentum ``int u^2`` and energy of the profile ``u`` (float64, periodic on a
+/// domain of period ``length``), computed spectrally, as a tuple ``(mass, momentum, energy)``.
+///
+/// The energy is the Hamiltonian of the conservative part,
+/// ``int (a u^3/6 + b u^4/12 - d u_x^2/2 + f u_xx^2/2)``; for KdV (``a = 6, d = 1``) it is the third
+/// invariant of Miura, Gardner & Kruskal (1968). ``dealias`` is checked but does not enter.
 #[pyfunction]
+#[pyo3(signature = (u, length, *, a, b, d, f, g, v, dealias=None))]
+#[allow(clippy::too_many_arguments)] // a profile, its period and the named equation fields
 fn invariants(
     u: PyReadonlyArray1<'_, f64>,
     length: f64,
-    coefficients: Coefficients,
+    a: f64,
+    b: f64,
+    d: f64,
+    f: f64,
+    g: f64,
+    v: f64,
+    dealias: Option<f64>,
 ) -> PyResult<(f64, f64, f64)> {
     let u = u.as_slice()?;
+    let eq = equation(a, b, d, f, g, v, dealias)?;
     let grid = kc::Grid::new(u.len(), length).map_err(to_py)?;
-    let inv = kc::invariants(u, &grid, &equation(coefficients, 1.0)?).map_err(to_py)?;
+    let inv = kc::invariants(u, &grid, &eq).map_err(to_py)?;
     Ok((inv.mass, inv.momentum, inv.energy))
 }
 
-/// The KdV N-soliton of `u_t + a u u_x + d u_xxx = 0`.
+/// dealias_fraction(*, a, b, d, f, g, v, dealias=None)
+/// --
+///
+/// The fraction of the Nyquist band the core keeps in the nonlinear term of this equation.
+///
+/// ``dealias`` itself when given (checked to lie in (0, 1]); otherwise the alias-free fraction
+/// ``2/(p+1)`` for the highest power ``p`` of the flux (Orszag 1971): 2/3 for a quadratic flux,
+/// 1/2 for a cubic one, 1 for a linear equation. Raises ``ConfigError`` for an invalid equation.
+#[pyfunction]
+#[pyo3(signature = (*, a, b, d, f, g, v, dealias=None))]
+#[allow(clippy::too_many_arguments)] // the named equation fields
+fn dealias_fraction(
+    a: f64,
+    b: f64,
+    d: f64,
+    f: f64,
+    g: f64,
+    v: f64,
+    dealias: Option<f64>,
+) -> PyResult<f64> {
+    Ok(equation(a, b, d, f, g, v, dealias)?.dealias())
+}
+
+/// kdv_multisoliton(x, t, kappas, x0s, a, d)
+/// --
+///
+/// The KdV N-soliton of ``u_t + a u u_x + d u_xxx = 0`` at the points ``x`` and time ``t`` (on the
+/// infinite line, no periodic images), as a new float64 array.
+///
+/// ``kappas`` are the distinct positive wavenumbers and ``x0s`` the positions each soliton would
+/// have alone at ``t = 0``; a single soliton is ``(12 d / a) kappa^2 sech^2(kappa (x - x0 -
+/// 4 d kappa^2 t))``. Raises ``ConfigError`` or ``ShapeError`` for bad parameters.
 #[pyfunction]
 fn kdv_multisoliton<'py>(
     py: Python<'py>,
@@ -127,7 +240,15 @@ fn kdv_multisoliton<'py>(
     Ok(out.into_pyarray(py))
 }
 
-/// The focusing mKdV N-soliton of `u_t + b u^2 u_x + d u_xxx = 0` with polarities `signs`.
+/// mkdv_multisoliton(x, t, kappas, x0s, signs, b, d)
+/// --
+///
+/// The focusing mKdV N-soliton of ``u_t + b u^2 u_x + d u_xxx = 0`` (``b d > 0``) at the points
+/// ``x`` and time ``t`` (on the infinite line), as a new float64 array.
+///
+/// ``kappas`` are the distinct positive wavenumbers, ``x0s`` the lone-soliton positions at
+/// ``t = 0`` and ``signs`` the polarities (+1 or -1) of the solitons. Raises ``ConfigError`` or
+/// ``ShapeError`` for bad parameters.
 #[pyfunction]
 #[allow(clippy::too_many_arguments)] // the solution's parameters
 fn mkdv_multisoliton<'py>(
@@ -156,7 +277,12 @@ fn mkdv_multisoliton<'py>(
     Ok(out.into_pyarray(py))
 }
 
-/// Seconds per set of `forward` + `inverse` bare real transforms of size `n` (benchmark floor).
+/// fft_floor(n, forward, inverse, repeats)
+/// --
+///
+/// Seconds per set of ``forward`` real-to-complex plus ``inverse`` complex-to-real transforms of
+/// size ``n`` (even), averaged over ``repeats`` sets: the FFT floor of a step, for benchmarks.
+/// Runs with the GIL released.
 #[pyfunction]
 fn fft_floor(
     py: Python<'_>,
@@ -169,10 +295,14 @@ fn fft_floor(
         .map_err(to_py)
 }
 
+/// The compiled core of kdvsweep: the ``Simulation`` stepper, spectral ``invariants``, the core's
+/// ``dealias_fraction`` rule, exact KdV/mKdV multi-solitons, an FFT timing floor, and ``SCHEMES``
+/// (the names of the time-stepping schemes, in documented order).
 #[pymodule]
 fn _core(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_class::<Simulation>()?;
     m.add_function(wrap_pyfunction!(invariants, m)?)?;
+    m.add_function(wrap_pyfunction!(dealias_fraction, m)?)?;
     m.add_function(wrap_pyfunction!(kdv_multisoliton, m)?)?;
     m.add_function(wrap_pyfunction!(mkdv_multisoliton, m)?)?;
     m.add_function(wrap_pyfunction!(fft_floor, m)?)?;

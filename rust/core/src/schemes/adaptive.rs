@@ -17,7 +17,7 @@ use super::{symbol, zeros, Exponentials, Scheme, Stepper};
 use crate::equation::Equation;
 use crate::error::Result;
 use crate::grid::Grid;
-use crate::spectral::Probe;
+use crate::spectral::{check_modes, Probe};
 
 /// Safety factor and bounds of the step-size controller (common practice, no source).
 const SAFETY: f64 = 0.9;
@@ -90,17 +90,18 @@ impl IfRk43 {
     /// Tries a step of size `h` with relative L2 tolerance `tol`; on success `v` is advanced.
     ///
     /// # Errors
-    /// [`crate::CoreError::Fft`] only on a wrongly sized `v`.
+    /// [`crate::CoreError::ShapeMismatch`] if `v` does not have `n/2 + 1` modes.
     pub fn attempt(&mut self, v: &mut [Complex64], h: f64, tol: f64) -> Result<Attempt> {
+        check_modes(v, self.stages.nl.modes())?;
         self.exponentials(h);
         if !self.fsal {
-            self.stages.nl.load(v);
+            self.stages.nl.load(v)?;
             self.stages.nl.eval(&mut self.stages.k1)?;
             self.fsal = true;
         }
         self.v_new.copy_from_slice(v);
         self.stages.finish(&mut self.v_new, &self.ex[0].1, h)?;
-        self.stages.nl.load(&self.v_new);
+        self.stages.nl.load(&self.v_new)?;
         let probe = self.stages.nl.eval_probed(&mut self.k5)?;
 
         let last = v.len() - 1;
@@ -154,8 +155,9 @@ impl Stepper for IfRk43 {
 
     /// A fixed step with the fourth-order member of the pair.
     fn step(&mut self, v: &mut [Complex64], h: f64) -> Result<Probe> {
+        check_modes(v, self.stages.nl.modes())?;
         self.exponentials(h);
-        self.stages.nl.load(v);
+        self.stages.nl.load(v)?;
         let probe = self.stages.nl.eval_probed(&mut self.stages.k1)?;
         self.stages.finish(v, &self.ex[0].1, h)?;
         self.fsal = false;

@@ -11,7 +11,7 @@ use super::{symbol, zeros, CoeffCache, Scheme, Stepper};
 use crate::equation::Equation;
 use crate::error::Result;
 use crate::grid::Grid;
-use crate::spectral::{Nonlinear, Probe};
+use crate::spectral::{check_modes, Nonlinear, Probe};
 
 /// Points on the contour: the trapezoidal rule converges geometrically for these entire functions,
 /// and 64 points reach round-off for the complex (dispersive) symbols used here.
@@ -103,13 +103,14 @@ impl Stepper for Etdrk4 {
     }
 
     fn step(&mut self, v: &mut [Complex64], h: f64) -> Result<Probe> {
+        check_modes(v, self.nl.modes())?;
         let lin = &self.lin;
         let c = self.cache.get(h, |h| EtdCoefficients::new(lin, h));
         let k = self.nl.kept();
         // Slices of one length `k` let the compiler drop the bounds checks in the stage loops.
         let (e, e2, q) = (&c.e[..k], &c.e2[..k], &c.q[..k]);
         let (f1, f2, f3) = (&c.f1[..k], &c.f2[..k], &c.f3[..k]);
-        self.nl.load(v);
+        self.nl.load(v)?;
         let probe = self.nl.eval_probed(&mut self.nv)?;
         {
             let (input, a, nv, vk) = (self.nl.input(), &mut self.a[..k], &self.nv[..k], &v[..k]);

@@ -8,7 +8,7 @@ use super::{symbol, zeros, CoeffCache, Exponentials, Scheme, Stepper};
 use crate::equation::Equation;
 use crate::error::Result;
 use crate::grid::Grid;
-use crate::spectral::{Nonlinear, Probe};
+use crate::spectral::{check_modes, Nonlinear, Probe};
 
 /// Stage buffers of an IF-RK4 step, shared with the adaptive scheme built on it.
 pub(crate) struct IfStages {
@@ -99,9 +99,10 @@ impl Stepper for IfRk4 {
     }
 
     fn step(&mut self, v: &mut [Complex64], h: f64) -> Result<Probe> {
+        check_modes(v, self.stages.nl.modes())?;
         let lin = &self.lin;
         let ex = self.cache.get(h, |h| Exponentials::new(lin, h));
-        self.stages.nl.load(v);
+        self.stages.nl.load(v)?;
         let probe = self.stages.nl.eval_probed(&mut self.stages.k1)?;
         self.stages.finish(v, ex, h)?;
         Ok(probe)

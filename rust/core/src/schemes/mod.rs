@@ -65,7 +65,7 @@ impl Scheme {
     pub fn order(self) -> u32 {
         match self {
             Scheme::Strang => 2,
-            _ => 4,
+            Scheme::Etdrk4 | Scheme::IfRk4 | Scheme::Adaptive => 4,
         }
     }
 }
@@ -102,18 +102,24 @@ pub trait Stepper: Send + Sync {
     /// Advances `v` by `h`; the probe describes the state at the start of the step.
     ///
     /// # Errors
-    /// [`CoreError::Fft`] only on a wrongly sized `v`.
+    /// [`CoreError::ShapeMismatch`] if `v` does not have the `n/2 + 1` modes of the stepper's
+    /// grid (checked before `v` is touched, so it is left unchanged).
     fn step(&mut self, v: &mut [Complex64], h: f64) -> Result<Probe>;
 }
 
-/// Builds the fixed-step stepper of a scheme (the adaptive one steps with its fixed-step rule here).
-pub fn stepper(scheme: Scheme, grid: &Grid, eq: &Equation) -> Box<dyn Stepper> {
-    let mut planner = RealFftPlanner::new();
+/// Builds the fixed-step stepper of a scheme (the adaptive one steps with its fixed-step rule here),
+/// planning its transforms with `planner` (which caches plans, so share one per program part).
+pub fn stepper(
+    planner: &mut RealFftPlanner<f64>,
+    scheme: Scheme,
+    grid: &Grid,
+    eq: &Equation,
+) -> Box<dyn Stepper> {
     match scheme {
-        Scheme::Etdrk4 => Box::new(Etdrk4::new(&mut planner, grid, eq)),
-        Scheme::IfRk4 => Box::new(IfRk4::new(&mut planner, grid, eq)),
-        Scheme::Strang => Box::new(Strang::new(&mut planner, grid, eq)),
-        Scheme::Adaptive => Box::new(IfRk43::new(&mut planner, grid, eq)),
+        Scheme::Etdrk4 => Box::new(Etdrk4::new(planner, grid, eq)),
+        Scheme::IfRk4 => Box::new(IfRk4::new(planner, grid, eq)),
+        Scheme::Strang => Box::new(Strang::new(planner, grid, eq)),
+        Scheme::Adaptive => Box::new(IfRk43::new(planner, grid, eq)),
     }
 }
 

@@ -8,7 +8,7 @@ use super::{symbol, zeros, CoeffCache, Exponentials, Scheme, Stepper};
 use crate::equation::Equation;
 use crate::error::Result;
 use crate::grid::Grid;
-use crate::spectral::{Nonlinear, Probe};
+use crate::spectral::{check_modes, Nonlinear, Probe};
 
 /// The Strang split-step scheme.
 pub struct Strang {
@@ -43,6 +43,7 @@ impl Stepper for Strang {
     }
 
     fn step(&mut self, v: &mut [Complex64], h: f64) -> Result<Probe> {
+        check_modes(v, self.nl.modes())?;
         let lin = &self.lin;
         let e = &self.cache.get(h, |h| Exponentials::new(lin, h)).half;
         let kept = self.nl.kept();
@@ -50,7 +51,7 @@ impl Stepper for Strang {
         for j in 0..kept {
             v[j] *= e[j];
         }
-        self.nl.load(v);
+        self.nl.load(v)?;
         // The probe sees the state after the first linear half step: same max|u| for dispersion,
         // and finiteness is what matters.
         let probe = self.nl.eval_probed(&mut self.k1)?;
