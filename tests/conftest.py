@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import os
+from pathlib import Path
+from typing import Any
 
 # Dense eigen-solves on a shared 2-core machine run far faster single-threaded; set before numpy loads.
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
@@ -10,6 +12,7 @@ os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 import numpy as np
 
 import kdvsweep as kv
+from kdvsweep.sweep import Sweep, load_sweep
 
 
 def periodic_soliton(
@@ -71,3 +74,12 @@ position = "auto"
 end = "auto"
 frame_every = {frame_every}
 {frames}"""
+
+
+def pair_sweep(folder: Path, name: str, k2: list[float], **options: Any) -> Sweep:
+    """The sweep of :func:`pair_sweep_text`, written to ``folder/<name>.toml`` and read: typed run
+    specs for tests that feed a store hand-made results (``options`` go to pair_sweep_text)."""
+    folder.mkdir(parents=True, exist_ok=True)
+    path = folder / f"{name}.toml"
+    path.write_text(pair_sweep_text(name, k2, **options), encoding="utf-8")
+    return load_sweep(path)

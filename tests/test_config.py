@@ -6,7 +6,6 @@ import itertools
 import json
 import math
 import pickle
-from dataclasses import asdict
 from pathlib import Path
 
 import numpy as np
@@ -384,7 +383,7 @@ def test_no_vary_gives_one_run(tmp_path: Path) -> None:
     assert s.parameters == ()
     assert len(s.runs) == 1
     assert s.runs[0].params == {}
-    assert s.runs[0].initial["kappa"] == [1.0, 0.5]
+    assert s.runs[0].initial.kappa == (1.0, 0.5)
 
 
 def test_cartesian_product_first_table_slowest(tmp_path: Path) -> None:
@@ -401,7 +400,7 @@ def test_cartesian_product_first_table_slowest(tmp_path: Path) -> None:
         (0.6, 256),
         (0.6, 512),
     ]
-    assert [r.initial["kappa"][1] for r in s] == [0.4, 0.4, 0.5, 0.5, 0.6, 0.6]
+    assert [r.initial.kappa[1] for r in s] == [0.4, 0.4, 0.5, 0.5, 0.6, 0.6]
     assert isinstance(s[0].params["n"], int)
 
 
@@ -410,7 +409,7 @@ def test_points_from_a_parameter(tmp_path: Path) -> None:
         "points = 512", 'points = "n"'
     )
     runs = load_sweep(write(tmp_path, text)).runs
-    assert [r.model["n"] for r in runs] == [512, 768]
+    assert [r.model.grid.n for r in runs] == [512, 768]
 
 
 def test_zipped_axis_with_text_values(tmp_path: Path) -> None:
@@ -428,9 +427,9 @@ def test_zipped_axis_with_text_values(tmp_path: Path) -> None:
         {"k2": 0.6, "eq": "mkdv", "pol": -1},
     ]
     # the kdv and mkdv presets of kv.Equation
-    assert [r.model["equation"]["a"] for r in s.runs] == [6.0, 0.0, 0.0]
-    assert [r.model["equation"]["b"] for r in s.runs] == [0.0, 6.0, 6.0]
-    assert [r.initial["sign"] for r in s.runs] == [[1, 1], [1, 1], [1, -1]]
+    assert [r.model.equation.a for r in s.runs] == [6.0, 0.0, 0.0]
+    assert [r.model.equation.b for r in s.runs] == [0.0, 6.0, 6.0]
+    assert [r.initial.sign for r in s.runs] == [(1, 1), (1, 1), (1, -1)]
 
 
 def test_linear_and_log_ranges_against_numpy(tmp_path: Path) -> None:
@@ -491,25 +490,26 @@ def test_derived_values_and_conversions(tmp_path: Path) -> None:
     text = edit("[model]", '[derive]\nhalf = "6 / k2"\nk1 = 1.0\n\n[model]')
     text = edit("position = [-10.0, 10.0]", 'position = ["-half", "half"]', text)
     runs = load_sweep(write(tmp_path, text)).runs
-    assert [r.initial["x0"] for r in runs] == [[-15.0, 15.0], [-12.0, 12.0]]
-    # amplitudes and speeds become kappas (KdV: amplitude 2 k^2, speed 4 k^2; REFERENCES.md 1.1)
+    assert [r.initial.x0 for r in runs] == [(-15.0, 15.0), (-12.0, 12.0)]
+    # amplitudes and speeds become kappas (KdV: amplitude 2 k^2, speed 4 k^2; Korteweg & de Vries
+    # 1895, normalised as in Ablowitz 2011, Eq. 1.5)
     amp = edit('kappa = [1.0, "k2"]', 'amplitude = [2.0, "2 * k2^2"]')
     runs = load_sweep(write(tmp_path, amp)).runs
-    assert [r.initial["kappa"] for r in runs] == [[1.0, 0.4], [1.0, 0.5]]
+    assert [r.initial.kappa for r in runs] == [(1.0, 0.4), (1.0, 0.5)]
     spd = edit('kappa = [1.0, "k2"]', 'speed = [4.0, "4 * k2^2"]')
     runs = load_sweep(write(tmp_path, spd)).runs
-    assert [r.initial["kappa"] for r in runs] == [[1.0, 0.4], [1.0, 0.5]]
+    assert [r.initial.kappa for r in runs] == [(1.0, 0.4), (1.0, 0.5)]
 
 
 def test_record_times(tmp_path: Path) -> None:
     run = load_sweep(write(tmp_path, edit("end = 10.0", "end = 10.2"))).runs[0].run
-    times = run["record_times"]
+    times = run.record_times
     assert times[0] == 0.0
-    assert times[-1] == 10.2 == run["t_end"]
-    assert times[:-1] == [0.5 * i for i in range(21)]
+    assert times[-1] == 10.2 == run.t_end
+    assert list(times[:-1]) == [0.5 * i for i in range(21)]
     assert all(b > a for a, b in itertools.pairwise(times))
-    assert run["store_frames"] is False
-    assert run["frame_stride"] == 1
+    assert run.store_frames is False
+    assert run.frame_stride == 1
 
 
 def test_profiles_and_adaptive_scheme(tmp_path: Path) -> None:
@@ -519,16 +519,17 @@ def test_profiles_and_adaptive_scheme(tmp_path: Path) -> None:
     )
     text = edit('scheme = "etdrk4"\ndt = 2.5e-3', 'scheme = "adaptive"\ntol = 1e-8', text)
     runs = load_sweep(write(tmp_path, text)).runs
-    assert runs[1].initial == {
+    assert runs[1].initial == kv.initial.Box(height=0.5, half_width=3.0, center=0.0, edge=0.2)
+    assert runs[1].initial.plain() == {
         "kind": "box",
         "height": 0.5,
         "center": 0.0,
         "half_width": 3.0,
         "edge": 0.2,
     }
-    assert runs[0].model["scheme"] == "adaptive"
-    assert runs[0].model["tol"] == 1e-8
-    assert runs[0].model["dt"] > 0
+    assert runs[0].model.scheme == "adaptive"
+    assert runs[0].model.tol == 1e-8
+    assert runs[0].model.dt > 0
 
 
 def test_npy_initial_data(tmp_path: Path) -> None:
@@ -537,7 +538,7 @@ def test_npy_initial_data(tmp_path: Path) -> None:
     np.save(data / "u0.npy", np.linspace(0, 1, 512))
     path = write(data, NPY)
     spec = load_sweep(path).runs[0]
-    assert spec.initial["path"] == str((data / "u0.npy").resolve())
+    assert spec.initial.path == str((data / "u0.npy").resolve())
     u = kv.initial.build_profile(spec.initial, kv.Grid(512, 60.0), kv.Equation.kdv())
     np.testing.assert_array_equal(u, np.linspace(0, 1, 512))
 
@@ -549,12 +550,25 @@ def test_runspecs_are_plain_data(tmp_path: Path) -> None:
     s = load_sweep(write(tmp_path, BASE))
     for spec in s.runs:
         assert isinstance(spec, RunSpec)
-        text = json.dumps(asdict(spec))
-        assert json.loads(text) == asdict(spec)
-        assert pickle.loads(pickle.dumps(spec)) == spec
-    assert set(s.runs[0].model) == {"equation", "n", "length", "scheme", "dt", "tol"}
-    assert set(s.runs[0].model["equation"]) == {"name", "a", "b", "d", "f", "g", "v", "dealias"}
-    assert set(s.runs[0].run) == {"t_end", "record_times", "store_frames", "frame_stride"}
+        text = json.dumps(spec.plain())
+        assert json.loads(text) == spec.plain()
+        assert pickle.loads(pickle.dumps(spec)) == spec  # dask ships specs to workers
+    spec = s.runs[0]
+    assert isinstance(spec.model.equation, kv.Equation)  # the equation itself, not a dict of it
+    assert spec.model.equation == kv.Equation.kdv()
+    assert spec.model.grid == kv.Grid(512, 60.0)
+    assert set(spec.plain()["model"]) == {"equation", "n", "length", "scheme", "dt", "tol"}
+    assert set(spec.plain()["model"]["equation"]) == {
+        "name",
+        "a",
+        "b",
+        "d",
+        "f",
+        "g",
+        "v",
+        "dealias",
+    }
+    assert set(spec.plain()["run"]) == {"t_end", "record_times", "store_frames", "frame_stride"}
     assert s.name == "t"
     assert s.text == BASE
     assert s.path == (tmp_path / "sweep.toml").resolve()
@@ -589,26 +603,28 @@ def test_example_sweeps_load_cleanly() -> None:
 def test_demo_is_a_few_dozen_kdv_and_mkdv_pairs() -> None:
     s = load_sweep(SWEEPS / "demo.toml")
     assert 24 <= len(s.runs) <= 40
-    names = {r.model["equation"]["name"] for r in s.runs}
+    names = {r.model.equation.name for r in s.runs}
     assert names == {"kdv", "mkdv"}
-    assert {tuple(r.initial["sign"]) for r in s.runs if r.params["equation"] == "mkdv"} == {
+    assert {tuple(r.initial.sign) for r in s.runs if r.params["equation"] == "mkdv"} == {
         (1, 1),
         (1, -1),
     }
-    assert all(len(r.initial["kappa"]) == 2 for r in s.runs)
+    assert all(len(r.initial.kappa) == 2 for r in s.runs)
 
 
 # ---------------------------------------------------------------- sizing and resolution
 
 
 def _tail_gap(k1: float, k2: float, family: str, tail: float) -> float:
-    # sech^2(z) ~ 4 e^{-2|z|} (KdV, REFERENCES.md 1.1), sech(2 k x) ~ 2 e^{-2 k |x|} (mKdV, 2.1)
+    # sech^2(z) ~ 4 e^{-2|z|} (KdV soliton, Korteweg & de Vries 1895), sech(2 k x) ~ 2 e^{-2 k |x|}
+    # (mKdV soliton, Wadati 1973)
     c = 4.0 if family == "kdv" else 2.0
     return math.log(c / tail) / (2 * min(k1, k2))
 
 
 def _pair_shifts(k1: float, k2: float, family: str) -> tuple[float, float]:
-    """Two-soliton position shifts, k1 > k2 (REFERENCES.md 1.3 KdV; 2.3 mKdV, same in kappa)."""
+    """Two-soliton position shifts, k1 > k2 (Gardner, Greene, Kruskal & Miura 1974 for KdV;
+    Zakharov & Shabat 1972 for mKdV, the same in kappa [memory])."""
     log = math.log((k1 + k2) / (k1 - k2))
     return log / k1, -log / k2
 
@@ -616,11 +632,11 @@ def _pair_shifts(k1: float, k2: float, family: str) -> tuple[float, float]:
 def _check_no_image_meeting(spec: RunSpec, tail: float) -> None:
     """Centres x0 + c t on the periodic box: no soliton within a gap of another's image, every
     overtaking pair a gap apart at the end (checked on a fine time grid, not at end points)."""
-    eq = spec.model["equation"]
-    family = "kdv" if eq["a"] else "mkdv"
-    kappas, x0 = spec.initial["kappa"], spec.initial["x0"]
-    speeds = [4 * eq["d"] * k * k for k in kappas]  # REFERENCES.md 1.1, 2.1
-    L, T = spec.model["length"], spec.run["t_end"]
+    eq = spec.model.equation
+    family = "kdv" if eq.a else "mkdv"
+    kappas, x0 = spec.initial.kappa, spec.initial.x0
+    speeds = [4 * eq.d * k * k for k in kappas]  # both canonical solitons move at 4 kappa^2
+    L, T = spec.model.grid.length, spec.run.t_end
     t = np.linspace(0.0, T, 4001)
     for i in range(len(kappas)):
         assert -L / 2 <= x0[i] < L / 2
@@ -642,10 +658,10 @@ def test_auto_sized_demo_runs_never_meet_a_periodic_image() -> None:
     s = load_sweep(SWEEPS / "demo.toml")
     for spec in s.runs:
         _check_no_image_meeting(spec, 1e-8)
-        if spec.initial["kind"] == "solitons" and spec.params.get("k2") is not None:
+        if spec.initial.kind == "solitons" and spec.params.get("k2") is not None:
             # auto positions: the listed order, exactly one gap apart
             fam = "kdv" if spec.params["equation"] == "kdv" else "mkdv"
-            gap = spec.initial["x0"][1] - spec.initial["x0"][0]
+            gap = spec.initial.x0[1] - spec.initial.x0[0]
             assert gap == pytest.approx(_tail_gap(1.0, spec.params["k2"], fam, 1e-8), rel=1e-9)
 
 
@@ -667,8 +683,8 @@ def test_sized_pair_exact_solution_separated_at_the_end(tmp_path: Path, k2: floa
     ):
         text = edit(key, value, text)
     spec = load_sweep(write(tmp_path, text)).runs[0]
-    T, L = spec.run["t_end"], spec.model["length"]
-    kappas, x0 = spec.initial["kappa"], spec.initial["x0"]
+    T, L = spec.run.t_end, spec.model.grid.length
+    kappas, x0 = spec.initial.kappa, spec.initial.x0
     x = np.linspace(x0[0] - 50, x0[1] + 4 * kappas[0] ** 2 * T + 50, 200001)  # the open line
     u = kv.exact.multisoliton(x, T, kappas, x0, "kdv")
     peaks = np.flatnonzero((u[1:-1] > u[:-2]) & (u[1:-1] > u[2:]) & (u[1:-1] > 1e-3)) + 1
@@ -679,8 +695,30 @@ def test_sized_pair_exact_solution_separated_at_the_end(tmp_path: Path, k2: floa
     assert fast - slow <= L - s  # the fast one has not reached the slow one's periodic image
 
 
-def test_resolution_thresholds_match_references() -> None:
-    # REFERENCES.md 6.5 (computed there): double precision needs k_max >~ 23.5 kappa, i.e.
+@pytest.mark.parametrize("shape", ["sech2", "sech"])
+def test_soliton_spectra_decay_as_the_resolution_rule_assumes(shape: str) -> None:
+    # The continuous transforms int sech^2(x) e^{-ikx} dx = pi k / sinh(pi k / 2) and
+    # int sech(x) e^{-ikx} dx = pi / cosh(pi k / 2) (standard tables, e.g. Gradshteyn & Ryzhik
+    # [memory]), against numpy's FFT of the sampled profile: both decay like e^{-pi k w / 2}.
+    n, length = 4096, 400.0
+    x = -length / 2 + length / n * np.arange(n)
+    u = 1 / np.cosh(x) ** 2 if shape == "sech2" else 1 / np.cosh(x)
+    k = 2 * np.pi / length * np.arange(1, n // 2 + 1)  # k = 0 left out (0/0 in the formula)
+    numeric = np.abs(np.fft.rfft(u))[1:] * (length / n)
+    exact = (
+        np.pi * k / np.sinh(np.pi * k / 2) if shape == "sech2" else np.pi / np.cosh(np.pi * k / 2)
+    )
+    band = k < 18.0  # above it the transform is below 1e-11 of its peak: round-off
+    np.testing.assert_allclose(numeric[band], exact[band], rtol=1e-6, atol=1e-14)
+    # decay rate of the measured spectrum between k = 12 and 16: pi / 2 (up to the algebraic k)
+    i, j = np.searchsorted(k, 12.0), np.searchsorted(k, 16.0)
+    rate = (np.log(numeric[j]) - np.log(numeric[i])) / (k[j] - k[i])
+    assert rate == pytest.approx(-np.pi / 2, rel=0.06)
+
+
+def test_resolution_thresholds() -> None:
+    # The Fourier transform of sech^2(kappa x) decays like e^{-pi k / (2 kappa)} (previous test):
+    # 16 decades need k_max >~ 2 * 16 ln(10) / pi kappa = 23.5 kappa, i.e.
     # dx <~ 0.13/kappa undealiased and ~0.09/kappa with 2/3 dealiasing (KdV width 1/kappa)
     per_width = sizing.min_points_per_width(1.0, sizing.WARN_DECADES)
     assert math.pi * per_width == pytest.approx(23.5, rel=0.01)
@@ -708,7 +746,7 @@ def test_resolution_warns_then_refuses(tmp_path: Path) -> None:
 def test_auto_points_pass_the_check_and_are_fft_friendly(tmp_path: Path) -> None:
     text = edit("points = 512", 'points = "auto"')
     spec = load_sweep(write(tmp_path, text)).runs[0]
-    n = spec.model["n"]
+    n = spec.model.grid.n
     assert n == 768  # smallest of 2^p, 3 2^p above 60 * 11.2
     assert 60.0 / n <= 1 / sizing.min_points_per_width(2 / 3, sizing.WARN_DECADES)
 
@@ -731,7 +769,7 @@ def test_short_explicit_length_is_only_a_warning(tmp_path: Path) -> None:
 
 
 def test_opposite_polarity_peak_enters_the_step_check(tmp_path: Path) -> None:
-    # The exact mKdV 2-soliton (Hirota 1972, REFERENCES.md 2.2, via kv.exact) of opposite
+    # The exact mKdV 2-soliton (Hirota 1972, via kv.exact) of opposite
     # polarities peaks at a1 + a2 = 2 + 1.2 where the solitons meet (t = 8 / 2.56 here)
     x = np.linspace(-20.0, 20.0, 20001)
     peak = max(

@@ -5,7 +5,7 @@ compiled core (:class:`kdvsweep.Simulation`) long enough for them to separate, a
 late-time peak heights with sub-grid (spectral) interpolation. Normalisation: KdV
 ``u_t + 6 u u_x + u_xxx = 0`` (soliton ``2 kappa^2 sech^2``, speed ``4 kappa^2``), focusing mKdV
 ``u_t + 6 u^2 u_x + u_xxx = 0`` (soliton ``2 kappa sech``, speed ``4 kappa^2``). Radiation moves
-left (KdV group velocity ``-3 k^2``, REFERENCES.md 5(e)); the solitons move right, so the boxes
+left (KdV group velocity ``-3 k^2`` of the linearised equation); the solitons move right, so the boxes
 are sized so that the tallest soliton is measured before the radiation wrapping around the
 periodic box comes near it.
 
@@ -55,7 +55,7 @@ def measure_peaks(u: np.ndarray, length: float, threshold: float) -> np.ndarray:
 
 def test_measure_peaks_is_subgrid_accurate() -> None:
     # The helper itself, against the exact one-soliton 2 k^2 sech^2(k (x - x0)) with its crest
-    # between grid points (Korteweg & de Vries 1895; REFERENCES.md 1.1). The grid resolves the
+    # between grid points (Korteweg & de Vries 1895). The grid resolves the
     # sech^2 spectrum (decaying like exp(-pi k / (2 kappa))) to ~1e-10 at its top wavenumber.
     grid = Grid(256, 40.0)
     u = 2 * 1.3**2 / np.cosh(1.3 * (grid.x - 0.37 * grid.dx - 1.0)) ** 2
@@ -65,8 +65,8 @@ def test_measure_peaks_is_subgrid_accurate() -> None:
 
 def test_6sech2_separates_into_amplitudes_8_and_2() -> None:
     # u0 = 6 sech^2 x is the reflectionless lam = 2 Pöschl-Teller well: exactly two solitons,
-    # kappa = 2, 1, amplitudes 8 and 2 (Drazin & Johnson 1989 Ch. 4 [memory]; REFERENCES.md 1.6,
-    # 5(a)), no radiation. At t = 1.5 the crests are near x = 24 and x = 5.5, tails overlapping
+    # kappa = 2, 1, amplitudes 8 and 2 (Drazin & Johnson 1989 Ch. 4 [memory]; Pöschl & Teller
+    # 1933), no radiation. At t = 1.5 the crests are near x = 24 and x = 5.5, tails overlapping
     # by ~1e-15. dt = 5e-4 keeps the ETDRK4 error of the heights at ~2e-6 (1e-3 gives 7e-5).
     predicted = bound_states(6.0 / np.cosh(Grid(512, 40.0).x) ** 2, Grid(512, 40.0))
     np.testing.assert_allclose(predicted.amplitudes, [8.0, 2.0], atol=1e-7)
@@ -80,8 +80,7 @@ def test_6sech2_separates_into_amplitudes_8_and_2() -> None:
 
 
 def test_non_integer_well_gives_predicted_solitons_plus_radiation() -> None:
-    # lam = 1.5: u0 = 3.75 sech^2 x is not reflectionless (Pöschl & Teller 1933; REFERENCES.md
-    # 5(a)): solitons kappa = 1.5, 0.5 (amplitudes 4.5, 0.5, speeds 9, 1) plus radiation of
+    # lam = 1.5: u0 = 3.75 sech^2 x is not reflectionless (Pöschl & Teller 1933): solitons kappa = 1.5, 0.5 (amplitudes 4.5, 0.5, speeds 9, 1) plus radiation of
     # negative mass 2 lam(lam + 1) - 4 sum kappa = -0.5. At t = 10 the small soliton (x ~ 9) has
     # left the slow radiation near x = 0 and the fastest wrapped radiation is still far behind the
     # tall one (x ~ 90) in a box of 600; radiation crests stay below 0.05 < threshold. Measured
@@ -102,8 +101,8 @@ def test_non_integer_well_gives_predicted_solitons_plus_radiation() -> None:
 
 
 def test_mkdv_sech_separates_into_zakharov_shabat_solitons() -> None:
-    # q0 = 2.3 sech x under focusing mKdV: eta = 1.8, 0.8 (Satsuma & Yajima 1974; REFERENCES.md
-    # 5(c)), positive solitons of amplitudes 3.6 and 1.6, speeds 12.96 and 2.56, plus radiation
+    # q0 = 2.3 sech x under focusing mKdV: eta = 1.8, 0.8 (Satsuma & Yajima 1974),
+    # positive solitons of amplitudes 3.6 and 1.6, speeds 12.96 and 2.56, plus radiation
     # (2.3 is not an integer). At t = 8 the crests are near x = 104 and x = 20. Measured relative
     # errors 1.3e-3 (tall; ETDRK4 time error, 7e-4 at dt = 2.5e-4) and 8e-5 (small).
     small = Grid(512, 50.0)

@@ -1,115 +1,42 @@
-"""Initial data builders: the ``u0`` of a run from the plain-data ``initial`` of a RunSpec.
+"""Initial data: typed descriptions of a run's ``u0`` and the builder of the profile on a grid.
 
-Kinds (the ``"kind"`` entry of the dict) and their other entries:
+Kinds (the :attr:`kind` of each description):
 
-- ``"solitons"``: superposed one-solitons, ``kappa``, ``x0`` (centres, left to right), ``sign``;
-  summed over periodic images so the profile is smooth across ``x = +-L/2``;
-- ``"multisoliton"``: the exact Hirota N-soliton at ``t = 0``, ``kappa``, ``x0`` (phase constants),
-  ``sign``;
-- ``"sech2"``: ``height sech^2((x - center)/scale)``; ``"gaussian"``: ``height exp(-((x - center)/
-  scale)^2)`` (both summed over periodic images);
-- ``"box"``: ``height`` on ``|x - center| < half_width`` (periodically wrapped), edges smoothed by
-  ``tanh`` over ``edge`` when ``edge > 0``, ``height/2`` exactly on a sharp edge;
-- ``"npy"``: a 1-D array of length ``n`` from the ``.npy`` file ``path`` (checked against ``sha256``
-  when given).
+- :class:`Solitons` ``"solitons"``: superposed one-solitons, ``kappa``, ``x0`` (centres, left to
+  right), ``sign``; summed over periodic images so the profile is smooth across ``x = +-L/2``;
+  ``"multisoliton"`` (``exact=True``): the exact Hirota N-soliton at ``t = 0``, with ``x0`` its
+  phase constants;
+- :class:`Profile` ``"sech2"``: ``height sech^2((x - center)/scale)``; ``"gaussian"``:
+  ``height exp(-((x - center)/scale)^2)`` (both summed over periodic images);
+- :class:`Box` ``"box"``: ``height`` on ``|x - center| < half_width`` (periodically wrapped), edges
+  smoothed by ``tanh`` over ``edge`` when ``edge > 0``, ``height/2`` exactly on a sharp edge;
+- :class:`FileData` ``"npy"``: a 1-D array of length ``n`` from the ``.npy`` file ``path``
+  (checked against ``sha256`` when given).
 
-Solitons are given by ``kappa`` in the canonical forms (REFERENCES.md 1.1, 2.1): KdV
-``u_t + 6 u u_x + u_xxx = 0`` has ``2 kappa^2 sech^2(kappa (x - 4 kappa^2 t - x0))``, focusing mKdV
-``u_t + 6 u^2 u_x + u_xxx = 0`` has ``2 kappa sech(2 kappa (x - 4 kappa^2 t - x0))``. A general
-``a`` (or ``b``) and ``d`` is reached by the exact scaling ``u = alpha w(x, d t)`` with
-``alpha = 6 d / a`` (KdV) or ``sqrt(6 d / b)`` (mKdV), so the speed is ``4 d kappa^2`` and the
-height ``|alpha|`` times the canonical one. Perturbation terms (``f, g, v``) do not change the
-initial profile.
+Solitons are given by ``kappa``; their shape, height and sign come from the equation's
+:attr:`kdvsweep.Equation.soliton_form` (KdV ``2 kappa^2 sech^2(kappa x)``, Korteweg & de Vries
+1895; focusing mKdV ``2 kappa sech(2 kappa x)``, Wadati 1973; scaled to the equation's
+coefficients). Perturbation terms (``f, g, v``) do not change the initial profile.
 """
 
 from __future__ import annotations
 
 import hashlib
 import math
-from collections.abc import Callable, Mapping
+from collections.abc import Callable
+from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
 from .exceptions import ConfigError, ShapeError
-from .model import Equation, Grid
+from .model import Equation, Grid, _sech
 
 KINDS = ("solitons", "multisoliton", "sech2", "gaussian", "box", "npy")
 
 # Images are summed until the neglected tail is below 1e-18 of the peak: e^{-2 kappa X} < 1e-18/4.
 _TAIL_DECAYS = 0.5 * math.log(4e18)
-
-
-def soliton_family(equation: Equation) -> str:
-    """``"kdv"`` or ``"mkdv"``: the family whose solitons this equation carries; else ConfigError.
-
-    KdV needs ``a != 0, b = 0``; mKdV needs ``a = 0`` and ``b d > 0`` (focusing). ``d`` must be
-    non-zero in both. Perturbations ``f, g, v`` are allowed: the solitons are then initial data.
-    """
-    if equation.d != 0 and equation.b == 0 and equation.a != 0:
-        return "kdv"
-    if equation.d != 0 and equation.a == 0 and equation.b * equation.d > 0:
-        return "mkdv"
-    raise ConfigError(
-        f"solitons: equation {equation.name!r} (a={equation.a}, b={equation.b}, d={equation.d}) "
-        "has no soliton formula here; expected a KdV (a != 0, b = 0) or focusing mKdV "
-        "(a = 0, b d > 0) equation"
-    )
-
-
-def soliton_scale(equation: Equation) -> float:
-    """``alpha`` of ``u = alpha w(x, d t)`` mapping the canonical equation onto ``equation``."""
-    if soliton_family(equation) == "kdv":
-        return 6.0 * equation.d / equation.a
-    return math.sqrt(6.0 * equation.d / equation.b)
-
-
-def soliton_sign(equation: Equation) -> int:
-    """The sign of a KdV soliton (+1 elevation, -1 depression); +1 for mKdV (polarity is free)."""
-    return 1 if soliton_scale(equation) > 0 else -1
-
-
-def soliton_amplitude(kappa: float, equation: Equation) -> float:
-    """Peak ``|u|``: ``|alpha| 2 kappa^2`` (KdV), ``alpha 2 kappa`` (mKdV)."""
-    alpha = abs(soliton_scale(equation))
-    if soliton_family(equation) == "kdv":
-        return alpha * 2.0 * kappa**2
-    return alpha * 2.0 * kappa
-
-
-def soliton_speed(kappa: float, equation: Equation) -> float:
-    """``4 d kappa^2`` in both families."""
-    soliton_family(equation)
-    return 4.0 * equation.d * kappa**2
-
-
-def soliton_width(kappa: float, family: str) -> float:
-    """Width (inverse of the sech argument scale): ``1/kappa`` (KdV), ``1/(2 kappa)`` (mKdV)."""
-    return 1.0 / kappa if family == "kdv" else 0.5 / kappa
-
-
-def kappa_from_amplitude(amplitude: float, equation: Equation) -> float:
-    """Invert :func:`soliton_amplitude` (``amplitude`` is the peak ``|u|``, > 0)."""
-    if not amplitude > 0:
-        raise ConfigError(f"solitons: amplitude must be positive, got {amplitude}")
-    alpha = abs(soliton_scale(equation))
-    if soliton_family(equation) == "kdv":
-        return math.sqrt(amplitude / (2.0 * alpha))
-    return amplitude / (2.0 * alpha)
-
-
-def kappa_from_speed(speed: float, equation: Equation) -> float:
-    """Invert :func:`soliton_speed` (``speed`` must have the sign of ``d``)."""
-    soliton_family(equation)
-    if not speed / equation.d > 0:
-        raise ConfigError(f"solitons: speed must have the sign of d = {equation.d}, got {speed}")
-    return 0.5 * math.sqrt(speed / equation.d)
-
-
-def _sech(z: np.ndarray) -> np.ndarray:
-    # 2 e^{-|z|} / (1 + e^{-2|z|}): no overflow for large |z|, unlike 1/cosh
-    e = np.exp(-np.abs(z))
-    return 2.0 * e / (1.0 + e * e)
 
 
 def _periodic(
@@ -128,99 +55,226 @@ def _wrap(x: np.ndarray, length: float) -> np.ndarray:
     return (x + 0.5 * length) % length - 0.5 * length
 
 
-def _need(initial: Mapping[str, object], key: str) -> object:
-    if key not in initial:
-        raise ConfigError(f"initial: kind {initial.get('kind')!r} needs the entry {key!r}")
-    return initial[key]
+def _floats(values: Any, name: str) -> tuple[float, ...]:
+    try:
+        return tuple(float(v) for v in values)
+    except (TypeError, ValueError):
+        raise ConfigError(f"initial: {name} must be a list of numbers, got {values!r}") from None
 
 
-def _soliton_lists(initial: Mapping[str, object]) -> tuple[list[float], list[float], list[int]]:
-    kappas = [float(k) for k in _need(initial, "kappa")]  # type: ignore[attr-defined]
-    x0s = [float(p) for p in _need(initial, "x0")]  # type: ignore[attr-defined]
-    signs = [int(s) for s in initial.get("sign", [1] * len(kappas))]  # type: ignore[attr-defined]
-    if not (len(kappas) == len(x0s) == len(signs)) or not kappas:
-        raise ConfigError(
-            f"initial: kappa, x0 and sign need the same non-zero length, got {len(kappas)}, "
-            f"{len(x0s)}, {len(signs)}"
-        )
-    for k in kappas:
-        if not (math.isfinite(k) and k > 0):
-            raise ConfigError(f"initial: every kappa must be positive and finite, got {k}")
-    for s in signs:
-        if s not in (1, -1):
-            raise ConfigError(f"initial: every sign must be +1 or -1, got {s}")
-    return kappas, x0s, signs
+@dataclass(frozen=True)
+class Solitons:
+    """Solitons of the run's equation: ``kappa``, centres ``x0`` (left to right) and ``sign``.
 
+    ``exact=True`` gives the exact N-soliton (kind ``"multisoliton"``), with ``x0`` the phase
+    constants; otherwise the superposed one-solitons (kind ``"solitons"``). ``sign`` defaults to
+    +1 for every soliton (mKdV polarity; a KdV soliton has its equation's one sign).
+    """
 
-def _superposed(initial: Mapping[str, object], grid: Grid, equation: Equation) -> np.ndarray:
-    kappas, x0s, signs = _soliton_lists(initial)
-    family = soliton_family(equation)
-    alpha = soliton_scale(equation)
-    if family == "kdv":
-        own = soliton_sign(equation)
-        if any(s != own for s in signs):
+    kappa: tuple[float, ...]
+    x0: tuple[float, ...]
+    sign: tuple[int, ...] = ()
+    exact: bool = False
+
+    def __post_init__(self) -> None:
+        kappas, x0s = _floats(self.kappa, "kappa"), _floats(self.x0, "x0")
+        signs = tuple(int(s) for s in self.sign) if self.sign else (1,) * len(kappas)
+        if not (len(kappas) == len(x0s) == len(signs)) or not kappas:
             raise ConfigError(
-                f"initial: a KdV soliton of this equation has sign {own:+d}; got signs {signs}"
+                f"initial: kappa, x0 and sign need the same non-zero length, got {len(kappas)}, "
+                f"{len(x0s)}, {len(signs)}"
             )
-    x = grid.x
-    u = np.zeros_like(x)
-    for kappa, x0, sign in zip(kappas, x0s, signs, strict=True):
-        if family == "kdv":
+        for k in kappas:
+            if not (math.isfinite(k) and k > 0):
+                raise ConfigError(f"initial: every kappa must be positive and finite, got {k}")
+        for s in signs:
+            if s not in (1, -1):
+                raise ConfigError(f"initial: every sign must be +1 or -1, got {s}")
+        object.__setattr__(self, "kappa", kappas)
+        object.__setattr__(self, "x0", x0s)
+        object.__setattr__(self, "sign", signs)
 
-            def shape(y: np.ndarray, k: float = kappa, c: float = x0) -> np.ndarray:
-                return alpha * 2.0 * k**2 * _sech(k * (y - c)) ** 2
-        else:
+    @property
+    def kind(self) -> str:
+        """``"multisoliton"`` (exact) or ``"solitons"`` (superposed)."""
+        return "multisoliton" if self.exact else "solitons"
+
+    def plain(self) -> dict[str, Any]:
+        """As plain JSON data: ``kind``, ``kappa``, ``x0``, ``sign``."""
+        return {
+            "kind": self.kind,
+            "kappa": list(self.kappa),
+            "x0": list(self.x0),
+            "sign": list(self.sign),
+        }
+
+    def rows(self) -> list[dict[str, Any]]:
+        """One dict per soliton, left to right: ``soliton`` (index), ``kappa``, ``x0``, ``sign``."""
+        return [
+            {"soliton": i, "kappa": k, "x0": x0, "sign": s}
+            for i, (k, x0, s) in enumerate(zip(self.kappa, self.x0, self.sign, strict=True))
+        ]
+
+    def build(self, grid: Grid, equation: Equation) -> np.ndarray:
+        """The profile on ``grid.x``."""
+        form = equation.soliton_form
+        if form.family == "kdv" and any(s != form.sign for s in self.sign):
+            raise ConfigError(
+                f"initial: a KdV soliton of this equation has sign {form.sign:+d}; "
+                f"got signs {list(self.sign)}"
+            )
+        if self.exact:
+            from .exact import multisoliton  # needs the compiled core; imported only when used
+
+            # the exact solution is that of the unperturbed equation: f, g, v left out
+            bare = Equation(a=equation.a, b=equation.b, d=equation.d)
+            signs = None if form.family == "kdv" else list(self.sign)
+            return multisoliton(grid.x, 0.0, list(self.kappa), list(self.x0), bare, signs=signs)
+        x = grid.x
+        u = np.zeros_like(x)
+        for kappa, x0, sign in zip(self.kappa, self.x0, self.sign, strict=True):
 
             def shape(y: np.ndarray, k: float = kappa, c: float = x0, s: int = sign) -> np.ndarray:
-                return s * alpha * 2.0 * k * _sech(2.0 * k * (y - c))
+                return form.profile(y, k, c, s)
 
-        u += _periodic(shape, x, grid.length, _TAIL_DECAYS / kappa)
-    return u
+            u += _periodic(shape, x, grid.length, _TAIL_DECAYS / kappa)
+        return u
 
 
-def _multisoliton(initial: Mapping[str, object], grid: Grid, equation: Equation) -> np.ndarray:
-    from .exact import multisoliton  # needs the compiled core; imported only when used
+@dataclass(frozen=True)
+class Profile:
+    """``height sech^2((x - center)/scale)`` (``shape="sech2"``) or ``height exp(-((x -
+    center)/scale)^2)`` (``shape="gaussian"``), summed over periodic images."""
 
-    kappas, x0s, signs = _soliton_lists(initial)
-    family = soliton_family(equation)
-    bare = Equation(a=equation.a, b=equation.b, d=equation.d)  # the exact solution ignores f, g, v
-    if family == "kdv":
-        if any(s != soliton_sign(equation) for s in signs):
+    shape: str
+    height: float
+    scale: float
+    center: float = 0.0
+
+    def __post_init__(self) -> None:
+        if self.shape not in ("sech2", "gaussian"):
+            raise ConfigError(f"initial: profile shape {self.shape!r}; expected sech2 or gaussian")
+        for name in ("height", "scale", "center"):
+            value = getattr(self, name)
+            if (
+                isinstance(value, bool)
+                or not isinstance(value, int | float)
+                or not math.isfinite(value)
+            ):
+                raise ConfigError(f"initial: {name} must be a finite number, got {value!r}")
+            object.__setattr__(self, name, float(value))
+        if not self.scale > 0:
+            raise ConfigError(f"initial: {self.shape} scale must be positive, got {self.scale}")
+
+    @property
+    def kind(self) -> str:
+        """``"sech2"`` or ``"gaussian"``."""
+        return self.shape
+
+    def plain(self) -> dict[str, Any]:
+        """As plain JSON data: ``kind``, ``height``, ``center``, ``scale``."""
+        return {
+            "kind": self.kind,
+            "height": self.height,
+            "center": self.center,
+            "scale": self.scale,
+        }
+
+    def build(self, grid: Grid, equation: Equation) -> np.ndarray:
+        """The profile on ``grid.x`` (the equation plays no part)."""
+        height, center, scale = self.height, self.center, self.scale
+        if self.shape == "sech2":
+
+            def bump(y: np.ndarray) -> np.ndarray:
+                return height * _sech((y - center) / scale) ** 2
+
+            return _periodic(bump, grid.x, grid.length, _TAIL_DECAYS * scale)
+
+        def gauss(y: np.ndarray) -> np.ndarray:
+            return height * np.exp(-(((y - center) / scale) ** 2))
+
+        return _periodic(gauss, grid.x, grid.length, 6.5 * scale)  # e^{-6.5^2} < 1e-18
+
+
+@dataclass(frozen=True)
+class Box:
+    """``height`` on ``|x - center| < half_width``, edges smoothed over ``edge`` (0: sharp)."""
+
+    height: float
+    half_width: float
+    center: float = 0.0
+    edge: float = 0.0
+
+    def __post_init__(self) -> None:
+        for name in ("height", "half_width", "center", "edge"):
+            value = getattr(self, name)
+            if (
+                isinstance(value, bool)
+                or not isinstance(value, int | float)
+                or not math.isfinite(value)
+            ):
+                raise ConfigError(f"initial: {name} must be a finite number, got {value!r}")
+            object.__setattr__(self, name, float(value))
+        if self.edge < 0:
             raise ConfigError(
-                f"initial: KdV solitons of this equation have sign "
-                f"{soliton_sign(equation):+d}; got signs {signs}"
+                f"initial: box edge must be >= 0 (0 is a sharp edge), got {self.edge}"
             )
-        return multisoliton(grid.x, 0.0, kappas, x0s, bare)
-    return multisoliton(grid.x, 0.0, kappas, x0s, bare, signs=signs)
 
+    @property
+    def kind(self) -> str:
+        """``"box"``."""
+        return "box"
 
-def _profile(initial: Mapping[str, object], grid: Grid, kind: str) -> np.ndarray:
-    height = float(_need(initial, "height"))  # type: ignore[arg-type]
-    center = float(initial.get("center", 0.0))  # type: ignore[arg-type]
-    x = grid.x
-    if kind == "box":
-        half = float(_need(initial, "half_width"))  # type: ignore[arg-type]
-        edge = float(initial.get("edge", 0.0))  # type: ignore[arg-type]
+    def plain(self) -> dict[str, Any]:
+        """As plain JSON data: ``kind``, ``height``, ``center``, ``half_width``, ``edge``."""
+        return {
+            "kind": "box",
+            "height": self.height,
+            "center": self.center,
+            "half_width": self.half_width,
+            "edge": self.edge,
+        }
+
+    def build(self, grid: Grid, equation: Equation) -> np.ndarray:
+        """The profile on ``grid.x`` (the equation plays no part)."""
+        half, height, edge = self.half_width, self.height, self.edge
         if not 0 < half < 0.5 * grid.length:
             raise ConfigError(f"initial: box half_width must be in (0, L/2), got {half}")
-        r = _wrap(x - center, grid.length)
+        r = _wrap(grid.x - self.center, grid.length)
         if edge > 0:
             return 0.5 * height * (np.tanh((r + half) / edge) - np.tanh((r - half) / edge))
         return np.where(np.abs(r) < half, height, np.where(np.abs(r) == half, 0.5 * height, 0.0))
-    scale = float(_need(initial, "scale"))  # type: ignore[arg-type]
-    if not scale > 0:
-        raise ConfigError(f"initial: {kind} scale must be positive, got {scale}")
-    if kind == "sech2":
 
-        def shape(y: np.ndarray) -> np.ndarray:
-            return height * _sech((y - center) / scale) ** 2
 
-        return _periodic(shape, x, grid.length, _TAIL_DECAYS * scale)
+@dataclass(frozen=True)
+class FileData:
+    """A profile read from the ``.npy`` file ``path``, checked against ``sha256`` when given."""
 
-    def bump(y: np.ndarray) -> np.ndarray:
-        return height * np.exp(-(((y - center) / scale) ** 2))
+    path: str
+    sha256: str | None = None
 
-    return _periodic(bump, x, grid.length, 6.5 * scale)  # e^{-6.5^2} < 1e-18
+    @property
+    def kind(self) -> str:
+        """``"npy"``."""
+        return "npy"
+
+    def plain(self) -> dict[str, Any]:
+        """As plain JSON data: ``kind``, ``path``, ``sha256``."""
+        return {"kind": "npy", "path": self.path, "sha256": self.sha256}
+
+    def build(self, grid: Grid, equation: Equation) -> np.ndarray:
+        """The array of the file (its length must be ``grid.n``)."""
+        arr = load_array(self.path, grid.n)
+        if self.sha256 is not None and file_digest(self.path) != self.sha256:
+            raise ConfigError(
+                f"initial: {self.path!r} changed since the sweep was read (sha256 differs); "
+                "expected the file the sweep was defined with"
+            )
+        return arr
+
+
+#: The initial data of a run: one of the four descriptions.
+InitialData = Solitons | Profile | Box | FileData
 
 
 def file_digest(path: str | Path) -> str:
@@ -250,58 +304,32 @@ def load_array(path: str | Path, n: int | None = None) -> np.ndarray:
     return arr
 
 
-def _from_file(initial: Mapping[str, object], grid: Grid) -> np.ndarray:
-    path = Path(str(_need(initial, "path")))
-    arr = load_array(path, grid.n)
-    expected = initial.get("sha256")
-    if expected is not None and file_digest(path) != expected:
-        raise ConfigError(
-            f"initial: {str(path)!r} changed since the sweep was read (sha256 differs); "
-            "expected the file the sweep was defined with"
-        )
-    return arr
-
-
-def build_profile(initial: Mapping[str, object], grid: Grid, equation: Equation) -> np.ndarray:
+def build_profile(initial: InitialData, grid: Grid, equation: Equation) -> np.ndarray:
     """The initial profile ``u0`` on ``grid.x`` described by ``initial`` (see the module doc)."""
-    kind = initial.get("kind")
-    if kind == "solitons":
-        return _superposed(initial, grid, equation)
-    if kind == "multisoliton":
-        return _multisoliton(initial, grid, equation)
-    if kind in ("sech2", "gaussian", "box"):
-        return _profile(initial, grid, str(kind))
-    if kind == "npy":
-        return _from_file(initial, grid)
-    raise ConfigError(f"initial: unknown kind {kind!r}; expected one of {', '.join(KINDS)}")
+    if not isinstance(initial, Solitons | Profile | Box | FileData):
+        raise ConfigError(
+            f"initial: expected Solitons, Profile, Box or FileData, got {type(initial).__name__}"
+        )
+    return initial.build(grid, equation)
 
 
-def input_solitons(initial: Mapping[str, object]) -> list[dict]:
+def input_solitons(initial: InitialData) -> list[dict[str, Any]]:
     """One dict per input soliton, left to right: ``soliton`` (index), ``kappa``, ``x0``, ``sign``.
 
     Empty for data that are not given as solitons (profiles and files).
     """
-    if initial.get("kind") not in ("solitons", "multisoliton"):
-        return []
-    kappas, x0s, signs = _soliton_lists(initial)
-    return [
-        {"soliton": i, "kappa": k, "x0": x0, "sign": s}
-        for i, (k, x0, s) in enumerate(zip(kappas, x0s, signs, strict=True))
-    ]
+    return initial.rows() if isinstance(initial, Solitons) else []
 
 
 __all__ = [
     "KINDS",
+    "Box",
+    "FileData",
+    "InitialData",
+    "Profile",
+    "Solitons",
     "build_profile",
     "file_digest",
     "input_solitons",
-    "kappa_from_amplitude",
-    "kappa_from_speed",
     "load_array",
-    "soliton_amplitude",
-    "soliton_family",
-    "soliton_scale",
-    "soliton_sign",
-    "soliton_speed",
-    "soliton_width",
 ]

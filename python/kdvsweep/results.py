@@ -11,6 +11,7 @@ import numpy as np
 import pandas as pd
 
 from .exceptions import ConfigError
+from .model import Grid
 from .sweep.store import frames_path, read_manifest, read_table
 
 
@@ -32,9 +33,10 @@ class Results:
         The store folder.
     manifest
         The manifest: ``sweep_name``, ``sweep_text``, ``digest``, ``package_version``, ``created``,
-        ``parameters``, ``runs_total``.
+        ``parameters``, ``runs_total``, ``format_version``, ``layout`` (what decides the columns).
     runs
-        One row per stored run, sorted by ``run_id``.
+        One row per stored run, sorted by ``run_id`` (columns: :mod:`kdvsweep.columns`, README
+        "The tables"); ``Equation.from_columns(row)`` gives the equation of a row.
     solitons
         One row per soliton per stored run, sorted by ``run_id`` then ``soliton``.
     """
@@ -56,7 +58,7 @@ class Results:
 
     def counts(self) -> dict[str, int]:
         """``{"ok", "failed", "pending", "total"}`` run counts."""
-        status = self.runs["status"] if "status" in self.runs else pd.Series(dtype=str)
+        status = self.runs["status"]
         ok = int((status == "ok").sum())
         failed = int(len(status) - ok)
         return {
@@ -82,11 +84,9 @@ class Results:
                 "of a sweep with frame storage on"
             )
         row = self.runs.loc[self.runs["run_id"] == int(run_id)].iloc[0]
-        n, length = int(row["n"]), float(row["length"])
         with np.load(path) as data:
             times, u = data["t"], data["u"]
-        x = -0.5 * length + (length / n) * np.arange(n)
-        return Frames(times, x, u)
+        return Frames(times, Grid(int(row["n"]), float(row["length"])).x, u)
 
     def summary(self) -> pd.DataFrame:
         """One row per soliton of each ok run: parameters, kappa, measured and predicted shifts."""

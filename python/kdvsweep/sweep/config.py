@@ -1,6 +1,6 @@
-"""Sweep files: read, validate and expand a TOML sweep definition into plain-data run specs.
+"""Sweep files: read, validate and expand a TOML sweep definition into typed run specs.
 
-The format is described in docs/sweep-format.md. :func:`load_sweep` checks the whole file, then
+The format is described in the README ("Sweep files"). :func:`load_sweep` checks the whole file, then
 evaluates every run (expressions, automatic sizing, resolution, ``.npy`` files) before it returns,
 so nothing can start on a file with a mistake anywhere in it. It reads but never writes.
 
@@ -18,20 +18,21 @@ import json
 import math
 import re
 import tomllib
-from dataclasses import asdict, dataclass
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 
 from .. import initial as init
+from ..columns import Layout
 from ..exceptions import ConfigError, ShapeError
-from ..model import Equation, Grid
+from ..model import Equation, Grid, SolitonForm
 from ..simulation import SCHEMES
 from . import sizing
 from .expr import Expression, ExpressionError
 from .schema import Source, Table, describe, is_number, join, suggestion
-from .space import Axis, canonical, check_name, expand, read_space
+from .space import Axis, Value, canonical, check_name, expand, read_space
 
 FORMAT = 1
 MAX_FRAMES = 100_000
@@ -59,20 +60,107 @@ _INITIAL = {
 _REF = re.compile(r"\{([A-Za-z_][A-Za-z0-9_]*)\}\Z")
 
 
+#: Relative drift of ``int u^2`` beyond which a conservative run is declared failed (a resolved
+#: pseudo-spectral run keeps it near 1e-8; 1e-3 means far too coarse steps - common practice, no
+#: source). ``RunSettings.drift_limit = None`` switches the check off.
+DEFAULT_DRIFT_LIMIT = 1e-3
+
+
+@dataclass(frozen=True)
+class ModelSpec:
+    """The model of one run: the equation, the grid and the time stepping."""
+
+    equation: Equation
+    grid: Grid
+    scheme: str
+    dt: float
+    tol: float | None = None
+
+    def plain(self) -> dict[str, Any]:
+        """As plain JSON data (the form the sweep digest is computed from)."""
+        return {
+            "equation": {"name": self.equation.name, **self.equation.core_fields()},
+            "n": self.grid.n,
+            "length": self.grid.length,
+            "scheme": self.scheme,
+            "dt": self.dt,
+            "tol": self.tol,
+        }
+
+
+@dataclass(frozen=True)
+class RunSettings:
+    """What a run records and keeps.
+
+    Attributes
+    ----------
+    t_end
+        End time.
+    record_times
+        Frames recorded for the analysis: ``0, every, 2 every, ...`` and exactly ``t_end``.
+    store_frames, frame_stride
+        Keep every ``frame_stride``-th recorded frame in the store.
+    predict_content
+        Also store the soliton content the inverse scattering transform predicts from ``u0``.
+    drift_limit
+        Relative momentum drift at which a conservative run fails (``None``: no check).
+    """
+
+    t_end: float
+    record_times: tuple[float, ...]
+    store_frames: bool = False
+    frame_stride: int = 1
+    predict_content: bool = False
+    drift_limit: float | None = DEFAULT_DRIFT_LIMIT
+
+    def plain(self) -> dict[str, Any]:
+        """As plain JSON data; options at their defaults are left out, so adding an option
+        leaves the digests of the sweeps that do not use it as they were."""
+        out: dict[str, Any] = {
+            "t_end": self.t_end,
+            "record_times": list(self.record_times),
+            "store_frames": self.store_frames,
+            "frame_stride": self.frame_stride,
+        }
+        if self.predict_content:
+            out["predict_content"] = True
+        if self.drift_limit != DEFAULT_DRIFT_LIMIT:
+            out["drift_limit"] = self.drift_limit
+        return out
+
+
 @dataclass(frozen=True)
 class RunSpec:
-    """One run as plain data (JSON-able, picklable): see the sweep interface notes."""
+    """One run of a sweep (picklable: a dask worker receives it)."""
 
     run_id: int
-    params: dict
-    model: dict
-    initial: dict
-    run: dict
+    params: dict[str, Value]
+    model: ModelSpec
+    initial: init.InitialData
+    run: RunSettings
+
+    def plain(self) -> dict[str, Any]:
+        """As plain JSON data (the form the sweep digest is computed from)."""
+        return {
+            "run_id": self.run_id,
+            "params": dict(self.params),
+            "model": self.model.plain(),
+            "initial": self.initial.plain(),
+            "run": self.run.plain(),
+        }
 
 
 @dataclass(frozen=True)
 class Sweep:
-    """A validated, fully expanded sweep file."""
+    """A validated, fully expanded sweep file.
+
+    Attributes
+    ----------
+    layout
+        What decides the columns of the sweep's tables (:class:`kdvsweep.columns.Layout`).
+    frames
+        Frame settings: ``store``, ``stride``, ``analysis_every``, ``every``.
+    """
 
     path: Path
     text: str
@@ -80,8 +168,9 @@ class Sweep:
     name: str
     parameters: tuple[str, ...]
     runs: tuple[RunSpec, ...]
-    frames: dict
+    frames: dict[str, Any]
     warnings: tuple[str, ...]
+    layout: Layout
 
 
 # ----------------------------------------------------------------------------- slots
@@ -182,6 +271,7 @@ def _text(src: Source, key: str, value: object, choices: tuple[str, ...], names:
 class _Template:
     name: str
     parameters: tuple[str, ...]
+    kinds: dict[str, str]
     axes: list[Axis]
     derived: list[tuple[str, _Num]]
     equation: _Text | dict[str, _Num | _Text | None]
@@ -202,7 +292,7 @@ class _Template:
     base: Path
 
 
-def _read_template(src: Source, doc: dict, base: Path, stem: str) -> _Template:
+def _read_template(src: Source, doc: dict[str, Any], base: Path, stem: str) -> _Template:
     top = Table(src, doc, "", _TOP, "a TOML document")
     head = Table(src, top.raw("sweep", {}), "sweep", _SWEEP)
     name = head.text("name", default=stem)
@@ -224,6 +314,7 @@ def _read_template(src: Source, doc: dict, base: Path, stem: str) -> _Template:
         if isinstance(col[0], str)
     }
     parameters = tuple(n for a in axes for n in a.names)
+    kinds = {n: _kind(col) for a in axes for n, col in zip(a.names, a.columns, strict=True)}
 
     derived: list[tuple[str, _Num]] = []
     derive = top.raw("derive", {})
@@ -289,6 +380,7 @@ def _read_template(src: Source, doc: dict, base: Path, stem: str) -> _Template:
     return _Template(
         name=name,
         parameters=parameters,
+        kinds=kinds,
         axes=axes,
         derived=derived,
         equation=equation,
@@ -308,6 +400,13 @@ def _read_template(src: Source, doc: dict, base: Path, stem: str) -> _Template:
         sizing_given=top.has("sizing"),
         base=base,
     )
+
+
+def _kind(values: tuple[Value, ...]) -> str:
+    """The column kind of a parameter: ``text``, ``int`` (every value a TOML integer), ``float``."""
+    if isinstance(values[0], str):
+        return "text"
+    return "int" if all(isinstance(v, int) for v in values) else "float"
 
 
 def _read_equation(
@@ -431,6 +530,7 @@ class _Run:
     def text(self, slot: _Text, choices: tuple[str, ...]) -> str:
         if slot.literal is not None:
             return slot.literal
+        assert slot.param is not None  # a text slot is a literal or a parameter
         value = self.params[slot.param]
         if value not in choices:
             raise self.fail(
@@ -487,26 +587,6 @@ def _equation(tpl: _Template, ctx: _Run) -> Equation:
         ) from None
 
 
-def _family_or_none(eq: Equation) -> str | None:
-    try:
-        return init.soliton_family(eq)
-    except ConfigError:
-        return None
-
-
-def _equation_dict(eq: Equation) -> dict:
-    return {
-        "name": eq.name,
-        "a": eq.a,
-        "b": eq.b,
-        "d": eq.d,
-        "f": eq.f,
-        "g": eq.g,
-        "v": eq.v,
-        "dealias": None if eq.dealias is None else float(eq.dealias),
-    }
-
-
 def _record_times(end: float, every: float) -> list[float]:
     """``0, every, 2 every, ...`` up to ``end``, ending exactly at ``end``."""
     count = math.floor(end / every + 1e-9)
@@ -518,33 +598,34 @@ def _record_times(end: float, every: float) -> list[float]:
     return times
 
 
-def _solitons(tpl: _Template, ctx: _Run, eq: Equation) -> tuple[str, list[float], list[int]]:
-    """Family, kappas and signs of a soliton initial datum."""
+def _solitons(
+    tpl: _Template, ctx: _Run, eq: Equation
+) -> tuple[SolitonForm, list[float], list[int]]:
+    """Soliton form, kappas and signs of a soliton initial datum."""
     spec = tpl.initial
     size = spec["size"]
-    try:
-        family = init.soliton_family(eq)
-    except ConfigError:
+    form = eq.soliton_form_or_none()
+    if form is None:
         raise ctx.src.error(
             "initial.kind",
             f"{tpl.kind!r} for equation {eq.name!r} (a={eq.a}, b={eq.b}, d={eq.d}) in {ctx.label}",
             "an equation with solitons: KdV (a != 0, b = 0) or focusing mKdV (a = 0, b d > 0)",
-        ) from None
+        )
     kappas = []
     for slot in spec["sizes"]:
         value = ctx.num(slot, "positive")
         if size == "amplitude":
-            value = init.kappa_from_amplitude(value, eq)
+            value = form.kappa_from_amplitude(value)
         elif size == "speed":
             if eq.d < 0:
                 raise ctx.fail(slot.key, slot.given, "speeds only for d > 0 (solitons move right)")
-            value = init.kappa_from_speed(value, eq)
+            value = form.kappa_from_speed(value)
         kappas.append(canonical(value))
-    own = init.soliton_sign(eq)
+    own = form.sign
     signs = [own] * len(kappas)
     if "polarity" in spec:
         signs = [int(ctx.num(slot, "sign")) for slot in spec["polarity"]]
-        if family == "kdv":
+        if form.family == "kdv":
             for slot, s in zip(spec["polarity"], signs, strict=True):
                 if s != own:
                     raise ctx.fail(
@@ -553,7 +634,7 @@ def _solitons(tpl: _Template, ctx: _Run, eq: Equation) -> tuple[str, list[float]
                         f"{own:+d}: KdV solitons of this "
                         "equation have one sign (polarity is for mKdV)",
                     )
-    return family, kappas, signs
+    return form, kappas, signs
 
 
 def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
@@ -561,6 +642,7 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
         ctx.env[dname] = ctx.num(slot)
     eq = _equation(tpl, ctx)
     scheme = ctx.text(tpl.scheme, SCHEMES)
+    tol: float | None
     if scheme == "adaptive":
         dt = ctx.num(tpl.dt, "positive") if tpl.dt else ADAPTIVE_DT
         tol = ctx.num(tpl.tol, "positive") if tpl.tol else ADAPTIVE_TOL
@@ -578,14 +660,14 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
         dt, tol = ctx.num(tpl.dt, "positive"), None
 
     soliton = tpl.kind in ("solitons", "multisoliton")
-    initial: dict[str, Any] = {"kind": tpl.kind}
+    initial: init.InitialData
     narrowest = math.inf
     max_u = 0.0
     if soliton:
-        family, kappas, signs = _solitons(tpl, ctx, eq)
-        speeds = [init.soliton_speed(k, eq) for k in kappas]
-        narrowest = min(init.soliton_width(k, family) for k in kappas)
-        amplitudes = [init.soliton_amplitude(k, eq) for k in kappas]
+        form, kappas, signs = _solitons(tpl, ctx, eq)
+        speeds = [form.speed(k) for k in kappas]
+        narrowest = min(form.width(k) for k in kappas)
+        amplitudes = [form.amplitude(k) for k in kappas]
         # mKdV solitons of opposite polarity peak at the sum of their amplitudes when they meet;
         # same-polarity mKdV and KdV pairs never exceed the larger one (checked on the exact
         # Hirota 2-solitons, kv.exact.multisoliton, for kappa = (1, 0.3 / 0.55 / 0.8))
@@ -597,14 +679,14 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
                 f"d = {eq.d} in {ctx.label}",
                 "d > 0 for automatic sizing (solitons moving right)",
             )
-        if auto and (eq.f or eq.g or eq.v):
+        if auto and eq.perturbed:
             warn.note(
                 "sizing",
                 "automatic sizing uses the unperturbed soliton speeds 4 d kappa^2; "
                 "the f, g, v terms change them",
             )
         if tpl.initial["position"] == "auto":
-            x0 = [canonical(p) for p in sizing.auto_positions(kappas, family, tpl.tail)]
+            x0 = [canonical(p) for p in sizing.auto_positions(kappas, form, tpl.tail)]
         else:
             x0 = [ctx.num(slot) for slot in tpl.initial["position"]]
             for i in range(1, len(x0)):
@@ -617,7 +699,7 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
                         f" = {x0[i - 1]!r} (solitons are listed left to right)",
                     )
         if tpl.end is None:
-            t_end = sizing.end_time(x0, kappas, speeds, family, tpl.tail)
+            t_end = sizing.end_time(x0, kappas, speeds, form, tpl.tail)
             if t_end <= 0:
                 raise ctx.src.error(
                     "run.end",
@@ -628,7 +710,7 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
             t_end = canonical(math.ceil(t_end / tpl.frame_every - 1e-9) * tpl.frame_every)
         else:
             t_end = ctx.num(tpl.end, "positive")
-        need = sizing.min_length(x0, kappas, speeds, family, tpl.tail, t_end)
+        need = sizing.min_length(x0, kappas, speeds, form, tpl.tail, t_end)
         if tpl.length is None:
             length = sizing.nice_ceil(need)
         else:
@@ -662,29 +744,38 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
                 raise ctx.fail(
                     key, p, f"a position inside the box [{-0.5 * length:g}, {0.5 * length:g})"
                 )
-        initial.update(kappa=kappas, x0=x0, sign=signs)
+        initial = init.Solitons(tuple(kappas), tuple(x0), tuple(signs), tpl.kind == "multisoliton")
     else:
-        length = ctx.num(tpl.length, "positive")  # type: ignore[arg-type]
-        t_end = ctx.num(tpl.end, "positive")  # type: ignore[arg-type]
+        # both are numbers: 'auto' needs soliton initial data (checked when the file was read)
+        assert tpl.length is not None
+        assert tpl.end is not None
+        length = ctx.num(tpl.length, "positive")
+        t_end = ctx.num(tpl.end, "positive")
         if tpl.kind == "npy":
-            initial.update(path=tpl.initial["path"], sha256=tpl.initial["sha256"])
+            initial = init.FileData(tpl.initial["path"], tpl.initial["sha256"])
             max_u = tpl.initial["max_abs"]
         else:
+            values = {}
             for key in ("height", "center", "scale", "half_width", "edge"):
                 if key in tpl.initial:
                     check = "positive" if key in ("scale", "half_width") else "finite"
-                    initial[key] = ctx.num(tpl.initial[key], check)
-            if initial.get("edge", 0.0) < 0:
-                raise ctx.fail("initial.edge", initial["edge"], "a number >= 0 (0 is a sharp edge)")
-            if tpl.kind == "box" and not initial["half_width"] < 0.5 * length:
-                raise ctx.fail(
-                    "initial.half_width",
-                    initial["half_width"],
-                    f"less than half the length ({0.5 * length:g})",
-                )
-            max_u = abs(initial["height"])
-            if tpl.kind == "sech2" and _family_or_none(eq) == "kdv":
-                narrowest = _sech2_narrowest(initial["height"], initial["scale"], eq)
+                    values[key] = ctx.num(tpl.initial[key], check)
+            if values.get("edge", 0.0) < 0:
+                raise ctx.fail("initial.edge", values["edge"], "a number >= 0 (0 is a sharp edge)")
+            if tpl.kind == "box":
+                if not values["half_width"] < 0.5 * length:
+                    raise ctx.fail(
+                        "initial.half_width",
+                        values["half_width"],
+                        f"less than half the length ({0.5 * length:g})",
+                    )
+                initial = init.Box(**values)
+            else:
+                initial = init.Profile(tpl.kind, **values)
+            max_u = abs(values["height"])
+            form_or_none = eq.soliton_form_or_none()
+            if tpl.kind == "sech2" and form_or_none is not None and form_or_none.family == "kdv":
+                narrowest = _sech2_narrowest(values["height"], values["scale"], form_or_none)
 
     dealias = eq.dealias_fraction
     if tpl.points is None:
@@ -716,7 +807,8 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
         if dt > limit:
             warn.add(
                 "model.dt",
-                "exceed the rule-of-thumb stable step of REFERENCES.md 6.5",
+                "exceed the rule-of-thumb stable step "
+                "dt (|a| max|u| + |b| max u^2) k_cut <= 2 sqrt 2",
                 ctx.run_id,
                 dt / limit,
                 f"dt = {dt:g} > {limit:.3g}",
@@ -726,32 +818,24 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
         raise ctx.fail(
             "run.frame_every", tpl.frame_every, f"at most {MAX_FRAMES} frames up to t = {t_end:g}"
         )
-    model = {
-        "equation": _equation_dict(eq),
-        "n": n,
-        "length": length,
-        "scheme": scheme,
-        "dt": dt,
-        "tol": tol,
-    }
-    run = {
-        "t_end": t_end,
-        "record_times": times,
-        "store_frames": tpl.keep_frames,
-        "frame_stride": tpl.keep_stride,
-    }
-    if tpl.predict_content:  # only when asked, so the digests of other sweeps stay as they were
-        run["predict_content"] = True
+    model = ModelSpec(eq, grid, scheme, dt, tol)
+    run = RunSettings(
+        t_end=t_end,
+        record_times=tuple(times),
+        store_frames=tpl.keep_frames,
+        frame_stride=tpl.keep_stride,
+        predict_content=tpl.predict_content,
+    )
     return RunSpec(ctx.run_id, dict(ctx.params), model, initial, run)
 
 
-def _sech2_narrowest(height: float, scale: float, eq: Equation) -> float:
+def _sech2_narrowest(height: float, scale: float, form: SolitonForm) -> float:
     """Width ``1/kappa_max`` of the tallest soliton out of ``height sech^2(x/scale)`` (KdV).
 
-    Poschl-Teller (REFERENCES.md 5(a)): in canonical units ``A sech^2(x/l)`` gives
+    Poschl & Teller 1933 (Z. Phys. 83, 143 [memory]): in canonical units ``A sech^2(x/l)`` gives
     ``lambda (lambda + 1) = A l^2`` and ``kappa_max = lambda / l``.
     """
-    canonical_height = height / init.soliton_scale(eq)
+    canonical_height = height / form.alpha
     if canonical_height <= 0:
         return math.inf
     lam = 0.5 * (math.sqrt(1.0 + 4.0 * canonical_height * scale**2) - 1.0)
@@ -770,14 +854,14 @@ def _check_resolution(
             "model.points",
             grid.n,
             f"at least {refuse:.1f} points per width of the narrowest soliton "
-            f"(width {narrowest:.4g}, dx {grid.dx:.4g} gives {per_width:.1f}; "
-            f"REFERENCES.md 6.5); n = {need} or 'auto' gives {good:.1f}",
+            f"(width {narrowest:.4g}, dx {grid.dx:.4g} gives {per_width:.1f}); "
+            f"n = {need} or 'auto' gives {good:.1f}",
         )
     if per_width < good and not auto:
         warn.add(
             "model.points",
             f"resolve the narrowest soliton with fewer than {good:.1f} points "
-            "per width (double precision, REFERENCES.md 6.5)",
+            "per width (double precision)",
             ctx.run_id,
             1 / per_width,
             f"{per_width:.1f} points per width",
@@ -787,10 +871,10 @@ def _check_resolution(
 # ----------------------------------------------------------------------------- entry point
 
 
-def _digest(frames: dict, runs: list[RunSpec]) -> str:
-    def keyed(spec: RunSpec) -> dict:
-        data = asdict(spec)
-        if data["initial"].get("kind") == "npy":  # content, not location
+def _digest(frames: dict[str, Any], runs: list[RunSpec]) -> str:
+    def keyed(spec: RunSpec) -> dict[str, Any]:
+        data = spec.plain()
+        if data["initial"]["kind"] == "npy":  # content, not location
             data["initial"] = {k: v for k, v in data["initial"].items() if k != "path"}
         return data
 
@@ -854,7 +938,12 @@ def load_sweep(path: str | Path) -> Sweep:
         runs=tuple(runs),
         frames=frames,
         warnings=warn.messages(),
+        layout=Layout(
+            parameters=tpl.kinds,
+            analysis=tpl.kind in ("solitons", "multisoliton"),
+            content=tpl.predict_content,
+        ),
     )
 
 
-__all__ = ["RunSpec", "Sweep", "load_sweep"]
+__all__ = ["DEFAULT_DRIFT_LIMIT", "ModelSpec", "RunSettings", "RunSpec", "Sweep", "load_sweep"]

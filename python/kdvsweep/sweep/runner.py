@@ -13,74 +13,16 @@ import time
 import warnings
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
-from typing import Any, Protocol
+from typing import Any
 
 import numpy as np
 
-from .. import initial, theory
+from .. import analysis, initial, theory
+from ..columns import TIMING_COLUMNS
 from ..exceptions import ConfigError, NumericalError
 from ..model import Equation, Grid
 from ..simulation import Simulation, invariants
-
-# Imported here, not inside a run, so that a worker pays for the imports when it first receives a
-# task rather than inside the first run's wall time. The analysis may be absent in a slim build.
-try:
-    from .. import analysis
-except ImportError:  # pragma: no cover
-    analysis = None  # type: ignore[assignment]
-
-#: Relative drift of ``int u^2`` beyond which a conservative run is declared failed (a resolved
-#: pseudo-spectral run keeps it near 1e-8; 1e-3 means far too coarse steps - common practice, no
-#: source). A run may override it with ``run["drift_limit"]`` (``None`` switches the check off).
-DEFAULT_DRIFT_LIMIT = 1e-3
-
-#: Columns of the runs table filled here; a swept parameter may not take one of these names.
-RESULT_COLUMNS = (
-    "run_id",
-    "status",
-    "reason",
-    "steps",
-    "rejected",
-    "wall_time",
-    "cpu_time",
-    "step_time",
-    "analysis_time",
-    "mass_drift",
-    "momentum_drift",
-    "energy_drift",
-    "max_abs_u",
-    "frames_stored",
-    "ist_count",
-    "ist_kappas",
-)
-
-#: Columns of the runs table that measure the machine, not the physics: they differ between two
-#: runs of the same sweep; every other column is reproducible bit for bit.
-TIMING_COLUMNS = ("wall_time", "cpu_time", "step_time", "analysis_time")
-
-#: Descriptive columns of the model; a swept parameter of the same name takes the column instead.
-MODEL_COLUMNS = ("equation", "n", "length", "scheme", "dt", "tol", "t_end")
-
-#: Stable columns of the solitons table (DESIGN.md); filled with NaN where nothing measured them.
-SOLITON_COLUMNS = (
-    "run_id",
-    "soliton",
-    "kappa",
-    "kappa_measured",
-    "shift_predicted",
-    "shift_measured",
-    "shift_error",
-)
-
-
-class SpecLike(Protocol):
-    """What the runner needs of a run spec (``kdvsweep.sweep.config.RunSpec`` has it)."""
-
-    run_id: int
-    params: dict[str, Any]
-    model: dict[str, Any]
-    initial: dict[str, Any]
-    run: dict[str, Any]
+from .config import ModelSpec, RunSpec
 
 
 @dataclass
@@ -115,32 +57,31 @@ class RunResult:
         return self.run_row["status"] == "ok"
 
 
-def build_equation(model: dict[str, Any]) -> Equation:
-    """The :class:`~kdvsweep.Equation` of a spec's ``model["equation"]`` dict."""
-    eq = dict(model["equation"])
-    name = str(eq.pop("name", "custom"))
-    keys = ("a", "b", "d", "f", "g", "v")
-    coefs = {k: float(eq[k]) for k in keys if eq.get(k) is not None}
-    dealias = eq.get("dealias")
-    return Equation(**coefs, dealias=None if dealias is None else float(dealias), name=name)
+def build_equation(model: ModelSpec) -> Equation:
+    """The equation of a spec's model (``model.equation``; kept for callers of the dict era)."""
+    return model.equation
 
 
-def build_grid(model: dict[str, Any]) -> Grid:
-    """The :class:`~kdvsweep.Grid` of a spec's model."""
-    return Grid(int(model["n"]), float(model["length"]))
+def build_grid(model: ModelSpec) -> Grid:
+    """The grid of a spec's model (``model.grid``; kept for callers of the dict era)."""
+    return model.grid
 
 
-def base_row(spec: SpecLike) -> dict[str, Any]:
-    """The parts of a run's row known before it runs: id, parameters, model description."""
+def base_row(spec: RunSpec) -> dict[str, Any]:
+    """The parts of a run's row known before it runs: id, parameters, model description.
+
+    A swept parameter named like a model column (``equation``, ``n``, ``dt``...) keeps its value
+    in that column.
+    """
     model = spec.model
-    descr = {
-        "equation": str(model["equation"].get("name", "custom")),
-        "n": int(model["n"]),
-        "length": float(model["length"]),
-        "scheme": str(model.get("scheme", "etdrk4")),
-        "dt": float(model["dt"]) if model.get("dt") is not None else math.nan,
-        "tol": float(model["tol"]) if model.get("tol") is not None else math.nan,
-        "t_end": float(spec.run["t_end"]),
+    descr: dict[str, Any] = {
+        **model.equation.columns(),
+        "n": model.grid.n,
+        "length": model.grid.length,
+        "scheme": model.scheme,
+        "dt": float(model.dt),
+        "tol": math.nan if model.tol is None else float(model.tol),
+        "t_end": float(spec.run.t_end),
     }
     row: dict[str, Any] = {"run_id": int(spec.run_id)}
     row.update(spec.params)
@@ -170,33 +111,24 @@ def _drift(before: float, after: float) -> float:
     return abs(after - before) / scale if scale > 1e-300 else abs(after - before)
 
 
-def _is_conservative(eq: Equation) -> bool:
-    return eq.g == 0.0 and eq.v == 0.0
-
-
-def _input_soliton_rows(spec: SpecLike, equation: Equation) -> list[dict[str, Any]]:
+def _input_soliton_rows(spec: RunSpec, equation: Equation) -> list[dict[str, Any]]:
     """Rows of the solitons table from the input solitons alone (no measurement)."""
     solitons = initial.input_solitons(spec.initial)
+    kappas = [s["kappa"] for s in solitons]
     predicted = [math.nan] * len(solitons)
-    if len(solitons) >= 2:
-        try:
-            shifts = theory.phase_shifts([s["kappa"] for s in solitons], equation=equation)
-            predicted = [float(v) for v in np.asarray(shifts, dtype=float)]
-        except Exception:  # theory absent or not defined for this case: leave NaN
-            pass
-    rows = []
-    for s, pred in zip(solitons, predicted, strict=True):
-        row = {c: math.nan for c in SOLITON_COLUMNS}
-        row.update({k: v for k, v in s.items()})
-        row.update({"run_id": int(spec.run_id), "shift_predicted": pred})
-        rows.append(row)
-    return rows
+    if len(solitons) >= 2 and len(set(kappas)) == len(kappas):  # equal kappas never collide
+        shifts = theory.phase_shifts(kappas, equation=equation)
+        predicted = [float(v) for v in np.asarray(shifts, dtype=float)]
+    return [
+        {**s, "run_id": int(spec.run_id), "shift_predicted": pred}
+        for s, pred in zip(solitons, predicted, strict=True)
+    ]
 
 
 def _collision_rows(
-    spec: SpecLike, frames: np.ndarray, times: np.ndarray, grid: Grid, equation: Equation
+    spec: RunSpec, frames: np.ndarray, times: np.ndarray, grid: Grid, equation: Equation
 ) -> tuple[list[dict[str, Any]], dict[str, Any]]:
-    """Rows of the solitons table, measured by the collision analysis where it exists.
+    """Rows of the solitons table, measured by the collision analysis.
 
     Returns the rows and extra columns for the run's row: the analysis summary, and a ``reason``
     note when the analysis could not measure the shifts. The input solitons are stored then and
@@ -205,33 +137,29 @@ def _collision_rows(
     solitons = initial.input_solitons(spec.initial)
     if not solitons:
         return [], {}
-    if analysis is None:  # pragma: no cover
-        return _input_soliton_rows(spec, equation), {}
     kappas = [s["kappa"] for s in solitons]
-    extra: dict[str, Any] = {}
     try:
-        if hasattr(analysis, "analyse_run"):
-            found = analysis.analyse_run(frames, times, grid, equation, kappas)
-            extra = {
-                str(k): _plain(v)
-                for k, v in found.summary.items()
-                if k not in spec.params and (v is None or isinstance(v, str | int | float | bool))
-            }
-            if not found.ok:
-                reason = f"analysis {found.summary.get('analysis_status')}: "
-                reason += str(found.summary.get("analysis_reason", ""))
-                return _input_soliton_rows(spec, equation), {**extra, "reason": reason}
-            table = found.table
-        else:
-            table = analysis.collision_table(frames, times, grid, equation=equation, kappas=kappas)
-    except Exception as exc:  # analysis failure is recorded, the run's numbers are still valid
+        found = analysis.analyse_run(frames, times, grid, equation, kappas)
+    except Exception as exc:  # an analysis error is recorded; the run's numbers are still valid
         reason = f"analysis: {type(exc).__name__}: {exc}"
+        return _input_soliton_rows(spec, equation), {"reason": reason}
+    extra = {
+        str(k): _plain(v)
+        for k, v in found.summary.items()
+        if v is None or isinstance(v, str | int | float | bool)
+    }
+    if not found.ok:
+        reason = f"analysis {found.summary.get('analysis_status')}: "
+        reason += str(found.summary.get("analysis_reason", ""))
         return _input_soliton_rows(spec, equation), {**extra, "reason": reason}
     rows = []
-    for rec in table.to_dict("records"):
+    for rec in found.table.to_dict("records"):
         row: dict[str, Any] = {"run_id": int(spec.run_id)}
         row.update({str(k): _plain(v) for k, v in rec.items() if k != "run_id"})
         rows.append(row)
+    if len(rows) == len(solitons):  # numbered left to right at the start, as the input
+        for row, given in zip(rows, solitons, strict=True):
+            row["x0"] = given["x0"]
     return rows, extra
 
 
@@ -269,13 +197,13 @@ def _core_simulation(
     return Simulation(grid, equation, scheme=scheme, dt=dt, tol=tol)
 
 
-def execute(spec: SpecLike, simulation: SimulationFactory | None = None) -> RunResult:
+def execute(spec: RunSpec, simulation: SimulationFactory | None = None) -> RunResult:
     """Run one spec and return its rows; failures come back as data, never as exceptions.
 
     Parameters
     ----------
     spec
-        The run (a ``RunSpec``).
+        The run.
     simulation
         Builds the stepper from ``(grid, equation, scheme, dt, tol)``; default the Rust core's
         :class:`kdvsweep.Simulation`. The benchmark passes the NumPy reference here.
@@ -288,22 +216,15 @@ def execute(spec: SpecLike, simulation: SimulationFactory | None = None) -> RunR
     start, cpu = time.perf_counter(), time.thread_time()
     row = base_row(spec)
     make = simulation or _core_simulation
+    model, run = spec.model, spec.run
+    grid, equation = model.grid, model.equation
     sim = None
     try:
-        grid, equation = build_grid(spec.model), build_equation(spec.model)
-        model, run = spec.model, spec.run
-        tol = model.get("tol")
-        sim = make(
-            grid,
-            equation,
-            str(model.get("scheme", "etdrk4")),
-            float(model["dt"]),
-            None if tol is None else float(tol),
-        )
+        sim = make(grid, equation, model.scheme, model.dt, model.tol)
         u0 = initial.build_profile(spec.initial, grid, equation)
         sim.set_state(u0)
         predicted = None
-        if run.get("predict_content"):
+        if run.predict_content:
             try:
                 predicted = _predicted_content(u0, grid, equation)
             except ConfigError as exc:  # e.g. a perturbed equation: no IST; the run goes on
@@ -312,12 +233,11 @@ def execute(spec: SpecLike, simulation: SimulationFactory | None = None) -> RunR
             row["ist_count"] = len(predicted)
             row["ist_kappas"] = " ".join(f"{k:.10g}" for k in predicted)
         before = invariants(sim.state, grid, equation)
-        times = np.asarray(run["record_times"], dtype=np.float64)
+        times = np.asarray(run.record_times, dtype=np.float64)
         stepping = time.perf_counter()
         frames = sim.record(times)
-        t_end = float(run["t_end"])
-        if sim.time < t_end:
-            sim.advance(t_end - sim.time)
+        if sim.time < run.t_end:
+            sim.advance(run.t_end - sim.time)
         row["step_time"] = time.perf_counter() - stepping
         final = sim.state
         if not np.all(np.isfinite(final)):
@@ -327,8 +247,8 @@ def execute(spec: SpecLike, simulation: SimulationFactory | None = None) -> RunR
             row[f"{key}_drift"] = _drift(before[key], after[key])
         row["max_abs_u"] = float(np.max(np.abs(final)))
         row["steps"], row["rejected"] = int(sim.steps), int(getattr(sim, "rejected", 0))
-        limit = run.get("drift_limit", DEFAULT_DRIFT_LIMIT)
-        if limit is not None and _is_conservative(equation) and row["momentum_drift"] > limit:
+        limit = run.drift_limit
+        if limit is not None and equation.conservative and row["momentum_drift"] > limit:
             raise NumericalError(
                 f"momentum drift {row['momentum_drift']:.3g} exceeds the limit {limit:g}"
                 " (steps too coarse for this run?)"
@@ -338,10 +258,10 @@ def execute(spec: SpecLike, simulation: SimulationFactory | None = None) -> RunR
         if predicted is not None:
             _attach_predicted(solitons, predicted)
         row["analysis_time"] = time.perf_counter() - analysing
-        row.update({k: v for k, v in extra.items() if k not in RESULT_COLUMNS or k == "reason"})
+        row.update(extra)
         kept, kept_times = None, None
-        if run.get("store_frames"):
-            stride = max(1, int(run.get("frame_stride", 1)))
+        if run.store_frames:
+            stride = max(1, run.frame_stride)
             kept, kept_times = np.ascontiguousarray(frames[::stride]), times[::stride].copy()
             row["frames_stored"] = int(kept.shape[0])
     except Exception as exc:  # failures are data: the sweep must go on past one bad run
@@ -359,30 +279,23 @@ def execute(spec: SpecLike, simulation: SimulationFactory | None = None) -> RunR
     return RunResult(row, solitons, kept, kept_times)
 
 
-def execute_chunk(specs: Sequence[SpecLike]) -> list[RunResult]:
+def execute_chunk(specs: Sequence[RunSpec]) -> list[RunResult]:
     """Run several specs one after the other (one dask task: seconds of work, not milliseconds)."""
     return [execute(spec) for spec in specs]
 
 
-def cost(spec: SpecLike) -> float:
+def cost(spec: RunSpec) -> float:
     """Relative cost of a run, ``n log2 n * steps``, for sizing chunks (one FFT pass per stage)."""
-    n = int(spec.model["n"])
-    dt = spec.model.get("dt") or 1e-3
-    steps = max(1.0, float(spec.run["t_end"]) / float(dt))
+    n = spec.model.grid.n
+    steps = max(1.0, spec.run.t_end / spec.model.dt)
     return n * math.log2(max(n, 2)) * steps
 
 
 __all__ = [
-    "DEFAULT_DRIFT_LIMIT",
-    "MODEL_COLUMNS",
-    "RESULT_COLUMNS",
-    "SOLITON_COLUMNS",
     "TIMING_COLUMNS",
     "RunResult",
-    "base_row",
     "build_equation",
     "build_grid",
-    "cost",
     "execute",
     "execute_chunk",
 ]

@@ -3,13 +3,14 @@
 Kinematics (unperturbed speeds ``c_i = 4 d kappa_i^2``, centres ``p_i + c_i t`` between collisions):
 
 - *Gap.* Both families have tails ``C e^{-2 kappa |x - x0|}`` relative to the peak, ``C = 4`` for
-  KdV (``sech^2``) and ``C = 2`` for mKdV (``sech``), REFERENCES.md 1.1 and 2.1. Two solitons count
-  as apart when the wider one's tail at the other's centre is below ``tail``:
-  ``s_ij = ln(C / tail) / (2 min(kappa_i, kappa_j))``. Auto positions put neighbours ``s_ij`` apart,
-  in the listed order, the group centred on ``x = 0``.
+  KdV (``sech^2``, Korteweg & de Vries 1895) and ``C = 2`` for mKdV (``sech``, Wadati 1973). Two
+  solitons count as apart when the wider one's tail at the other's centre is below ``tail``:
+  ``s_ij = ln(C / tail) / (2 min(kappa_i, kappa_j))``. Auto positions put neighbours ``s_ij``
+  apart, in the listed order, the group centred on ``x = 0``.
 - *End time.* Every pair with the faster soliton behind must overtake and end ``s_ij`` apart, plus
-  the shifts that collisions with third solitons may add (bounded by the pairwise shift magnitudes
-  ``ln((k_i + k_j)/|k_i - k_j|)/k_i``, REFERENCES.md 1.4 and 2.3): ``T = max t_ij``.
+  the shifts that collisions with third solitons may add (bounded by the magnitudes of the
+  pairwise shifts :func:`kdvsweep.theory.pair_shift`; Gardner, Greene, Kruskal & Miura 1974,
+  additive pair by pair, Zakharov 1971): ``T = max t_ij``.
 - *Length.* The box must be long enough that no soliton meets another's periodic image before
   ``T``. In relative coordinates ``d_ij(t) = x_i - x_j`` moves linearly, so it is enough that
   ``|d_ij| + s_ij <= L`` at ``t = 0`` and at ``t = T`` (there enlarged by both solitons' shift
@@ -19,15 +20,17 @@ Kinematics (unperturbed speeds ``c_i = 4 d kappa_i^2``, centres ``p_i + c_i t`` 
   is not budgeted.
 
 Resolution: the Fourier transform of ``sech^2(x/w)`` and of ``sech(x/w)`` decays like
-``e^{-pi k w / 2}``, so keeping ``D`` decades at the dealiasing cutoff ``phi pi / dx`` needs
-``w / dx >= 2 D ln(10) / (phi pi^2)`` points per width. ``D = 16`` is the double-precision level of
-REFERENCES.md 6.5 (``k_max >~ 23.5 kappa``, ``dx <~ 0.13/kappa``, ``0.09/kappa`` with 2/3
-dealiasing; computed there); it gives 11.2 points per width for KdV (``phi = 2/3``) and 14.9 for
-mKdV (``phi = 1/2``): below it a sweep warns. ``D = 6`` (4.2 and 5.6 points per width) is our
-refusal level: the profile's spectrum would still be at 1e-6 where the nonlinear term is cut.
+``e^{-pi k w / 2}`` (the transforms are ``pi k w^2 / sinh(pi k w / 2)`` and
+``pi w / cosh(pi k w / 2)``; checked with numpy in the tests), so keeping ``D`` decades at the dealiasing cutoff ``phi pi / dx`` needs ``w / dx >= 2 D ln(10) / (phi pi^2)``
+points per width. ``D = 16`` is the double-precision level (``k_max >~ 23.5 kappa``,
+``dx <~ 0.13/kappa`` undealiased, ``0.09/kappa`` with 2/3 dealiasing, for KdV of width
+``1/kappa``); it gives 11.2 points per width for KdV (``phi = 2/3``) and 14.9 for mKdV
+(``phi = 1/2``): below it a sweep warns. ``D = 6`` (4.2 and 5.6 points per width) is our refusal
+level: the profile's spectrum would still be at 1e-6 where the nonlinear term is cut.
 
-Time step (warning only): the rule of thumb of REFERENCES.md 6.5 for RK4-type exponential or
-integrating-factor steps, ``dt (|a| max|u| + |b| max u^2) k_cut <~ 2 sqrt 2`` (computed there), with
+Time step (warning only): a rule of thumb for RK4-type exponential or integrating-factor steps
+(common practice, no source: the RK4 stability interval ``2 sqrt 2`` on the imaginary axis applied
+to the nonlinear term's largest rate), ``dt (|a| max|u| + |b| max u^2) k_cut <~ 2 sqrt 2``, with
 ``k_cut = phi pi / dx`` the largest wavenumber the nonlinear term keeps, and ``max|u|`` the largest
 amplitude, or for mKdV solitons of both polarities the sum of the amplitudes (their peak when they
 meet, seen on the exact 2-soliton).
@@ -39,29 +42,31 @@ import itertools
 import math
 from collections.abc import Sequence
 
-from ..initial import soliton_width as width
+from ..model import SolitonForm
+from ..theory import pair_shift
 
 WARN_DECADES = 16
 REFUSE_DECADES = 6
 DT_RULE = 2.0 * math.sqrt(2.0)
+#: Relative tail height ``C`` of ``C e^{-2 kappa |x|}``: ``sech^2`` (KdV) and ``sech`` (mKdV).
 TAIL_CONSTANT = {"kdv": 4.0, "mkdv": 2.0}
 
 
-def gap(k_i: float, k_j: float, family: str, tail: float) -> float:
+def gap(k_i: float, k_j: float, form: SolitonForm, tail: float) -> float:
     """Centre distance where the wider soliton's relative tail at the other's centre is ``tail``."""
-    return math.log(TAIL_CONSTANT[family] / tail) / (2.0 * min(k_i, k_j))
+    return math.log(TAIL_CONSTANT[form.family] / tail) / (2.0 * min(k_i, k_j))
 
 
 def shift_bound(k_i: float, k_j: float) -> float:
-    """Magnitude of soliton i's position shift from overtaking j, ``ln((ki+kj)/|ki-kj|)/ki``."""
-    return math.log((k_i + k_j) / abs(k_i - k_j)) / k_i
+    """Magnitude of soliton i's position shift from overtaking j (:func:`theory.pair_shift`)."""
+    return abs(pair_shift(k_i, k_j))
 
 
-def auto_positions(kappas: Sequence[float], family: str, tail: float) -> list[float]:
+def auto_positions(kappas: Sequence[float], form: SolitonForm, tail: float) -> list[float]:
     """Centres in the listed order, neighbours one gap apart, the group centred on 0."""
     positions = [0.0]
     for left, right in itertools.pairwise(kappas):
-        positions.append(positions[-1] + gap(left, right, family, tail))
+        positions.append(positions[-1] + gap(left, right, form, tail))
     middle = 0.5 * (positions[0] + positions[-1])
     return [p - middle for p in positions]
 
@@ -90,7 +95,7 @@ def end_time(
     positions: Sequence[float],
     kappas: Sequence[float],
     speeds: Sequence[float],
-    family: str,
+    form: SolitonForm,
     tail: float,
 ) -> float:
     """Time by which every overtaking pair is one gap apart again (0 when none overtakes)."""
@@ -99,7 +104,7 @@ def end_time(
     t_end = 0.0
     for i, j in pairs:
         third = sum(b[i][k] + b[j][k] for k in range(len(kappas)) if k not in (i, j))
-        distance = positions[j] - positions[i] + gap(kappas[i], kappas[j], family, tail) + third
+        distance = positions[j] - positions[i] + gap(kappas[i], kappas[j], form, tail) + third
         t_end = max(t_end, distance / (speeds[i] - speeds[j]))
     return t_end
 
@@ -108,7 +113,7 @@ def min_length(
     positions: Sequence[float],
     kappas: Sequence[float],
     speeds: Sequence[float],
-    family: str,
+    form: SolitonForm,
     tail: float,
     t_end: float,
 ) -> float:
@@ -124,7 +129,7 @@ def min_length(
             end = abs(positions[i] - positions[j] + (speeds[i] - speeds[j]) * t_end)
             if i != j:
                 end += total[i] + total[j]
-            need = max(need, max(start, end) + gap(kappas[i], kappas[j], family, tail))
+            need = max(need, max(start, end) + gap(kappas[i], kappas[j], form, tail))
     return need
 
 
@@ -139,9 +144,9 @@ def min_points_per_width(dealias: float, decades: float) -> float:
     return 2.0 * decades * math.log(10.0) / (dealias * math.pi**2)
 
 
-def points_per_width(kappas: Sequence[float], family: str, n: int, length: float) -> float:
+def points_per_width(kappas: Sequence[float], form: SolitonForm, n: int, length: float) -> float:
     """Points per width of the narrowest soliton on a grid of ``n`` points over ``length``."""
-    return min(width(k, family) for k in kappas) / (length / n)
+    return min(form.width(k) for k in kappas) / (length / n)
 
 
 def auto_points(narrowest: float, length: float, dealias: float) -> int:
@@ -154,7 +159,7 @@ def auto_points(narrowest: float, length: float, dealias: float) -> int:
 
 
 def dt_limit(max_u: float, a: float, b: float, dealias: float, dx: float) -> float:
-    """The rule-of-thumb largest stable step of REFERENCES.md 6.5 (inf for a linear equation)."""
+    """The rule-of-thumb largest stable step (module doc; inf for a linear equation)."""
     rate = (abs(a) * max_u + abs(b) * max_u**2) * dealias * math.pi / dx
     return math.inf if rate == 0 else DT_RULE / rate
 
@@ -172,5 +177,4 @@ __all__ = [
     "nice_ceil",
     "points_per_width",
     "shift_bound",
-    "width",
 ]

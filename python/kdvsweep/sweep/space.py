@@ -14,6 +14,7 @@ import itertools
 import math
 import re
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 from scipy.stats import qmc
@@ -75,7 +76,7 @@ def _bounds(tab: Table, spacing: str) -> tuple[float, float]:
     return float(lo), float(hi)
 
 
-def _range(src: Source, key: str, data: dict) -> tuple[float, ...]:
+def _range(src: Source, key: str, data: dict[str, Any]) -> tuple[float, ...]:
     tab = Table(src, data, key, _RANGE_KEYS)
     spacing = tab.text("spacing", _SPACINGS, default="linear")
     lo, hi = _bounds(tab, spacing)
@@ -97,7 +98,7 @@ def _range(src: Source, key: str, data: dict) -> tuple[float, ...]:
     return tuple(canonical(float(v)) for v in values)
 
 
-def _list(src: Source, key: str, values: list) -> tuple[Value, ...]:
+def _list(src: Source, key: str, values: list[Any]) -> tuple[Value, ...]:
     if not values:
         raise src.error(key, "an empty list", "a non-empty list of numbers or of text values")
     if all(isinstance(v, str) for v in values):

@@ -2,7 +2,8 @@
 
 Layout of a store ``OUT``::
 
-    OUT/manifest.json              the sweep file text, its digest, package version, creation time
+    OUT/manifest.json              the sweep file text, its digest, package version, creation time,
+                                   format version and the layout of the tables' columns
     OUT/runs/part-000000.parquet   rows of the runs table, one part per batch of completed runs
     OUT/solitons/part-000000.parquet   rows of the solitons table for the same batch
     OUT/frames/run_000017.npz      sub-sampled frames of one run (arrays ``t`` and ``u``)
@@ -15,6 +16,9 @@ committed by its runs part, which is written last: solitons parts and frames who
 missing are leftovers of an interrupted batch and are ignored (and overwritten when the runs are
 redone). Readers keep the first stored row of each ``run_id``. The manifest ties the folder to one
 sweep definition by its digest, so another sweep cannot be mixed in.
+
+Every part of a table is written with the one Arrow schema of :mod:`kdvsweep.columns` for the
+sweep's :class:`~kdvsweep.columns.Layout` (kept in the manifest), whatever the values of the batch.
 """
 
 from __future__ import annotations
@@ -25,17 +29,19 @@ import io
 import json
 import os
 import re
-from collections.abc import Iterable, Iterator, Sequence
+from collections.abc import Iterable, Iterator, Mapping, Sequence
 from pathlib import Path
-from typing import Any, Protocol
+from typing import Any
 
 import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from ..exceptions import ConfigError
-from .runner import RESULT_COLUMNS, SOLITON_COLUMNS, RunResult
+from ..columns import Layout, reserved_names
+from ..exceptions import ConfigError, KdvsweepError
+from .config import RunSpec, Sweep
+from .runner import RunResult
 
 try:  # advisory lock; absent on Windows, where a second writer is simply not detected
     import fcntl
@@ -44,21 +50,19 @@ except ImportError:  # pragma: no cover
 
 MANIFEST = "manifest.json"
 STORE_FORMAT = "kdvsweep-store"
-STORE_VERSION = 1
+#: Version 2: typed Parquet schema in every part, the model's coefficients in the runs table.
+STORE_VERSION = 2
 TABLES = ("runs", "solitons")
 _PART = re.compile(r"^part-(\d+)\.parquet$")
 _TMP_PREFIX = ".tmp-"
 
 
-class SweepLike(Protocol):
-    """What the store needs of a sweep (``kdvsweep.sweep.config.Sweep`` has it)."""
+class StoreBusyError(KdvsweepError, RuntimeError):
+    """Another process is writing to the store (it holds the store's lock)."""
 
-    path: Path
-    text: str
-    digest: str
-    name: str
-    parameters: tuple[str, ...]
-    runs: Sequence[Any]
+
+#: Transitional name for :class:`~kdvsweep.sweep.config.Sweep` (until the farm imports Sweep).
+SweepLike = Sweep
 
 
 def _fsync_dir(folder: Path) -> None:
@@ -92,9 +96,31 @@ def write_atomic(path: Path, data: bytes, sync_dir: bool = True) -> None:
         _fsync_dir(path.parent)
 
 
-def _parquet_bytes(frame: pd.DataFrame) -> bytes:
+def _arrow_table(rows: Sequence[Mapping[str, Any]], schema: pa.Schema) -> pa.Table:
+    """The rows as a table of exactly ``schema`` (absent values are nulls, NaN is null)."""
+    known = set(schema.names)
+    for row in rows:
+        extra = sorted(set(row) - known)
+        if extra:
+            raise ConfigError(
+                f"store: row of run {row.get('run_id')} has undeclared column(s) {extra}; "
+                "expected the columns of kdvsweep.columns"
+            )
+    arrays = []
+    for field in schema:
+        values = [row.get(field.name) for row in rows]
+        try:
+            arrays.append(pa.array(values, type=field.type, from_pandas=True))
+        except (pa.ArrowInvalid, pa.ArrowTypeError) as exc:
+            raise ConfigError(
+                f"store: column {field.name!r} holds {values[:3]!r}...; expected {field.type} ({exc})"
+            ) from None
+    return pa.Table.from_arrays(arrays, schema=schema)
+
+
+def _parquet_bytes(table: pa.Table) -> bytes:
     buf = io.BytesIO()
-    pq.write_table(pa.Table.from_pandas(frame, preserve_index=False), buf)
+    pq.write_table(table, buf)
     return buf.getvalue()
 
 
@@ -125,7 +151,19 @@ def read_manifest(out: str | os.PathLike[str]) -> dict[str, Any]:
     found = manifest.get("format") if isinstance(manifest, dict) else type(manifest).__name__
     if found != STORE_FORMAT:
         raise ConfigError(f"{path}: format is {found!r}; expected {STORE_FORMAT!r}")
+    version = manifest.get("format_version")
+    if version != STORE_VERSION:
+        raise ConfigError(
+            f"{out}: a store of format version {version} (kdvsweep "
+            f"{manifest.get('package_version', '?')}); this kdvsweep reads version {STORE_VERSION}: "
+            "run the sweep again into a new folder, or read this one with the kdvsweep that wrote it"
+        )
     return manifest
+
+
+def layout(manifest: Mapping[str, Any]) -> Layout:
+    """The column layout recorded in a store's manifest."""
+    return Layout.from_json(manifest.get("layout", {}))
 
 
 def _committed_parts(out: Path) -> dict[int, Path]:
@@ -140,48 +178,39 @@ def read_table(out: str | os.PathLike[str], table: str) -> pd.DataFrame:
     if table not in TABLES:
         raise ConfigError(f"read_table: table {table!r}; expected one of {TABLES}")
     out = Path(out)
+    schema = layout(read_manifest(out)).schema(table)
     committed = _committed_parts(out)
     if table == "runs":
         files = list(committed.items())
     else:
         parts = part_files(out / "solitons")
         files = [(seq, p) for seq, p in parts.items() if seq in committed]
-    frames = []
-    for seq, path in files:
-        frame = pq.read_table(path).to_pandas()
-        frame["_part"] = seq
-        frames.append(frame)
-    if not frames:
-        base = {"runs": RESULT_COLUMNS, "solitons": SOLITON_COLUMNS}[table]
-        return pd.DataFrame({c: pd.Series(dtype="float64") for c in base})
-    data = _text_columns(pd.concat(frames, ignore_index=True))
+    if not files:
+        return schema.empty_table().to_pandas()
+    tables = [pq.read_table(path, schema=schema) for _, path in files]
+    # The batch of each row, beside the data (never a column: any name could be a parameter's).
+    part = np.concatenate(
+        [
+            np.full(t.num_rows, seq, dtype=np.int64)
+            for (seq, _), t in zip(files, tables, strict=True)
+        ]
+    )
+    data = pa.concat_tables(tables).to_pandas()
+    run_id = data["run_id"].to_numpy()
     if table == "runs":
-        data = data.sort_values(["_part"], kind="stable").drop_duplicates("run_id", keep="first")
-        data = data.sort_values("run_id", kind="stable")
+        order = np.argsort(part, kind="stable")  # by batch, then as stored
+        first = pd.Series(run_id[order]).duplicated(keep="first").to_numpy()
+        keep = np.sort(order[~first])
+        data = data.iloc[keep].sort_values("run_id", kind="stable")
     else:
         # The solitons of a run come from the batch of its kept runs row (the first).
         kept: dict[int, int] = {}
         for seq, path in committed.items():
             for rid in pq.read_table(path, columns=["run_id"]).column("run_id").to_pylist():
                 kept.setdefault(int(rid), seq)
-        data = data[data["_part"] == data["run_id"].map(kept)]
-        data = data.sort_values(["run_id", "soliton"], kind="stable")
-    return data.drop(columns="_part").reset_index(drop=True)
-
-
-def _text_columns(data: pd.DataFrame) -> pd.DataFrame:
-    """Give text columns one dtype whatever the batches were.
-
-    A part whose rows all have ``None`` in a text column stores it as a null column, which reads
-    back as objects; the same rows batched with others read back as strings. Without this, the
-    dtypes of a table would depend on how the runs happened to be grouped.
-    """
-    for col in data.columns:
-        if data[col].dtype == object:
-            values = data[col].dropna()
-            if len(values) and all(isinstance(v, str) for v in values):
-                data[col] = data[col].astype("str")
-    return data
+        mask = part == np.array([kept.get(int(r), -1) for r in run_id], dtype=np.int64)
+        data = data.iloc[np.flatnonzero(mask)].sort_values(["run_id", "soliton"], kind="stable")
+    return data.reset_index(drop=True)
 
 
 def frames_path(out: str | os.PathLike[str], run_id: int) -> Path:
@@ -198,6 +227,7 @@ class Store:
     def __init__(self, out: Path, manifest: dict[str, Any], lock: Any) -> None:
         self.out = out
         self.manifest = manifest
+        self.layout = layout(manifest)
         self._lock = lock
         committed = _committed_parts(out)
         every = set(committed) | set(part_files(out / "solitons"))
@@ -206,14 +236,16 @@ class Store:
 
     # -- opening -------------------------------------------------------------------------------
     @classmethod
-    def open(cls, out: str | os.PathLike[str], sweep: SweepLike) -> Store:
+    def open(cls, out: str | os.PathLike[str], sweep: Sweep) -> Store:
         """Open ``out`` for ``sweep``: create it, or resume it if it holds the same sweep.
 
         Raises
         ------
         ConfigError
             ``out`` is a file; or a non-empty folder that is not a store; or a store of another
-            sweep (digest differs); or another process is writing to it. Nothing is written then.
+            sweep (digest differs) or of another format version. Nothing is written then.
+        StoreBusyError
+            Another process is writing to it.
         """
         out = Path(out)
         check_parameter_names(sweep)
@@ -268,7 +300,7 @@ class Store:
         """The ids of the stored runs that failed."""
         return frozenset(self._failed)
 
-    def pending(self, runs: Iterable[Any]) -> list[Any]:
+    def pending(self, runs: Iterable[RunSpec]) -> list[RunSpec]:
         """The runs (specs with ``run_id``) not stored yet, in the given order."""
         return [r for r in runs if int(r.run_id) not in self._done]
 
@@ -293,13 +325,13 @@ class Store:
                 write_atomic(frames_path(self.out, res.run_id), buf.getvalue(), sync_dir=False)
         soliton_rows = [row for res in fresh.values() for row in res.soliton_rows]
         name = f"part-{seq:06d}.parquet"
+        runs = _arrow_table([res.run_row for res in fresh.values()], self.layout.schema("runs"))
         if soliton_rows:
-            data = _parquet_bytes(pd.DataFrame(soliton_rows))
+            data = _parquet_bytes(_arrow_table(soliton_rows, self.layout.schema("solitons")))
             write_atomic(self.out / "solitons" / name, data, sync_dir=False)
         # Everything of the batch is durable before the runs part that commits it.
         _fsync_dir(self.out / "frames")
         _fsync_dir(self.out / "solitons")
-        runs = pd.DataFrame([res.run_row for res in fresh.values()])
         write_atomic(self.out / "runs" / name, _parquet_bytes(runs))
         self._next = seq + 1
         self._done.update(fresh)
@@ -333,17 +365,19 @@ class Store:
                 path.unlink(missing_ok=True)
 
 
-def check_parameter_names(sweep: SweepLike) -> None:
-    """Refuse swept parameters named like a result column (the column would be ambiguous)."""
-    clash = sorted(set(sweep.parameters) & set(RESULT_COLUMNS))
+def check_parameter_names(sweep: Sweep) -> None:
+    """Refuse swept parameters named like a column of the tables (the column would be ambiguous);
+    the model's descriptive columns (``equation``, ``n``, ``dt``...) may be swept by name."""
+    reserved = reserved_names()
+    clash = sorted(set(sweep.parameters) & reserved)
     if clash:
         raise ConfigError(
             f"{sweep.path}: swept parameter name(s) {clash} are names of result columns; "
-            f"expected other names (reserved: {', '.join(RESULT_COLUMNS)})"
+            f"expected other names (reserved: {', '.join(sorted(reserved))})"
         )
 
 
-def new_manifest(sweep: SweepLike) -> dict[str, Any]:
+def new_manifest(sweep: Sweep) -> dict[str, Any]:
     """The manifest of a new store for ``sweep``."""
     from .. import __version__
 
@@ -357,6 +391,7 @@ def new_manifest(sweep: SweepLike) -> dict[str, Any]:
         "created": dt.datetime.now(dt.UTC).isoformat(timespec="seconds"),
         "parameters": list(sweep.parameters),
         "runs_total": len(sweep.runs),
+        "layout": sweep.layout.to_json(),
         "sweep_text": sweep.text,
     }
 
@@ -371,7 +406,7 @@ class _Lock:
                 fcntl.flock(self._fh.fileno(), fcntl.LOCK_EX | fcntl.LOCK_NB)
             except OSError as exc:
                 self._fh.close()
-                raise ConfigError(
+                raise StoreBusyError(
                     f"{path.parent}: another kdvsweep process is writing to this store; "
                     "expected it to be idle (wait for it or stop it)"
                 ) from exc
@@ -397,12 +432,14 @@ def iter_parts(out: str | os.PathLike[str], table: str) -> Iterator[Path]:
 __all__ = [
     "MANIFEST",
     "STORE_FORMAT",
+    "STORE_VERSION",
     "Store",
+    "StoreBusyError",
     "check_parameter_names",
     "frames_path",
     "iter_parts",
+    "layout",
     "new_manifest",
     "read_manifest",
     "read_table",
-    "write_atomic",
 ]

@@ -1,0 +1,233 @@
+"""The columns of a store's two tables, ``runs`` and ``solitons``: name, Parquet type, meaning.
+
+This module is the one home of the table layout. The store writes every Parquet part with the
+schema built here, so a column has the same type in every part whatever its values (a column that
+is empty in one batch is still a string column there), and the README's column lists are checked
+against it by the tests.
+
+The runs table has, in this order: ``run_id``; the swept parameters (numbers ``double``, or
+``int64`` when every value of the parameter is written as an integer; text ``string``); the fixed
+:data:`RUN_COLUMNS`; for sweeps whose initial data are solitons the collision analysis'
+:data:`ANALYSIS_COLUMNS`; and with ``run.predict_content`` the :data:`CONTENT_COLUMNS`. A swept
+parameter named like one of :data:`MODEL_COLUMNS` takes that column's place (its values are what
+the file says); any other parameter name of a column is refused (:func:`reserved_names`).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass
+
+import pyarrow as pa
+
+
+@dataclass(frozen=True)
+class Column:
+    """One column: its name, its Parquet (Arrow) type and a one-line meaning."""
+
+    name: str
+    type: pa.DataType
+    meaning: str
+
+
+_F, _I, _S = pa.float64(), pa.int64(), pa.string()
+
+#: Arrow type of a swept parameter by the kind of its values.
+PARAMETER_TYPES: dict[str, pa.DataType] = {"float": _F, "int": _I, "text": _S}
+
+RUN_ID = Column("run_id", _I, "the run's number, from 0 in the order the sweep file expands")
+
+#: Columns of the model of each run; a swept parameter of the same name takes the column.
+MODEL_COLUMNS = ("equation", "n", "length", "scheme", "dt", "tol", "t_end")
+
+#: Every runs column after the parameters, in table order (the analysis and content ones follow).
+RUN_COLUMNS: tuple[Column, ...] = (
+    Column("status", _S, '"ok", or "failed" when the run stopped (see reason)'),
+    Column("reason", _S, "why the run failed, or a note on an ok run (e.g. analysis not measured)"),
+    Column(
+        "equation", _S, "the equation's preset name (kdv, kdv-, mkdv, mkdv-, gardner) or custom"
+    ),
+    Column(
+        "eq_a", _F, "coefficient a of u_t + (a u + b u^2) u_x + d u_xxx + f u_xxxxx = -g u + v u_xx"
+    ),
+    Column("eq_b", _F, "coefficient b (cubic flux) of the same equation"),
+    Column("eq_d", _F, "coefficient d (third-order dispersion)"),
+    Column("eq_f", _F, "coefficient f (fifth-order dispersion)"),
+    Column("eq_g", _F, "coefficient g (linear damping)"),
+    Column("eq_v", _F, "coefficient v (viscosity)"),
+    Column("dealias", _F, "fraction of the Nyquist band kept in the nonlinear term"),
+    Column("n", _I, "grid points"),
+    Column("length", _F, "period L of the box [-L/2, L/2)"),
+    Column("scheme", _S, "time stepper: etdrk4, ifrk4, strang or adaptive"),
+    Column("dt", _F, "time step (adaptive: the first trial step)"),
+    Column("tol", _F, "error allowed per step (adaptive scheme; NaN otherwise)"),
+    Column("t_end", _F, "end time of the run"),
+    Column("steps", _I, "accepted time steps"),
+    Column("rejected", _I, "rejected trial steps (adaptive scheme; 0 otherwise)"),
+    Column("wall_time", _F, "seconds of wall time for the whole run"),
+    Column("cpu_time", _F, "seconds of CPU time of the run's thread"),
+    Column("step_time", _F, "seconds of wall time spent stepping"),
+    Column("analysis_time", _F, "seconds of wall time spent in the collision analysis"),
+    Column("mass_drift", _F, "relative change of int u from start to end"),
+    Column("momentum_drift", _F, "relative change of int u^2 (checked for conservative equations)"),
+    Column("energy_drift", _F, "relative change of the Hamiltonian of the conservative part"),
+    Column("max_abs_u", _F, "max |u| of the final state"),
+    Column("frames_stored", _I, "frames kept in frames/run_NNNNNN.npz (0 when none)"),
+)
+
+#: Runs columns written by the collision analysis (sweeps of soliton initial data only).
+ANALYSIS_COLUMNS: tuple[Column, ...] = (
+    Column("analysis_status", _S, '"ok", "too_short" (no fit windows) or "failed" (solitons lost)'),
+    Column("analysis_reason", _S, "why the analysis did not measure the shifts (empty when ok)"),
+    Column("n_solitons", _I, "solitons tracked"),
+    Column("regime", _S, "Lax's interaction regime of a KdV pair: exchange, mixed, absorb-emit"),
+    Column(
+        "amplitude_ratio", _F, "KdV pair: larger over smaller amplitude, (kappa_max / kappa_min)^2"
+    ),
+    Column("peaks_at_closest", _F, "peaks counted at the closest approach of a pair"),
+    Column("min_peaks", _F, "fewest peaks counted between the fit windows"),
+    Column("t_closest", _F, "time of the closest approach of a pair"),
+    Column(
+        "radiation_energy",
+        _F,
+        "int r^2 of what is left of the last frame after removing the solitons",
+    ),
+    Column("radiation_fraction", _F, "radiation_energy over int u^2 of the last frame"),
+    Column("frames_before", _I, "frames in the fit window before the collisions"),
+    Column("frames_after", _I, "frames in the fit window after the collisions"),
+    Column("separation", _F, "tail lengths apart that the solitons must be in a fit window"),
+)
+
+#: Runs columns of ``run.predict_content`` (the inverse scattering transform of u0).
+CONTENT_COLUMNS: tuple[Column, ...] = (
+    Column("ist_count", _I, "number of solitons the IST of the initial data predicts"),
+    Column("ist_kappas", _S, "their kappas, largest first, separated by spaces"),
+)
+
+#: Columns of the runs table that measure the machine, not the physics: they differ between two
+#: runs of the same sweep; every other column is reproducible bit for bit.
+TIMING_COLUMNS = ("wall_time", "cpu_time", "step_time", "analysis_time")
+
+#: The solitons table, in order (``kappa_ist`` follows with ``run.predict_content``).
+SOLITON_COLUMNS: tuple[Column, ...] = (
+    RUN_ID,
+    Column("soliton", _I, "the soliton's number, from 0 left to right at the start"),
+    Column("sign", _I, "polarity: +1 elevation, -1 depression"),
+    Column("kappa", _F, "the soliton's kappa as given (measured when not given)"),
+    Column("x0", _F, "its centre at t = 0 as given or sized (NaN when not known)"),
+    Column("kappa_measured", _F, "kappa from the measured asymptotic speed"),
+    Column("kappa_from_height", _F, "kappa from the mean peak height in the fit windows"),
+    Column("speed", _F, "speed of the shared-speed fit to both windows"),
+    Column("speed_before", _F, "speed fitted before the collisions"),
+    Column("speed_after", _F, "speed fitted after the collisions"),
+    Column("amplitude", _F, "mean peak height |u| in the fit windows"),
+    Column("collisions", _I, "collisions the soliton took part in"),
+    Column("offset_before", _F, "x^-: position at t = 0 of the asymptote before the collisions"),
+    Column("offset_after", _F, "x^+: position at t = 0 of the asymptote after the collisions"),
+    Column("shift_predicted", _F, "phase shift of the pairwise formula (Gardner et al. 1974)"),
+    Column("shift_measured", _F, "phase shift measured: offset_after - offset_before"),
+    Column("shift_error", _F, "|shift_measured - shift_predicted|"),
+    Column("shift_rel_error", _F, "shift_error / |shift_predicted|"),
+    Column(
+        "shift_uncertainty",
+        _F,
+        "error estimate of shift_measured: fit error, window bias and speed drift",
+    ),
+    Column("fit_residual", _F, "rms residual of the shared-speed line fit"),
+    Column("frames_before", _I, "frames used in the fit before the collisions"),
+    Column("frames_after", _I, "frames used in the fit after the collisions"),
+)
+
+KAPPA_IST = Column("kappa_ist", _F, "predicted kappa matched by rank to kappa_measured")
+
+
+@dataclass(frozen=True)
+class Layout:
+    """What decides a store's columns: the parameters and their kinds, and two sweep options.
+
+    Attributes
+    ----------
+    parameters
+        Swept parameter name -> ``"float"``, ``"int"`` or ``"text"``, in file order.
+    analysis
+        The initial data are solitons, so the collision analysis fills its columns.
+    content
+        ``run.predict_content`` is on.
+    """
+
+    parameters: Mapping[str, str]
+    analysis: bool
+    content: bool
+
+    def runs(self) -> tuple[Column, ...]:
+        """The columns of the runs table, in order."""
+        params = {name: PARAMETER_TYPES[kind] for name, kind in self.parameters.items()}
+        out = [RUN_ID]
+        out += [Column(name, kind, "swept parameter") for name, kind in params.items()]
+        for col in RUN_COLUMNS:
+            if col.name not in params:
+                out.append(col)
+        if self.analysis:
+            out += ANALYSIS_COLUMNS
+        if self.content:
+            out += CONTENT_COLUMNS
+        return tuple(out)
+
+    def solitons(self) -> tuple[Column, ...]:
+        """The columns of the solitons table, in order."""
+        return (*SOLITON_COLUMNS, KAPPA_IST) if self.content else SOLITON_COLUMNS
+
+    def schema(self, table: str) -> pa.Schema:
+        """The Arrow schema of ``"runs"`` or ``"solitons"``."""
+        cols = self.runs() if table == "runs" else self.solitons()
+        return pa.schema([pa.field(c.name, c.type) for c in cols])
+
+    def to_json(self) -> dict[str, object]:
+        """The layout as JSON data (kept in the store's manifest)."""
+        return {
+            "parameters": dict(self.parameters),
+            "analysis": self.analysis,
+            "content": self.content,
+        }
+
+    @classmethod
+    def from_json(cls, data: Mapping[str, object]) -> Layout:
+        """The inverse of :meth:`to_json`."""
+        params = data.get("parameters", {})
+        return cls(
+            parameters=dict(params) if isinstance(params, Mapping) else {},
+            analysis=bool(data.get("analysis", False)),
+            content=bool(data.get("content", False)),
+        )
+
+
+def all_columns() -> tuple[Column, ...]:
+    """Every declared column of either table (each name once), for documentation."""
+    seen: dict[str, Column] = {}
+    for col in (RUN_ID, *RUN_COLUMNS, *ANALYSIS_COLUMNS, *CONTENT_COLUMNS):
+        seen.setdefault(col.name, col)
+    return tuple(seen.values())
+
+
+def reserved_names() -> frozenset[str]:
+    """Names a swept parameter may not take: every column of either table except
+    :data:`MODEL_COLUMNS` (a parameter of such a name takes the column)."""
+    names: Iterable[str] = (c.name for c in (*all_columns(), *SOLITON_COLUMNS, KAPPA_IST))
+    return frozenset(names) - frozenset(MODEL_COLUMNS)
+
+
+__all__ = [
+    "ANALYSIS_COLUMNS",
+    "CONTENT_COLUMNS",
+    "KAPPA_IST",
+    "MODEL_COLUMNS",
+    "PARAMETER_TYPES",
+    "RUN_COLUMNS",
+    "RUN_ID",
+    "SOLITON_COLUMNS",
+    "TIMING_COLUMNS",
+    "Column",
+    "Layout",
+    "all_columns",
+    "reserved_names",
+]
