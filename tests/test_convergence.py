@@ -1,8 +1,9 @@
 """Order of accuracy and conservation through a 2-soliton collision.
 
 Reference: the exact Hirota (1971) 2-soliton of u_t + 6 u u_x + u_xxx = 0, tau = 1 + e^eta1 + e^eta2
-+ A12 e^(eta1 + eta2), A12 = ((k1 - k2)/(k1 + k2))^2 (REFERENCES 1.2). On L = 80 the solitons' tails
-at the boundary are below 1e-16, so the periodic run and the solution on the line agree to round-off.
++ A12 e^(eta1 + eta2), A12 = ((k1 - k2)/(k1 + k2))^2 (Hirota 1971, Phys. Rev. Lett. 27, 1192
+[memory]). On L = 80 the solitons' tails at the boundary are below 1e-16, so the periodic run and
+the solution on the line agree to round-off.
 """
 
 from __future__ import annotations
@@ -38,15 +39,18 @@ def _order(dts: np.ndarray, errors: np.ndarray) -> np.ndarray:
     return np.log(errors[:-1] / errors[1:]) / np.log(dts[:-1] / dts[1:])
 
 
+Runs = dict[str, list[tuple[float, dict[str, float], int]]]
+
+
 @pytest.fixture(scope="module")
-def runs() -> dict[str, list[tuple[float, dict[str, float], int]]]:
+def runs() -> Runs:
     return {scheme: [_run(scheme, dt) for dt in DTS] for scheme in ("etdrk4", "ifrk4", "strang")}
 
 
 @pytest.mark.parametrize(
     ("scheme", "low", "high"), [("etdrk4", 3.5, 5.0), ("ifrk4", 3.5, 5.0), ("strang", 1.8, 2.4)]
 )
-def test_error_falls_at_scheme_order(runs, scheme: str, low: float, high: float) -> None:
+def test_error_falls_at_scheme_order(runs: Runs, scheme: str, low: float, high: float) -> None:
     # Formal orders: ETDRK4 4 (Cox & Matthews 2002), IFRK4 4 (classical RK4), Strang 2 (Strang 1968).
     errors = np.array([r[0] for r in runs[scheme]])
     orders = _order(DTS, errors)
@@ -54,7 +58,7 @@ def test_error_falls_at_scheme_order(runs, scheme: str, low: float, high: float)
 
 
 @pytest.mark.parametrize(("scheme", "order"), [("etdrk4", 4), ("ifrk4", 4), ("strang", 2)])
-def test_invariants_conserved(runs, scheme: str, order: int) -> None:
+def test_invariants_conserved(runs: Runs, scheme: str, order: int) -> None:
     # Mass int u, momentum int u^2 and energy int (u^3 - u_x^2/2) are conserved by KdV
     # (Miura, Gardner & Kruskal 1968). Mass is conserved exactly by every scheme (the k = 0 mode
     # never changes), so its drift is round-off; the others fall at the scheme's order.
@@ -70,7 +74,7 @@ def test_invariants_conserved(runs, scheme: str, order: int) -> None:
         assert drifts["energy"][-1] < 1e-10
 
 
-def test_adaptive_meets_tolerance_with_fewer_steps(runs) -> None:
+def test_adaptive_meets_tolerance_with_fewer_steps(runs: Runs) -> None:
     # The adaptive IF-RK4(3) against its own fixed-step member: for the error the adaptive run
     # reaches, the fixed step needs more steps (common practice, no source: the controller takes
     # long steps where the solution is slow, e.g. while the solitons overlap).

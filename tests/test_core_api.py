@@ -1,7 +1,8 @@
-"""Semantics of the Python API that the rest of the package relies on (DESIGN.md)."""
+"""Semantics of the Python API that the rest of the package relies on."""
 
 from __future__ import annotations
 
+import math
 import threading
 import time
 
@@ -9,6 +10,8 @@ import numpy as np
 import pytest
 
 import kdvsweep as kv
+from kdvsweep import _core
+from kdvsweep.simulation import DEFAULT_DT, DEFAULT_TOL, step_options
 
 GRID = kv.Grid(256, 40.0)
 
@@ -48,7 +51,7 @@ def test_every_scheme_lands_on_the_requested_times(scheme: str) -> None:
 
 
 def test_advance_releases_the_gil() -> None:
-    # A Python thread keeps running while a long advance is in Rust (DESIGN.md: advance is detached).
+    # A Python thread keeps running while a long advance is in Rust (advance releases the GIL).
     sim = kv.Simulation(kv.Grid(1024, 80.0), kv.Equation.kdv(), dt=1e-4)
     sim.set_state(kv.exact.soliton(np.linspace(-40, 40, 1024, endpoint=False), 0.0, 1.0))
     ticks = 0
@@ -77,3 +80,52 @@ def test_state_is_a_copy() -> None:
     u = sim.state
     u[:] = 0
     assert sim.state.max() > 1.9
+
+
+def test_schemes_are_the_cores_list() -> None:
+    # One list: the Python names are the compiled module's, in its order.
+    assert kv.SCHEMES == tuple(_core.SCHEMES) == ("etdrk4", "ifrk4", "strang", "adaptive")
+
+
+def test_step_options_fill_defaults_and_keep_tol_for_adaptive() -> None:
+    assert step_options("etdrk4") == (DEFAULT_DT, None)
+    assert step_options("adaptive") == (DEFAULT_DT, DEFAULT_TOL)
+    assert step_options("strang", 2e-4) == (2e-4, None)
+    assert step_options("adaptive", 1, 1e-6) == (1.0, 1e-6)
+    assert (DEFAULT_DT, DEFAULT_TOL) == (1e-3, 1e-9)
+
+
+@pytest.mark.parametrize(
+    ("scheme", "dt", "tol", "match"),
+    [
+        ("rk45", None, None, r"^scheme: unknown scheme 'rk45'; expected one of etdrk4, ifrk4, "),
+        ("etdrk4", 0.0, None, r"^dt: expected a finite positive number, got 0.0$"),
+        ("etdrk4", True, None, r"^dt: expected a finite positive number, got True$"),
+        ("etdrk4", "1e-3", None, r"^dt: expected a finite positive number, got '1e-3'$"),
+        ("ifrk4", None, 1e-6, r"^tol: applies to the adaptive scheme only, not 'ifrk4'"),
+        ("adaptive", None, math.inf, r"^tol: expected a finite positive number, got inf$"),
+        ("adaptive", None, 1.0, r"^tol: expected a relative tolerance below 1, got 1.0$"),
+    ],
+)
+def test_step_options_errors_are_one_line(
+    scheme: str, dt: float | None, tol: float | None, match: str
+) -> None:
+    with pytest.raises(kv.ConfigError, match=match) as info:
+        step_options(scheme, dt, tol)
+    assert "\n" not in str(info.value)
+
+
+@pytest.mark.parametrize(
+    ("equation", "fraction"),
+    [
+        # Orszag (1971): a product of p factors is alias-free when modes j < n/(p+1) are kept.
+        (kv.Equation.kdv(), 2 / 3),
+        (kv.Equation.mkdv(), 1 / 2),
+        (kv.Equation.gardner(), 1 / 2),
+        (kv.Equation(), 1.0),
+        (kv.Equation(a=6.0, dealias=0.8), 0.8),
+    ],
+)
+def test_dealias_fraction_is_the_cores_rule(equation: kv.Equation, fraction: float) -> None:
+    assert equation.dealias_fraction == fraction
+    assert _core.dealias_fraction(**equation.core_fields()) == fraction

@@ -27,7 +27,8 @@ def test_kdv_soliton_20_time_units(scheme: str, dt: float, tol: float) -> None:
 
 @pytest.mark.parametrize(("scheme", "dt"), [("etdrk4", 5e-4), ("ifrk4", 2.5e-4)])
 def test_mkdv_soliton_20_time_units(scheme: str, dt: float) -> None:
-    # Exact focusing-mKdV soliton 2k sech(2k(x - 4k^2 t)), k = 0.5 (Wadati 1973; REFERENCES 2.1).
+    # Exact focusing-mKdV soliton 2k sech(2k(x - 4k^2 t)), k = 0.5 (Wadati 1973, J. Phys. Soc.
+    # Japan 34, 1289 [memory]).
     grid = kv.Grid(1024, 40.0)
     sim = kv.Simulation(grid, kv.Equation.mkdv(), scheme=scheme, dt=dt)
     sim.set_state(periodic_soliton(grid, 0.0, 0.5, -5.0, "mkdv"))
@@ -37,7 +38,8 @@ def test_mkdv_soliton_20_time_units(scheme: str, dt: float) -> None:
 
 
 def test_schrodinger_sign_kdv_trough() -> None:
-    # u_t - 6 u u_x + u_xxx = 0 carries -2k^2 sech^2(k(x - 4k^2 t)) (u -> -u of KdV; REFERENCES 1.1).
+    # u_t - 6 u u_x + u_xxx = 0 carries -2k^2 sech^2(k(x - 4k^2 t)): u -> -u of the KdV soliton
+    # (Korteweg & de Vries 1895).
     grid = kv.Grid(512, 40.0)
     sim = kv.Simulation(grid, kv.Equation.kdv(sign=-1), scheme="etdrk4", dt=5e-4)
     sim.set_state(-periodic_soliton(grid, 0.0, 1.0, 0.0))

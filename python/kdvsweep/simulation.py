@@ -69,7 +69,9 @@ def step_options(
         of 1 or more, or a ``tol`` given to a fixed-step scheme (one line naming the option).
     """
     if not isinstance(scheme, str) or scheme not in SCHEMES:
-        raise ConfigError(f"scheme: unknown scheme {scheme!r}; expected one of {', '.join(SCHEMES)}")
+        raise ConfigError(
+            f"scheme: unknown scheme {scheme!r}; expected one of {', '.join(SCHEMES)}"
+        )
     step = DEFAULT_DT if dt is None else _positive("dt", dt)
     if scheme != ADAPTIVE:
         if tol is not None:

@@ -27,9 +27,6 @@ fn equation(
     kc::Equation::new(coefficients, dealias).map_err(to_py)
 }
 
-/// Simulation(n, length, *, a, b, d, f, g, v, scheme, dt, tol, dealias=None, max_amplitude=None)
-/// --
-///
 /// Time stepping of ``u_t + (a u + b u^2) u_x + d u_xxx + f u_xxxxx = -g u + v u_xx`` on a
 /// periodic grid of ``n`` points on ``[-length/2, length/2)``, in the Rust core.
 ///
@@ -161,9 +158,6 @@ impl Simulation {
     }
 }
 
-/// invariants(u, length, *, a, b, d, f, g, v, dealias=None)
-/// --
-///
 /// Mass ``int u``, momentum ``int u^2`` and energy of the profile ``u`` (float64, periodic on a
 /// domain of period ``length``), computed spectrally, as a tuple ``(mass, momentum, energy)``.
 ///
@@ -191,9 +185,6 @@ fn invariants(
     Ok((inv.mass, inv.momentum, inv.energy))
 }
 
-/// dealias_fraction(*, a, b, d, f, g, v, dealias=None)
-/// --
-///
 /// The fraction of the Nyquist band the core keeps in the nonlinear term of this equation.
 ///
 /// ``dealias`` itself when given (checked to lie in (0, 1]); otherwise the alias-free fraction
@@ -214,9 +205,6 @@ fn dealias_fraction(
     Ok(equation(a, b, d, f, g, v, dealias)?.dealias())
 }
 
-/// kdv_multisoliton(x, t, kappas, x0s, a, d)
-/// --
-///
 /// The KdV N-soliton of ``u_t + a u u_x + d u_xxx = 0`` at the points ``x`` and time ``t`` (on the
 /// infinite line, no periodic images), as a new float64 array.
 ///
@@ -240,9 +228,6 @@ fn kdv_multisoliton<'py>(
     Ok(out.into_pyarray(py))
 }
 
-/// mkdv_multisoliton(x, t, kappas, x0s, signs, b, d)
-/// --
-///
 /// The focusing mKdV N-soliton of ``u_t + b u^2 u_x + d u_xxx = 0`` (``b d > 0``) at the points
 /// ``x`` and time ``t`` (on the infinite line), as a new float64 array.
 ///
@@ -277,9 +262,6 @@ fn mkdv_multisoliton<'py>(
     Ok(out.into_pyarray(py))
 }
 
-/// fft_floor(n, forward, inverse, repeats)
-/// --
-///
 /// Seconds per set of ``forward`` real-to-complex plus ``inverse`` complex-to-real transforms of
 /// size ``n`` (even), averaged over ``repeats`` sets: the FFT floor of a step, for benchmarks.
 /// Runs with the GIL released.
