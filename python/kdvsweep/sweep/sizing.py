@@ -144,11 +144,6 @@ def min_points_per_width(dealias: float, decades: float) -> float:
     return 2.0 * decades * math.log(10.0) / (dealias * math.pi**2)
 
 
-def points_per_width(kappas: Sequence[float], form: SolitonForm, n: int, length: float) -> float:
-    """Points per width of the narrowest soliton on a grid of ``n`` points over ``length``."""
-    return min(form.width(k) for k in kappas) / (length / n)
-
-
 def auto_points(narrowest: float, length: float, dealias: float) -> int:
     """Smallest FFT-friendly even ``n`` (``2^p`` or ``3 2^p``, at least 16) with no warning."""
     need = length / narrowest * min_points_per_width(dealias, WARN_DECADES)
@@ -175,6 +170,5 @@ __all__ = [
     "min_length",
     "min_points_per_width",
     "nice_ceil",
-    "points_per_width",
     "shift_bound",
 ]
