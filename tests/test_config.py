@@ -751,6 +751,28 @@ def test_auto_points_pass_the_check_and_are_fft_friendly(tmp_path: Path) -> None
     assert 60.0 / n <= 1 / sizing.min_points_per_width(2 / 3, sizing.WARN_DECADES)
 
 
+@pytest.mark.parametrize("name", ["status", "eq_a", "dealias", "regime", "kappa", "ist_count"])
+def test_parameter_named_like_a_result_column_is_refused(tmp_path: Path, name: str) -> None:
+    text = edit("k2 = [0.4, 0.5]", f"k2 = [0.4, 0.5]\n{name} = [1.0, 2.0]")
+    with pytest.raises(ConfigError, match=rf"vary\[0\]\.{name}: given '{name}', expected a "):
+        load_sweep(write(tmp_path, text))
+    # the model's columns may be swept by name: the parameter's values fill them
+    ok = edit("k2 = [0.4, 0.5]", "k2 = [0.4, 0.5]\nn = [512, 768]").replace(
+        "points = 512", 'points = "n"'
+    )
+    assert load_sweep(write(tmp_path, ok)).layout.parameters == {"k2": "float", "n": "int"}
+
+
+def test_step_options_follow_the_simulation(tmp_path: Path) -> None:
+    # The adaptive scheme's defaults are the simulation's; a tolerance of 1 or more is refused.
+    adaptive = edit('scheme = "etdrk4"\ndt = 2.5e-3', 'scheme = "adaptive"')
+    spec = load_sweep(write(tmp_path, adaptive)).runs[0]
+    assert (spec.model.dt, spec.model.tol) == kv.simulation.step_options("adaptive")
+    loose = edit('scheme = "etdrk4"\ndt = 2.5e-3', 'scheme = "adaptive"\ntol = 1.5')
+    with pytest.raises(ConfigError, match=r"model\.tol: given 1\.5 in run 0 .*below 1"):
+        load_sweep(write(tmp_path, loose))
+
+
 def test_large_step_is_warned(tmp_path: Path) -> None:
     s = load_sweep(write(tmp_path, edit("dt = 2.5e-3", "dt = 0.05")))
     assert any("model.dt" in w and "rule-of-thumb" in w for w in s.warnings)

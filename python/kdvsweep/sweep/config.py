@@ -28,7 +28,7 @@ from .. import initial as init
 from ..columns import Layout
 from ..exceptions import ConfigError, ShapeError
 from ..model import Equation, Grid, SolitonForm
-from ..simulation import SCHEMES
+from ..simulation import ADAPTIVE, DEFAULT_SCHEME, SCHEMES, step_options
 from . import sizing
 from .expr import Expression, ExpressionError
 from .schema import Source, Table, describe, is_number, join, suggestion
@@ -38,8 +38,6 @@ FORMAT = 1
 MAX_FRAMES = 100_000
 MAX_AUTO_POINTS = 2**18
 DEFAULT_TAIL = 1e-8
-ADAPTIVE_DT = 1e-3
-ADAPTIVE_TOL = 1e-9
 PRESETS = ("kdv", "kdv-", "mkdv", "mkdv-", "gardner")
 
 _TOP = ("sweep", "model", "initial", "run", "vary", "derive", "sizing")
@@ -331,14 +329,16 @@ def _read_template(src: Source, doc: dict[str, Any], base: Path, stem: str) -> _
     equation = _read_equation(src, model, names)
     points = _num_or_auto(src, model.key("points"), model.raw("points"), names)
     length = _num_or_auto(src, model.key("length"), model.raw("length"), names)
-    scheme = _text(src, model.key("scheme"), model.raw("scheme", "etdrk4"), SCHEMES, names)
+    scheme = _text(src, model.key("scheme"), model.raw("scheme", DEFAULT_SCHEME), SCHEMES, names)
     dt = _num(src, model.key("dt"), model.raw("dt"), names) if model.has("dt") else None
     tol = _num(src, model.key("tol"), model.raw("tol"), names) if model.has("tol") else None
     if scheme.literal is not None:
-        if scheme.literal != "adaptive" and dt is None:
+        if scheme.literal != ADAPTIVE and dt is None:
             model.raw("dt")  # raises: required
-        if scheme.literal != "adaptive" and tol is not None:
-            raise model.fail("tol", model.raw("tol"), "no tol: it applies to scheme = 'adaptive'")
+        if scheme.literal != ADAPTIVE and tol is not None:
+            raise model.fail(
+                "tol", model.raw("tol"), f"no tol: it applies to scheme = {ADAPTIVE!r}"
+            )
 
     every_key = dict.fromkeys(k for keys in _INITIAL.values() for k in keys)  # ordered, unique
     itab = Table(src, top.raw("initial"), "initial", every_key)
@@ -642,22 +642,24 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
         ctx.env[dname] = ctx.num(slot)
     eq = _equation(tpl, ctx)
     scheme = ctx.text(tpl.scheme, SCHEMES)
-    tol: float | None
-    if scheme == "adaptive":
-        dt = ctx.num(tpl.dt, "positive") if tpl.dt else ADAPTIVE_DT
-        tol = ctx.num(tpl.tol, "positive") if tpl.tol else ADAPTIVE_TOL
-    else:
-        if tpl.dt is None:
+    if scheme != ADAPTIVE:
+        if tpl.dt is None:  # a sweep file names the step of a fixed-step scheme
             raise ctx.src.error(
                 "model.dt",
                 f"nothing in {ctx.label} (scheme {scheme!r})",
-                "a positive time step (required unless scheme = 'adaptive')",
+                f"a positive time step (required unless scheme = {ADAPTIVE!r})",
             )
         if tpl.tol is not None:
             raise ctx.fail(
-                "model.tol", tpl.tol.given, f"no tol with scheme {scheme!r} (adaptive only)"
+                "model.tol", tpl.tol.given, f"no tol with scheme {scheme!r} ({ADAPTIVE} only)"
             )
-        dt, tol = ctx.num(tpl.dt, "positive"), None
+    given_dt = ctx.num(tpl.dt, "positive") if tpl.dt else None
+    given_tol = ctx.num(tpl.tol, "positive") if tpl.tol else None
+    try:  # the defaults and the rule "tol for the adaptive scheme only" live in the simulation
+        dt, tol = step_options(scheme, given_dt, given_tol)
+    except ConfigError as err:
+        key, given = ("model.tol", tpl.tol.given) if tpl.tol else ("model.dt", given_dt)
+        raise ctx.fail(key, given, f"a valid step option ({err})") from None
 
     soliton = tpl.kind in ("solitons", "multisoliton")
     initial: init.InitialData
@@ -802,7 +804,7 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
         )
     if math.isfinite(narrowest):
         _check_resolution(ctx, warn, narrowest, grid, dealias, tpl.points is None)
-    if scheme in ("etdrk4", "ifrk4") and max_u > 0:
+    if scheme in ("etdrk4", "ifrk4") and max_u > 0:  # the RK4-type steps the rule is made for
         limit = sizing.dt_limit(max_u, eq.a, eq.b, dealias, grid.dx)
         if dt > limit:
             warn.add(

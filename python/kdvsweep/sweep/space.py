@@ -19,6 +19,7 @@ from typing import Any
 import numpy as np
 from scipy.stats import qmc
 
+from ..columns import MODEL_COLUMNS, reserved_names
 from .expr import RESERVED
 from .schema import Source, Table, describe, is_number
 
@@ -166,6 +167,13 @@ def read_space(src: Source, data: object) -> list[Axis]:
         names = [k for k in block if k != "draw"]
         for name in names:
             check_name(src, tab.key(name), name)
+            if name in reserved_names():
+                raise src.error(
+                    tab.key(name),
+                    repr(name),
+                    "a parameter name that is not a column of the result tables (a parameter may "
+                    f"take the name of a model column: {', '.join(MODEL_COLUMNS)})",
+                )
             if name in seen:
                 raise src.error(
                     tab.key(name),
