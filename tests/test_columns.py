@@ -84,6 +84,7 @@ def test_rows_of_a_real_run_fit_the_layout(tmp_path: Path) -> None:
     for row in result.soliton_rows:
         assert set(row) <= set(solitons)
     # the input centres travel with the measured rows
+    assert isinstance(spec.initial, kv.initial.Solitons)
     assert [r["x0"] for r in result.soliton_rows] == list(spec.initial.x0)
     # the whole model, for ok and failed runs alike
     eq = kv.Equation.from_columns(result.run_row)

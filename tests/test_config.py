@@ -52,6 +52,12 @@ SECH2 = BASE.replace(
 )
 
 
+def solitons(spec: RunSpec) -> kv.initial.Solitons:
+    """The soliton initial data of a run (narrowed for the type checker)."""
+    assert isinstance(spec.initial, kv.initial.Solitons)
+    return spec.initial
+
+
 def _tree(folder: Path) -> dict[str, tuple[int, int]]:
     return {
         str(p.relative_to(folder)): (p.stat().st_size, p.stat().st_mtime_ns)
@@ -383,7 +389,7 @@ def test_no_vary_gives_one_run(tmp_path: Path) -> None:
     assert s.parameters == ()
     assert len(s.runs) == 1
     assert s.runs[0].params == {}
-    assert s.runs[0].initial.kappa == (1.0, 0.5)
+    assert solitons(s.runs[0]).kappa == (1.0, 0.5)
 
 
 def test_cartesian_product_first_table_slowest(tmp_path: Path) -> None:
@@ -400,7 +406,7 @@ def test_cartesian_product_first_table_slowest(tmp_path: Path) -> None:
         (0.6, 256),
         (0.6, 512),
     ]
-    assert [r.initial.kappa[1] for r in s] == [0.4, 0.4, 0.5, 0.5, 0.6, 0.6]
+    assert [solitons(r).kappa[1] for r in s] == [0.4, 0.4, 0.5, 0.5, 0.6, 0.6]
     assert isinstance(s[0].params["n"], int)
 
 
@@ -429,7 +435,7 @@ def test_zipped_axis_with_text_values(tmp_path: Path) -> None:
     # the kdv and mkdv presets of kv.Equation
     assert [r.model.equation.a for r in s.runs] == [6.0, 0.0, 0.0]
     assert [r.model.equation.b for r in s.runs] == [0.0, 6.0, 6.0]
-    assert [r.initial.sign for r in s.runs] == [(1, 1), (1, 1), (1, -1)]
+    assert [solitons(r).sign for r in s.runs] == [(1, 1), (1, 1), (1, -1)]
 
 
 def test_linear_and_log_ranges_against_numpy(tmp_path: Path) -> None:
@@ -439,8 +445,8 @@ def test_linear_and_log_ranges_against_numpy(tmp_path: Path) -> None:
         '[[vary]]\ng = { from = 1e-4, to = 1e-1, count = 4, spacing = "log" }\n',
     )
     assert len(s.runs) == 44
-    k2 = sorted({r.params["k2"] for r in s.runs})
-    g = [r.params["g"] for r in s.runs[:4]]
+    k2 = sorted({float(r.params["k2"]) for r in s.runs})
+    g = [float(r.params["g"]) for r in s.runs[:4]]
     np.testing.assert_allclose(k2, np.linspace(0.3, 0.8, 11), rtol=1e-12)
     np.testing.assert_allclose(g, np.geomspace(1e-4, 1e-1, 4), rtol=1e-12)
     assert k2[1] == 0.35  # rounded to 12 significant digits: no 0.35000000000000003
@@ -490,15 +496,15 @@ def test_derived_values_and_conversions(tmp_path: Path) -> None:
     text = edit("[model]", '[derive]\nhalf = "6 / k2"\nk1 = 1.0\n\n[model]')
     text = edit("position = [-10.0, 10.0]", 'position = ["-half", "half"]', text)
     runs = load_sweep(write(tmp_path, text)).runs
-    assert [r.initial.x0 for r in runs] == [(-15.0, 15.0), (-12.0, 12.0)]
+    assert [solitons(r).x0 for r in runs] == [(-15.0, 15.0), (-12.0, 12.0)]
     # amplitudes and speeds become kappas (KdV: amplitude 2 k^2, speed 4 k^2; Korteweg & de Vries
     # 1895, normalised as in Ablowitz 2011, Eq. 1.5)
     amp = edit('kappa = [1.0, "k2"]', 'amplitude = [2.0, "2 * k2^2"]')
     runs = load_sweep(write(tmp_path, amp)).runs
-    assert [r.initial.kappa for r in runs] == [(1.0, 0.4), (1.0, 0.5)]
+    assert [solitons(r).kappa for r in runs] == [(1.0, 0.4), (1.0, 0.5)]
     spd = edit('kappa = [1.0, "k2"]', 'speed = [4.0, "4 * k2^2"]')
     runs = load_sweep(write(tmp_path, spd)).runs
-    assert [r.initial.kappa for r in runs] == [(1.0, 0.4), (1.0, 0.5)]
+    assert [solitons(r).kappa for r in runs] == [(1.0, 0.4), (1.0, 0.5)]
 
 
 def test_record_times(tmp_path: Path) -> None:
@@ -538,7 +544,9 @@ def test_npy_initial_data(tmp_path: Path) -> None:
     np.save(data / "u0.npy", np.linspace(0, 1, 512))
     path = write(data, NPY)
     spec = load_sweep(path).runs[0]
-    assert spec.initial.path == str((data / "u0.npy").resolve())
+    assert spec.initial == kv.initial.FileData(
+        str((data / "u0.npy").resolve()), kv.initial.file_digest(data / "u0.npy")
+    )
     u = kv.initial.build_profile(spec.initial, kv.Grid(512, 60.0), kv.Equation.kdv())
     np.testing.assert_array_equal(u, np.linspace(0, 1, 512))
 
@@ -605,11 +613,11 @@ def test_demo_is_a_few_dozen_kdv_and_mkdv_pairs() -> None:
     assert 24 <= len(s.runs) <= 40
     names = {r.model.equation.name for r in s.runs}
     assert names == {"kdv", "mkdv"}
-    assert {tuple(r.initial.sign) for r in s.runs if r.params["equation"] == "mkdv"} == {
+    assert {tuple(solitons(r).sign) for r in s.runs if r.params["equation"] == "mkdv"} == {
         (1, 1),
         (1, -1),
     }
-    assert all(len(r.initial.kappa) == 2 for r in s.runs)
+    assert all(len(solitons(r).kappa) == 2 for r in s.runs)
 
 
 # ---------------------------------------------------------------- sizing and resolution
@@ -634,7 +642,7 @@ def _check_no_image_meeting(spec: RunSpec, tail: float) -> None:
     overtaking pair a gap apart at the end (checked on a fine time grid, not at end points)."""
     eq = spec.model.equation
     family = "kdv" if eq.a else "mkdv"
-    kappas, x0 = spec.initial.kappa, spec.initial.x0
+    kappas, x0 = solitons(spec).kappa, solitons(spec).x0
     speeds = [4 * eq.d * k * k for k in kappas]  # both canonical solitons move at 4 kappa^2
     L, T = spec.model.grid.length, spec.run.t_end
     t = np.linspace(0.0, T, 4001)
@@ -661,8 +669,10 @@ def test_auto_sized_demo_runs_never_meet_a_periodic_image() -> None:
         if spec.initial.kind == "solitons" and spec.params.get("k2") is not None:
             # auto positions: the listed order, exactly one gap apart
             fam = "kdv" if spec.params["equation"] == "kdv" else "mkdv"
-            gap = spec.initial.x0[1] - spec.initial.x0[0]
-            assert gap == pytest.approx(_tail_gap(1.0, spec.params["k2"], fam, 1e-8), rel=1e-9)
+            gap = solitons(spec).x0[1] - solitons(spec).x0[0]
+            assert gap == pytest.approx(
+                _tail_gap(1.0, float(spec.params["k2"]), fam, 1e-8), rel=1e-9
+            )
 
 
 def test_auto_sized_three_solitons(tmp_path: Path) -> None:
@@ -684,7 +694,7 @@ def test_sized_pair_exact_solution_separated_at_the_end(tmp_path: Path, k2: floa
         text = edit(key, value, text)
     spec = load_sweep(write(tmp_path, text)).runs[0]
     T, L = spec.run.t_end, spec.model.grid.length
-    kappas, x0 = spec.initial.kappa, spec.initial.x0
+    kappas, x0 = solitons(spec).kappa, solitons(spec).x0
     x = np.linspace(x0[0] - 50, x0[1] + 4 * kappas[0] ** 2 * T + 50, 200001)  # the open line
     u = kv.exact.multisoliton(x, T, kappas, x0, "kdv")
     peaks = np.flatnonzero((u[1:-1] > u[:-2]) & (u[1:-1] > u[2:]) & (u[1:-1] > 1e-3)) + 1

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -117,8 +118,12 @@ def test_bad_inputs() -> None:
 # ---------------------------------------------------------------- solitons against kv.exact
 
 
-def _images(x: np.ndarray, L: float, kappa: float, x0: float, eq: kv.Equation, sign: float = 1):
-    return sum(kv.exact.soliton(x, 0.0, kappa, x0 + m * L, eq, sign) for m in range(-3, 4))
+def _images(
+    x: np.ndarray, L: float, kappa: float, x0: float, eq: kv.Equation, sign: float = 1
+) -> np.ndarray:
+    return np.sum(
+        [kv.exact.soliton(x, 0.0, kappa, x0 + m * L, eq, sign) for m in range(-3, 4)], axis=0
+    )
 
 
 def test_superposed_kdv_solitons_are_sums_of_exact_solitons() -> None:
@@ -201,7 +206,7 @@ def test_multisoliton_matches_hirota_two_soliton_mkdv(signs: list[int]) -> None:
 # ---------------------------------------------------------------- files and soliton lists
 
 
-def test_npy_profile(tmp_path) -> None:
+def test_npy_profile(tmp_path: Path) -> None:
     grid = kv.Grid(64, 10.0)
     arr = np.sin(2 * np.pi * grid.x / grid.length)
     path = tmp_path / "u0.npy"

@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from kdvsweep.sweep import load_sweep
-from kdvsweep.sweep.runner import execute
+from kdvsweep.sweep.runner import RunResult, execute
 
 PAIR = """
 [model]
@@ -49,7 +49,7 @@ predict_content = true
 """
 
 
-def _run(tmp_path: Path, text: str) -> object:
+def _run(tmp_path: Path, text: str) -> RunResult:
     path = tmp_path / "sweep.toml"
     path.write_text(text, encoding="utf-8")
     (spec,) = load_sweep(path).runs
