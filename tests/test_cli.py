@@ -1,4 +1,4 @@
-"""The ``kdvsweep`` command: resume after SIGKILL, refusals, status and table, delegation.
+"""The ``kdvsweep`` command: resume after SIGKILL, refusals, status and table, help and README.
 
 Sweeps run in a subprocess (``python -m kdvsweep.cli``), as a user would start them, in a new
 process group so that a SIGKILL reaches the client and its worker processes together.
@@ -11,7 +11,6 @@ import signal
 import subprocess
 import sys
 import time
-import types
 from pathlib import Path
 
 import numpy as np
@@ -20,6 +19,7 @@ import pytest
 from conftest import pair_sweep_text
 
 from kdvsweep import cli
+from kdvsweep.cli.readme import command_table, options, subcommand_parsers
 from kdvsweep.results import Results, load
 from kdvsweep.sweep.config import load_sweep
 from kdvsweep.sweep.runner import TIMING_COLUMNS
@@ -173,37 +173,71 @@ def test_status_of_a_folder_that_is_not_a_store(
     assert "not a kdvsweep store" in capsys.readouterr().err
 
 
-def test_delegated_commands_get_their_arguments(monkeypatch: pytest.MonkeyPatch) -> None:
-    seen: dict[str, list[str]] = {}
-
-    def fake(name: str, code: int) -> types.ModuleType:
-        mod = types.ModuleType(name)
-
-        def main(argv: list[str]) -> int:
-            seen[name] = argv
-            return code
-
-        mod.main = main  # type: ignore[attr-defined]
-        monkeypatch.setitem(sys.modules, name, mod)
-        return mod
-
-    fake("kdvsweep.plots", 0)
-    fake("kdvsweep.bench", 0)
-    fake("kdvsweep.sweep.bench_sweep", 3)
-    assert cli.main(["plot", "results/x", "--kind", "shifts"]) == 0
-    assert seen["kdvsweep.plots"] == ["results/x", "--kind", "shifts"]
-    assert cli.main(["bench", "--quick"]) == 0
-    assert seen["kdvsweep.bench"] == ["--quick"]
-    assert cli.main(["bench", "--sweep", "--runs", "4"]) == 3
-    assert seen["kdvsweep.sweep.bench_sweep"] == ["--runs", "4"]
+def readme_command_table() -> str:
+    """The table under the README's "Command line" heading, as written."""
+    text = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
+    section = text.split("\n## Command line\n", 1)[1].splitlines()
+    first = next(i for i, line in enumerate(section) if line.startswith("|"))
+    block = []
+    for line in section[first:]:
+        if not line.startswith("|"):
+            break
+        block.append(line)
+    return "\n".join(block)
 
 
-def test_missing_delegate_is_reported(
-    monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]
+def test_readme_command_table_is_the_parsers_table() -> None:
+    # Regenerate with `python -m kdvsweep.cli.readme` when a command or option changes.
+    assert readme_command_table() == command_table()
+
+
+def test_readme_table_names_every_option_of_every_command() -> None:
+    # The check above compares text; this one says which option is missing, should they differ.
+    table = readme_command_table()
+    rows = {line.split("`")[1].split()[1]: line for line in table.splitlines()[2:]}
+    parsers = subcommand_parsers()
+    assert set(rows) == set(parsers)
+    for name, parser in parsers.items():
+        missing = [opt for opt in sorted(options(parser)) if f"{opt} " not in rows[name]]
+        missing = [opt for opt in missing if f"{opt}]" not in rows[name]]
+        assert not missing, f"README row of {name} lacks {missing}"
+    # The options the issue found missing are there.
+    for command, option in (
+        ("plot", "--into"),
+        ("plot", "--formats"),
+        ("run", "--chunk-seconds"),
+        ("spectrum", "--tol"),
+        ("spectrum", "--length"),
+    ):
+        assert option in options(parsers[command])
+        assert option in rows[command]
+
+
+@pytest.mark.parametrize("command", ["run", "demo", "table", "status", "plot", "spectrum", "bench"])
+def test_help_of_each_command_calls_it_by_its_name(
+    command: str, capsys: pytest.CaptureFixture[str]
 ) -> None:
-    monkeypatch.setitem(sys.modules, "kdvsweep.spectrum", None)  # makes the import fail
-    assert cli.main(["spectrum", "--help"]) == 2
-    assert "kdvsweep.spectrum is missing" in capsys.readouterr().err
+    with pytest.raises(SystemExit) as stop:
+        cli.main([command, "--help"])
+    assert stop.value.code == 0
+    assert capsys.readouterr().out.startswith(f"usage: kdvsweep {command} ")
+
+
+def test_bench_refuses_the_other_modes_options(capsys: pytest.CaptureFixture[str]) -> None:
+    assert cli.main(["bench", "--runs", "4"]) == 2
+    assert capsys.readouterr().err.strip() == (
+        "kdvsweep bench: error: --runs applies to the farm benchmark (--sweep) only"
+    )
+    assert cli.main(["bench", "--sweep", "--schemes", "etdrk4"]) == 2
+    assert "--schemes applies to the stepper benchmark only" in capsys.readouterr().err
+
+
+def test_python_m_kdvsweep_cli_is_the_command() -> None:
+    code, out, _ = finish(kdvsweep("--help"), timeout=60)
+    assert code == 0
+    assert out.startswith("usage: kdvsweep ")
+    for command in ("run", "demo", "table", "status", "plot", "spectrum", "bench"):
+        assert command in out
 
 
 def test_demo_file_is_found_and_valid() -> None:

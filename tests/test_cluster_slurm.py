@@ -420,7 +420,7 @@ def local_tables(sweep: Any, tmp_path_factory: pytest.TempPathFactory) -> Any:
 
     out = tmp_path_factory.mktemp("local") / "store"
     with local_client(2) as client:
-        report = run_sweep(sweep, out, client, progress=False, chunk_seconds=0.5)
+        report = run_sweep(sweep, out, client, chunk_seconds=0.5)
     assert (report.stored, report.failed) == (len(K2), 1)
     return load(out)
 
@@ -457,13 +457,15 @@ def test_sweep_on_the_cluster_equals_the_local_sweep(
     local_tables: Any,
     capsys: pytest.CaptureFixture[str],
 ) -> None:
+    from kdvsweep.cli.progress import Progress
     from kdvsweep.results import load
     from kdvsweep.sweep.farm import run_sweep
 
     out = tmp_path / "store"
     with cluster_client(live_profile(partition, tmp_path, job_name)) as client:
         client.wait_for_workers(2, timeout=START_TIMEOUT)
-        report = run_sweep(sweep, out, client, progress=True, chunk_seconds=0.5)
+        with Progress(enabled=True) as bar:
+            report = run_sweep(sweep, out, client, on_progress=bar, chunk_seconds=0.5)
         assert len(running(job_name)) == 2
     assert (report.stored, report.failed, report.workers) == (len(K2), 1, 2)
     assert_same_tables(local_tables, load(out))
@@ -509,7 +511,7 @@ def test_scancel_mid_sweep_loses_and_duplicates_nothing(
         canceller = threading.Thread(target=cancel_a_busy_job, args=(client,))
         canceller.start()
         # One run per task, so that the cancelled job surely holds work that must be redone.
-        report = run_sweep(sweep, out, client, progress=False, chunk_seconds=0.01)
+        report = run_sweep(sweep, out, client, chunk_seconds=0.01)
         canceller.join()
         assert cancelled, "no job was cancelled: the sweep ended before a worker was busy"
         # The cancelled job is replaced by a new one, which brings a worker up again.

@@ -21,7 +21,7 @@ import pandas as pd
 import pytest
 from conftest import pair_sweep_text
 
-from kdvsweep.exceptions import KdvsweepError
+from kdvsweep.exceptions import ConfigError, KdvsweepError
 from kdvsweep.results import Results, load
 from kdvsweep.sweep.config import Sweep, load_sweep
 from kdvsweep.sweep.farm import _Chunker, local_client, run_sweep
@@ -71,7 +71,7 @@ def sweep(tmp_path_factory: pytest.TempPathFactory) -> Sweep:
 @pytest.fixture(scope="module")
 def reference(client: Any, sweep: Sweep, tmp_path_factory: pytest.TempPathFactory) -> Results:
     out = tmp_path_factory.mktemp("ref") / "store"
-    report = run_sweep(sweep, out, client, progress=False, chunk_seconds=0.5)
+    report = run_sweep(sweep, out, client, chunk_seconds=0.5)
     assert (report.stored, report.skipped, report.failed) == (len(K2), 0, 1)
     return load(out)
 
@@ -100,7 +100,7 @@ def test_blown_up_run_is_a_failed_row(reference: Results) -> None:
 def test_rows_belong_to_their_runs(reference: Results) -> None:
     # Each run's measured shifts match the two-soliton formula for ITS kappa2, so rows were not
     # mixed up between runs: Delta x_1 = ln((k1+k2)/(k1-k2))/k1, Delta x_2 = -ln(...)/k2
-    # (Gardner, Greene, Kruskal & Miura 1974; REFERENCES.md 1.3).
+    # (Gardner, Greene, Kruskal & Miura 1974).
     sol = reference.solitons.merge(reference.runs[["run_id", "k2"]], on="run_id")
     k1 = 0.8
     for _, row in sol.iterrows():
@@ -113,20 +113,20 @@ def test_rows_belong_to_their_runs(reference: Results) -> None:
 def test_same_sweep_twice_is_identical(
     client: Any, sweep: Sweep, reference: Results, tmp_path: Path
 ) -> None:
-    run_sweep(sweep, tmp_path / "again", client, progress=False, chunk_seconds=0.1)
+    run_sweep(sweep, tmp_path / "again", client, chunk_seconds=0.1)
     assert_same_tables(reference, load(tmp_path / "again"))
 
 
 def test_one_worker_gives_the_same_tables(sweep: Sweep, reference: Results, tmp_path: Path) -> None:
     with local_client(1) as one:
         assert len(one.nthreads()) == 1
-        run_sweep(sweep, tmp_path / "one", one, progress=False)
+        run_sweep(sweep, tmp_path / "one", one)
     assert_same_tables(reference, load(tmp_path / "one"))
 
 
 def test_complete_store_runs_nothing(sweep: Sweep, reference: Results) -> None:
     # No client at all: nothing is pending, so no cluster is needed or started.
-    report = run_sweep(sweep, reference.path, progress=False)
+    report = run_sweep(sweep, reference.path)
     assert (report.stored, report.skipped, report.chunks) == (0, len(K2), 0)
 
 
@@ -152,7 +152,7 @@ def test_worker_killed_mid_sweep(
     before = set(client.run(os.getpid).values())
     killer = threading.Thread(target=kill_a_busy_worker)
     killer.start()
-    report = run_sweep(sweep, out, client, progress=False, chunk_seconds=0.05)
+    report = run_sweep(sweep, out, client, chunk_seconds=0.05)
     killer.join()
     assert killed, "no worker was killed: the sweep ended before the killer found a busy worker"
     assert killed["pid"] in before
@@ -221,7 +221,7 @@ def test_run_that_kills_its_worker_is_isolated(fragile: Any, tmp_path: Path) -> 
     small = write_sweep(tmp_path, sweep_text(K2[:3], bad=None))
     fragile.register_plugin(sabotage(K2[1], "exit"), name="sabotage")
     try:
-        report = run_sweep(small, tmp_path / "out", fragile, progress=False, chunk_seconds=10.0)
+        report = run_sweep(small, tmp_path / "out", fragile, chunk_seconds=10.0)
     finally:
         fragile.unregister_worker_plugin("sabotage")
     res = load(tmp_path / "out")
@@ -239,25 +239,71 @@ def test_error_outside_the_runs_stops_the_sweep(fragile: Any, tmp_path: Path) ->
     fragile.register_plugin(sabotage(K2[2], "raise"), name="sabotage")
     try:
         with pytest.raises(KdvsweepError, match=r"outside the runs \(RuntimeError: sabotaged\)"):
-            run_sweep(small, tmp_path / "out", fragile, progress=False, chunk_seconds=0.01)
+            run_sweep(small, tmp_path / "out", fragile, chunk_seconds=0.01)
     finally:
         fragile.unregister_worker_plugin("sabotage")
     assert K2[2] not in set(load(tmp_path / "out").runs["k2"])
-    report = run_sweep(small, tmp_path / "out", fragile, progress=False)
+    report = run_sweep(small, tmp_path / "out", fragile)
     assert report.stored + report.skipped == 3
     assert (load(tmp_path / "out").runs["status"] == "ok").all()
 
 
-def test_progress_line_shows_done_failed_rate_and_time_left() -> None:
+def test_progress_bar_shows_done_failed_rate_and_time_left() -> None:
     import io
 
-    from kdvsweep.sweep.progress import Progress
+    from kdvsweep.cli.progress import Progress
 
     stream = io.StringIO()
-    with Progress(10, initial=2, failed=1, enabled=True, stream=stream) as bar:
-        bar.update(3, failed=1)
+    with Progress(enabled=True, stream=stream) as bar:
+        bar(2, 1, 10)  # resumed: 2 stored before, 1 of them failed
+        bar(5, 2, 10)
     text = stream.getvalue()
     assert "5/10" in text  # 2 stored before + 3 now
     assert "failed=2" in text
     assert "run/s" in text or "s/run" in text  # the rate
     assert "<" in text  # elapsed<remaining
+
+
+def test_on_progress_counts_every_stored_run(client: Any, sweep: Sweep, tmp_path: Path) -> None:
+    calls: list[tuple[int, int, int]] = []
+    run_sweep(sweep, tmp_path / "p", client, on_progress=lambda *a: calls.append(a))
+    assert calls[0] == (0, 0, len(K2))  # before the first task
+    assert calls[-1] == (len(K2), 1, len(K2))  # every run stored, the bad one failed
+    done = [c[0] for c in calls]
+    assert done == sorted(done)
+
+
+def test_run_resumes_a_complete_store_without_a_cluster(sweep: Sweep, reference: Results) -> None:
+    from kdvsweep.sweep import run
+
+    calls: list[tuple[int, int, int]] = []
+    report = run(sweep.path, reference.path, on_progress=lambda *a: calls.append(a))
+    assert (report.out, report.skipped, report.stored, report.chunks) == (
+        reference.path,
+        len(K2),
+        0,
+        0,
+    )
+    assert calls == [(len(K2), 1, len(K2))]
+
+
+def test_run_refuses_a_wrong_store_before_connecting(reference: Results, tmp_path: Path) -> None:
+    from kdvsweep.sweep import run
+
+    other = tmp_path / "other.toml"
+    other.write_text(sweep_text([*K2[:-1], 0.56]))
+    # Nothing listens on this address: reaching it would fail otherwise, and slowly.
+    with pytest.raises(KdvsweepError, match="holds the results of sweep 'farm-test'"):
+        run(other, reference.path, scheduler="tcp://127.0.0.1:9")
+    with pytest.raises(ConfigError, match="cluster profile"):
+        run(other, reference.path, cluster=tmp_path / "missing-profile.toml")
+
+
+def test_run_takes_one_place_to_run(sweep: Sweep, tmp_path: Path) -> None:
+    from kdvsweep.sweep import run
+
+    with pytest.raises(ConfigError, match="workers and scheduler were both given"):
+        run(sweep.path, tmp_path / "x", workers=2, scheduler="tcp://127.0.0.1:9")
+    with pytest.raises(ConfigError, match="scheduler and cluster were both given"):
+        run(sweep.path, tmp_path / "x", scheduler="tcp://127.0.0.1:9", cluster="p.toml")
+    assert not (tmp_path / "x").exists()

@@ -1,13 +1,14 @@
-"""Figures: files are written, and what is drawn matches what was analysed.
+"""Figures: files are written, what is drawn matches what was analysed, and a store's figures use
+the equation each run was run with.
 
 Records are exact Hirota 2-solitons (kv.exact.multisoliton; Hirota 1971) on a domain wide enough
-that the solitons stay clear of the boundary, so no stepping is needed.
+that the solitons stay clear of the boundary, so no stepping is needed. The store-level tests run
+small sweeps through the runner and the store, serially (no dask).
 """
 
 from __future__ import annotations
 
-import hashlib
-from dataclasses import dataclass, field
+import types
 from pathlib import Path
 from typing import Any
 
@@ -16,9 +17,13 @@ import pandas as pd
 import pytest
 
 import kdvsweep as kv
-from kdvsweep import plots
+from kdvsweep import cli, plots
 from kdvsweep.analysis import analyse_run
 from kdvsweep.exceptions import ConfigError
+from kdvsweep.results import load
+from kdvsweep.sweep.config import load_sweep
+from kdvsweep.sweep.runner import execute
+from kdvsweep.sweep.store import Store
 from kdvsweep.theory import phase_shifts
 
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
@@ -63,6 +68,50 @@ def test_spacetime_without_analysis_has_no_tracks() -> None:
     assert not lines_with(fig.axes[0], plots.TRAJECTORY_GID)
 
 
+def colour_bar_label(fig: Any) -> str:
+    return str(fig.axes[-1].get_ylabel())
+
+
+def test_spacetime_labels_its_colour_scale() -> None:
+    frames, times, grid, _ = exact_record(0.5)
+    # One-signed (KdV) field: square-root power scale, named on the colour bar with its exponent.
+    assert colour_bar_label(plots.spacetime(frames, times, grid)) == "u   (power scale, γ = 0.5)"
+    # Signed field: symmetric log, with the half-width of its linear part (2% of max |u| = 2).
+    signed = frames.copy()
+    signed[:, : grid.n // 2] *= -1.0
+    fig = plots.spacetime(signed, times, grid)
+    assert colour_bar_label(fig) == "u   (symlog scale, linear within ±0.04)"
+    ticks = [t.get_text() for t in fig.axes[-1].get_yticklabels()]
+    assert ticks == [
+        "-2",
+        "-0.4",
+        "-0.04",
+        "0",
+        "0.04",
+        "0.4",
+        "2",
+    ]  # plain, short, no minor labels
+
+
+def _fake_tracks(linked: list[bool], laps: list[float]) -> Any:
+    """Just what the mid-collision marker rule reads of a Tracks."""
+    m = len(linked)
+    return types.SimpleNamespace(
+        n_solitons=2,
+        linked=np.array(linked),
+        extrema=[None] * m,
+        laps=lambda: np.array(laps, dtype=float).reshape(m, 1),
+    )
+
+
+def test_mid_collision_markers_only_where_solitons_passed() -> None:
+    # Frames 2-3 unlinked while the pair passes (lap index -1 -> 0): marked. Frames 6-7 unlinked
+    # with no change of the lap index (a peak missed as a soliton crossed the box edge): not marked.
+    linked = [True, True, False, False, True, True, False, False, True]
+    laps = [-1, -1, np.nan, np.nan, 0, 0, np.nan, np.nan, 0]
+    assert plots._collision_frames(_fake_tracks(linked, laps)) == [2, 3]
+
+
 def _sweep_table() -> pd.DataFrame:
     rows = []
     for equation in ("kdv", "mkdv"):
@@ -77,91 +126,225 @@ def _sweep_table() -> pd.DataFrame:
                         "soliton": s,
                         "shift_predicted": pred[s],
                         "shift_measured": pred[s] * (1 + 1e-7 * (s + 1)),
-                        "shift_uncertainty": 1e-7,
+                        "shift_uncertainty": 1e-7 * abs(pred[s]),
                     }
                 )
     return pd.DataFrame(rows)
 
 
-def test_shift_comparison_one_series_per_group() -> None:
+def test_shift_comparison_gives_each_group_its_panel() -> None:
+    # KdV and mKdV pairs of the same kappas have the same shifts (Zakharov & Shabat 1972, Wadati
+    # 1973): on one panel one series would hide the other.
     fig = plots.shift_comparison(_sweep_table(), ["equation"])
-    ax, low = fig.axes[:2]
-    assert len(ax.containers) == 4  # 2 equations (colour) x 2 solitons (marker)
-    labels = [t.get_text() for t in ax.get_legend().get_texts()]
-    assert labels == ["measured = predicted", "kdv", "mkdv", "soliton 0", "soliton 1"]
+    top_kdv, top_mkdv, low_kdv, _low_mkdv = fig.axes[:4]
+    assert [top_kdv.get_title(), top_mkdv.get_title()] == ["kdv", "mkdv"]
+    assert len(top_kdv.containers) == 2
+    assert len(top_mkdv.containers) == 2
+    # No error bars on the comparison (they would span the axis for a poor measurement); the
+    # measurement's relative uncertainty is drawn in the error panel instead.
+    assert all(not c.has_yerr for c in top_kdv.containers)
+    assert "Delta x" in top_kdv.get_ylabel()
+    assert "Delta x" in fig.get_supxlabel()
+    labels = [t.get_text() for t in top_kdv.get_legend().get_texts()]
+    assert labels == ["measured = predicted", "soliton 0", "soliton 1"]
     # The identity line spans the data.
-    x, y = ax.get_lines()[0].get_data()
+    x, y = top_kdv.get_lines()[0].get_data()
     np.testing.assert_array_equal(x, y)
-    # The lower panel shows the relative errors put in: 1e-7 (soliton 0) and 2e-7 (soliton 1).
-    y = np.concatenate([line.get_ydata() for line in low.get_lines()])
-    assert y.size == 12
+    # The lower panel: relative errors put in, 1e-7 (soliton 0) and 2e-7 (soliton 1), and the
+    # relative uncertainty 1e-7 beside each point.
+    y = np.concatenate([line.get_ydata() for line in low_kdv.get_lines() if len(line.get_ydata())])
+    assert y.size == 12  # 3 runs x 2 solitons, errors and uncertainties
     np.testing.assert_allclose(np.sort(y)[[0, -1]], [1e-7, 2e-7], rtol=1e-6)
 
 
-def test_relative_error_series_and_values() -> None:
+def test_shift_comparison_many_groups_share_one_panel() -> None:
+    table = _sweep_table()
+    table["equation"] = [f"eq{i % 5}" for i in range(len(table))]
+    fig = plots.shift_comparison(table, ["equation"], residuals=False)
+    assert len(fig.axes) == 1
+    sizes = {c.lines[0].get_markersize() for c in fig.axes[0].containers}
+    assert len(sizes) == 5  # one marker size per group: coinciding points stay visible
+
+
+def test_relative_error_joins_points_of_a_one_dimensional_sweep() -> None:
     table = _sweep_table()
     fig = plots.relative_error(table, "k2", ["equation"])
     ax = fig.axes[0]
-    assert len(ax.get_lines()) == 4  # 2 equations x 2 solitons
-    y = np.concatenate([line.get_ydata() for line in ax.get_lines()])
+    curves = [line for line in ax.get_lines() if len(line.get_xdata()) > 0]
+    assert len(curves) == 4  # 2 equations x 2 solitons, each a joined curve of 3 points
+    assert all(line.get_linestyle() != "None" and len(line.get_xdata()) == 3 for line in curves)
+    y = np.concatenate([line.get_ydata() for line in curves])
     np.testing.assert_allclose(np.sort(np.unique(np.round(y, 12))), [1e-7, 2e-7], rtol=1e-6)
+    legend = [t.get_text() for t in fig.legends[0].get_texts()]
+    assert legend == ["kdv", "mkdv", "soliton 0", "soliton 1"]  # groups, then solitons
     with pytest.raises(ConfigError, match="no column 'kappa2'"):
         plots.relative_error(table, "kappa2")
 
 
-# --- the command, on a store written through the store's own writer ------------------------------
+def test_relative_error_of_a_random_draw_has_points_and_one_colour_bar() -> None:
+    # A Latin-hypercube-like draw: every run has its own (ratio, gap); lines between runs would
+    # mean nothing, nor would a legend entry per run.
+    rng = np.random.default_rng(7)
+    rows = []
+    for run in range(12):
+        ratio, gap = rng.uniform(0.1, 0.6), rng.uniform(12, 20)
+        for s in (0, 1):
+            rows.append(
+                {
+                    "run_id": run,
+                    "ratio": ratio,
+                    "gap": gap,
+                    "soliton": s,
+                    "shift_predicted": 1.0 + s,
+                    "shift_measured": (1.0 + s) * (1 + 1e-6 * (run + 1)),
+                }
+            )
+    fig = plots.relative_error(pd.DataFrame(rows), "ratio", color_by="gap")
+    ax = fig.axes[0]
+    assert all(len(line.get_xdata()) == 0 for line in ax.get_lines())  # no joined lines
+    assert sum(len(c.get_offsets()) for c in ax.collections) == 24  # every point, scattered
+    assert [t.get_text() for t in fig.legends[0].get_texts()] == ["soliton 0", "soliton 1"]
+    assert fig.axes[-1].get_ylabel() == "gap"  # the colour bar
+    # Without colour_by, a series of single points is drawn as points, not a one-point line.
+    fig = plots.relative_error(pd.DataFrame(rows), "ratio", ["run_id"])
+    drawn = [line for line in fig.axes[0].get_lines() if len(line.get_xdata())]
+    assert len(drawn) == 24
+    assert all(line.get_linestyle() == "None" for line in drawn)
 
 
-@dataclass(frozen=True)
-class _Spec:
-    run_id: int
-    params: dict[str, Any]
-    model: dict[str, Any] = field(
-        default_factory=lambda: {
-            "equation": {"name": "kdv", "a": 6.0},
-            "n": 512,
-            "length": 80.0,
-            "scheme": "etdrk4",
-            "dt": 2.5e-3,
-            "tol": None,
-        }
-    )
-    initial: dict[str, Any] = field(default_factory=dict)
-    run: dict[str, Any] = field(default_factory=lambda: {"t_end": 16.0})
+# --- stores: the equation comes from the runs table ----------------------------------------------
+
+SECH2 = """
+[sweep]
+name = "{name}"
+
+[[vary]]
+gamma = [0.0, 0.02]
+
+[model]
+equation = {equation}
+points = 256
+length = 40.0
+scheme = "etdrk4"
+dt = 1e-3
+
+[initial]
+kind = "sech2"
+height = 2.0
+scale = 1.0
+center = -10.0
+
+[run]
+end = 2.0
+frame_every = 0.1
+keep_frames = true
+"""
+
+PAIRS = """
+[sweep]
+name = "pairs"
+
+[[vary]]
+k2 = [0.45, 0.5, 0.55, 0.6]
+gamma = [0.0, 0.0, 0.0, 0.001]
+
+[model]
+equation = { preset = "kdv", g = "gamma" }
+points = "auto"
+length = "auto"
+scheme = "etdrk4"
+dt = 0.01
+
+[initial]
+kind = "solitons"
+kappa = [0.8, "k2"]
+position = "auto"
+
+[run]
+end = "auto"
+frame_every = 0.2
+keep_frames = true
+keep_stride = 2
+"""
 
 
-@dataclass(frozen=True)
-class _Sweep:
-    text: str
-    runs: tuple[_Spec, ...]
-    name: str = "plots-test"
-    path: Path = Path("plots-test.toml")
-    parameters: tuple[str, ...] = ("k2",)
-
-    @property
-    def digest(self) -> str:
-        return hashlib.sha256(self.text.encode()).hexdigest()
-
-
-def test_plot_command_on_a_store(tmp_path: Path) -> None:
-    from kdvsweep.sweep.runner import RunResult, base_row
-    from kdvsweep.sweep.store import Store
-
-    specs = tuple(_Spec(i, {"k2": k2}) for i, k2 in enumerate((0.4, 0.5, 0.6, 0.7)))
-    sweep = _Sweep("k2 = [0.4, 0.5, 0.6, 0.7]", specs)
-    results = []
-    for spec in specs:
-        frames, times, grid, kappas = exact_record(spec.params["k2"])
-        table = analyse_run(frames, times, grid, "kdv", kappas=kappas).table
-        rows = [{"run_id": spec.run_id, **r} for r in table.to_dict("records")]
-        row = base_row(spec)
-        row["frames_stored"] = len(times)
-        results.append(RunResult(row, rows, frames, times))
-    out = tmp_path / "store"
+def make_store(folder: Path, text: str, name: str) -> Path:
+    """Run a sweep file serially through the runner into a store (what the farm does)."""
+    path = folder / f"{name}.toml"
+    path.write_text(text, encoding="utf-8")
+    sweep = load_sweep(path)
+    out = folder / name
     with Store.open(out, sweep) as store:
-        store.write(results)
+        store.write([execute(spec) for spec in sweep.runs])
+    return out
+
+
+@pytest.fixture(scope="module")
+def damped(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    folder = tmp_path_factory.mktemp("damped")
+    return make_store(
+        folder, SECH2.format(name="damped", equation='{ preset = "kdv", g = "gamma" }'), "damped"
+    )
+
+
+@pytest.fixture(scope="module")
+def pairs(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    return make_store(tmp_path_factory.mktemp("pairs"), PAIRS, "pairs")
+
+
+def test_space_time_of_a_damped_run_shows_its_damping(damped: Path) -> None:
+    res = load(damped)
+    plans = {p.stem: p for p in plots.plan_figures(res, runs=[1])}
+    assert plans["shift_comparison"].reason.startswith("the store has no soliton rows")
+    fig, _ = plots.draw(res, plans["spacetime_run1"])
+    title = fig.get_suptitle()
+    # The run's own equation, u_t + 6 u u_x + u_xxx = -0.02 u, not the preset's undamped one.
+    assert title.splitlines()[0] == kv.Equation.kdv(g=0.02).describe()
+    assert "-0.02 u" in title
+    assert "gamma = 0.02" in title
+
+
+def test_gardner_store_plots_the_field_and_says_why_no_tracks(tmp_path: Path) -> None:
+    out = make_store(tmp_path, SECH2.format(name="gardner", equation='{ preset = "gardner" }'), "g")
+    res = load(out)
+    plans = {p.stem: p for p in plots.plan_figures(res, runs=[0])}
+    plan = plans["spacetime_run0"]
+    assert plan.drawable
+    assert len(plan.notes) == 1
+    assert plan.notes[0].startswith("field only: the collision analysis")
+    assert kv.Equation.gardner().describe() in plan.notes[0]
+    fig, _ = plots.draw(res, plan)
+    assert not lines_with(fig.axes[0], plots.TRAJECTORY_GID)
+
+
+def test_perturbed_runs_are_left_out_of_the_shift_figures(pairs: Path) -> None:
+    res = load(pairs)
+    plans = {p.stem: p for p in plots.plan_figures(res)}
+    comparison = plans["shift_comparison"]
+    assert comparison.drawable
+    assert comparison.notes == (
+        "left out: theory predicts phase shifts for unperturbed KdV and focusing mKdV only; "
+        "1 run(s) have u_t + 6 u u_x + u_xxx = -0.001 u",
+    )
+    fig, _ = plots.draw(res, comparison)
+    points = sum(len(c.lines[0].get_xdata()) for c in fig.axes[0].containers)
+    assert points == 6  # 3 unperturbed runs x 2 solitons
+
+
+def test_store_without_equation_columns_names_the_missing_column(pairs: Path) -> None:
+    res = load(pairs)
+    res.runs = res.runs.drop(columns=[c for c in res.runs.columns if c.startswith("eq_")])
+    plans = {p.stem: p for p in plots.plan_figures(res, runs=[0])}
+    assert "eq_a" in plans["spacetime_run0"].reason
+    assert "eq_a" in plans["shift_comparison"].reason
+
+
+def test_plot_command_on_a_store(
+    pairs: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
     figures = tmp_path / "figures"
-    assert plots.main([str(out), "--into", str(figures), "--run", "2"]) == 0
+    assert cli.main(["plot", str(pairs), "--into", str(figures), "--run", "2"]) == 0
+    captured = capsys.readouterr()
     names = sorted(p.name for p in figures.iterdir())
     assert names == [
         "relative_error_k2.pdf",
@@ -171,6 +354,37 @@ def test_plot_command_on_a_store(tmp_path: Path) -> None:
         "spacetime_run2.pdf",
         "spacetime_run2.png",
     ]
+    assert captured.out.split() == [
+        str(figures / n)
+        for n in (
+            "shift_comparison.png",
+            "shift_comparison.pdf",
+            "relative_error_k2.png",
+            "relative_error_k2.pdf",
+            "spacetime_run2.png",
+            "spacetime_run2.pdf",
+        )
+    ]
     assert all((figures / name).stat().st_size > 1000 for name in names)
+    assert (figures / "spacetime_run2.png").read_bytes()[:8] == PNG_MAGIC
+    # The note about the perturbed run is one line per figure on stderr.
+    assert "kdvsweep plot: shift_comparison: left out: theory predicts" in captured.err
+
+
+def test_plot_of_a_run_not_in_the_store_fails_in_one_line(
+    pairs: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    assert cli.main(["plot", str(pairs), "--into", str(tmp_path / "f"), "--run", "99"]) == 2
+    err = capsys.readouterr().err
+    assert err.splitlines() == [
+        f"kdvsweep: error: plot: run 99 is not in the store {pairs} (stored run ids 0..3)"
+    ]
+    assert not (tmp_path / "f").exists()  # nothing drawn before the refusal
     # A store that does not exist is an error message and exit status 2, not a traceback.
-    assert plots.main([str(tmp_path / "nothing")]) == 2
+    assert cli.main(["plot", str(tmp_path / "nothing")]) == 2
+    assert len(capsys.readouterr().err.strip().splitlines()) == 1
+
+
+def test_unknown_format_is_refused_before_drawing(pairs: Path, tmp_path: Path) -> None:
+    assert cli.main(["plot", str(pairs), "--into", str(tmp_path / "f"), "--formats", "gif"]) == 2
+    assert not (tmp_path / "f").exists()

@@ -9,14 +9,12 @@ implementation in :mod:`kdvsweep.reference`. Every figure is the best of several
 load.
 
 The state is a realistic one: a KdV 2-soliton (kappa = 1 and 0.6) on a domain of length 80.
-Run ``python -m kdvsweep.bench --help`` for the options.
+:func:`run_benchmark` returns the figures as :class:`Row` s; ``kdvsweep bench`` prints them.
 """
 
 from __future__ import annotations
 
-import argparse
 import math
-import sys
 import time
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
@@ -25,6 +23,7 @@ import numpy as np
 
 from . import _core
 from .exact import multisoliton
+from .exceptions import ConfigError
 from .model import Equation, Grid
 from .reference import SCHEMES, ReferenceSimulation
 from .simulation import Simulation
@@ -173,102 +172,58 @@ def time_scheme(n: int, scheme: str, budget: Budget) -> Row:
     return Row(n, scheme, 1e6 * figures[0], 1e6 * floor, 1e6 * figures[1])
 
 
-def _mark(met: bool | None) -> str:
-    return "" if met is None else ("ok" if met else "MISS")
-
-
-def format_table(rows: Sequence[Row], budget: Budget) -> str:
-    """The table of figures and ratios, with the targets flagged where they apply."""
-    lines = [
-        f"KdV 2-soliton (kappa = {KAPPAS[0]:g}, {KAPPAS[1]:g}) on L = {LENGTH:g}; dt = {DT:g}, "
-        f"adaptive tol = {TOL:g}; best of {budget.repeats} timings of >= {budget.min_time:g} s",
-        "microseconds per step (adaptive: per accepted step); "
-        f"floor = {TRANSFORMS_PER_STEP} r2c + {TRANSFORMS_PER_STEP} c2r transforms in Rust",
-        "",
-        f"{'n':>5}  {'scheme':<9}{'rust':>9}{'floor':>9}{'numpy':>10}"
-        f"{'rust/floor':>12}{'':6}{'numpy/rust':>12}",
-    ]
-    for r in rows:
-        line = (
-            f"{r.n:>5}  {r.scheme:<9}{r.rust_us:>9.2f}{r.floor_us:>9.2f}{r.numpy_us:>10.1f}"
-            f"{r.rust_over_floor:>12.2f} {_mark(r.floor_met()):<5}{r.numpy_over_rust:>12.1f} "
-            f"{_mark(r.speedup_met())}"
-        )
-        lines.append(line.rstrip())
-    lines.append("")
-    lines.append(
-        f"targets: rust/floor <= {FLOOR_TARGET:g} at n = {', '.join(map(str, FLOOR_SIZES))}; "
-        f"numpy/rust >= {SPEEDUP_TARGET:g} at n = {', '.join(map(str, SPEEDUP_SIZES))}"
-    )
-    if any(math.isnan(r.floor_us) for r in rows):
-        lines.append("floor not measured: this build of kdvsweep._core has no fft_floor")
-    return "\n".join(lines)
-
-
 def targets_met(rows: Sequence[Row]) -> bool:
     """True when no applicable target is missed."""
     return all(r.floor_met() is not False and r.speedup_met() is not False for r in rows)
 
 
-def _int_list(text: str) -> list[int]:
-    try:
-        values = [int(part) for part in text.split(",") if part.strip()]
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"expected integers like 256,512, got {text!r}") from None
-    bad = [v for v in values if v < 16 or v % 2]
-    if not values or bad:
-        raise argparse.ArgumentTypeError(f"grid sizes must be even and >= 16, got {text!r}")
-    return values
+QUICK = Budget(repeats=3, min_time=0.02)
+FULL = Budget(repeats=7, min_time=0.1)
 
 
-def _scheme_list(text: str) -> list[str]:
-    names = [part.strip() for part in text.split(",") if part.strip()]
-    unknown = [s for s in names if s not in SCHEMES]
-    if not names or unknown:
-        raise argparse.ArgumentTypeError(
-            f"unknown scheme(s) {unknown or text!r}; expected a comma list of {', '.join(SCHEMES)}"
+def run_benchmark(
+    sizes: Sequence[int] = SIZES,
+    schemes: Sequence[str] = SCHEMES,
+    budget: Budget = FULL,
+    on_row: Callable[[Row], None] | None = None,
+) -> list[Row]:
+    """Time every scheme at every grid size; ``on_row`` sees each row as soon as it is measured.
+
+    Raises
+    ------
+    ConfigError
+        A size is odd or below 16, or a scheme is unknown.
+    """
+    bad = [n for n in sizes if n < 16 or n % 2]
+    if bad or not sizes:
+        raise ConfigError(f"bench: grid sizes must be even and >= 16, got {list(sizes)}")
+    unknown = [s for s in schemes if s not in SCHEMES]
+    if unknown or not schemes:
+        raise ConfigError(
+            f"bench: unknown scheme(s) {unknown or '(none given)'}; expected some of "
+            f"{', '.join(SCHEMES)}"
         )
-    return names
-
-
-def build_parser(prog: str = "python -m kdvsweep.bench") -> argparse.ArgumentParser:
-    """The command-line options of the benchmark."""
-    parser = argparse.ArgumentParser(prog=prog, description=__doc__.split("\n\n")[0])
-    parser.add_argument(
-        "--n",
-        type=_int_list,
-        default=list(SIZES),
-        metavar="LIST",
-        help="grid sizes, comma separated (default 256,512,1024,2048)",
-    )
-    parser.add_argument(
-        "--schemes",
-        type=_scheme_list,
-        default=list(SCHEMES),
-        metavar="LIST",
-        help=f"schemes, comma separated (default {','.join(SCHEMES)})",
-    )
-    parser.add_argument(
-        "--quick", action="store_true", help="fewer and shorter timings (rougher figures)"
-    )
-    parser.add_argument(
-        "--strict", action="store_true", help="exit with status 1 when a target is missed"
-    )
-    return parser
-
-
-def main(argv: list[str] | None = None) -> int:
-    """Run the benchmark, print the table; return the exit status."""
-    args = build_parser().parse_args(argv)
-    budget = Budget(repeats=3, min_time=0.02) if args.quick else Budget(repeats=7, min_time=0.1)
     rows = []
-    for n in args.n:
-        for scheme in args.schemes:
-            rows.append(time_scheme(n, scheme, budget))
-            print(f"  measured n = {n} {scheme}", file=sys.stderr, flush=True)
-    print(format_table(rows, budget))
-    return 1 if args.strict and not targets_met(rows) else 0
+    for n in sizes:
+        for scheme in schemes:
+            row = time_scheme(n, scheme, budget)
+            rows.append(row)
+            if on_row is not None:
+                on_row(row)
+    return rows
 
 
-if __name__ == "__main__":
-    sys.exit(main())
+__all__ = [
+    "FLOOR_SIZES",
+    "FLOOR_TARGET",
+    "FULL",
+    "QUICK",
+    "SIZES",
+    "SPEEDUP_SIZES",
+    "SPEEDUP_TARGET",
+    "Budget",
+    "Row",
+    "run_benchmark",
+    "targets_met",
+    "time_scheme",
+]

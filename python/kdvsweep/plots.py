@@ -1,9 +1,13 @@
-"""Figures of collisions and sweeps, and the ``kdvsweep plot OUT`` command.
+"""Figures of collisions and sweeps, and which of them a store can give.
 
 * :func:`spacetime`: the space-time diagram of one run, with the tracked trajectories and the
   fitted asymptotes drawn over it (the phase shift is the offset between the two dashed lines);
 * :func:`shift_comparison`: measured against predicted shift over a sweep, with the identity line;
 * :func:`relative_error`: relative shift error against a swept parameter.
+
+The store level: :func:`plan_figures` lists the figures of a store (each with the one-line reason
+when it cannot be drawn), :func:`draw` makes one, :func:`iter_figures` and :func:`plot_store` make
+and save them all. Each run's equation is read from the store (``eq_a`` .. ``eq_v``, ``dealias``).
 
 Figures are built on :class:`matplotlib.figure.Figure` directly (no pyplot state), so plotting is
 safe from worker threads and never opens a window. :func:`save` writes PNG and PDF.
@@ -11,13 +15,13 @@ safe from worker threads and never opens a window. :func:`save` writes PNG and P
 
 from __future__ import annotations
 
-import argparse
+import contextlib
 import math
 import os
-import sys
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
+from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any, cast
 
 import numpy as np
 import pandas as pd
@@ -29,6 +33,9 @@ from matplotlib.figure import Figure
 from .analysis import RunAnalysis, analyse_run
 from .exceptions import ConfigError, KdvsweepError
 from .model import Equation, Grid
+
+if TYPE_CHECKING:
+    from .results import Results
 
 FORMATS = ("png", "pdf")
 # Large type and thick lines: these figures are meant for slides.
@@ -104,11 +111,11 @@ def spacetime(
     centre = _collision_point(analysis, grid) if zoom and analysis is not None else None
     fig = _figure(13.0 if centre else 7.5, 5.8)
     axes = fig.subplots(1, 2 if centre else 1, squeeze=False)[0]
-    image = _field(axes[0], u, t, grid, 0)
+    image, scale = _field(axes[0], u, t, grid, 0)
     if analysis is not None:
         _draw_tracks(axes[0], analysis, t, grid.length, 0.0, True, _is_signed(u))
     axes[0].set_xlabel("x")
-    if centre is not None:
+    if centre is not None and analysis is not None:
         x_c, t_c, half_x, half_t = centre
         shift = round(x_c / grid.dx)
         _field(axes[1], u, t, grid, shift)
@@ -117,12 +124,50 @@ def spacetime(
         axes[1].set_ylim(max(t[0], t_c - half_t), min(t[-1], t_c + half_t))
         axes[1].set_xlabel(f"x − x_c   (x_c = {shift * grid.dx:.4g})")
         axes[1].set_title("collision")
-        axes[0].add_patch(_box(x_c, t_c, half_x, half_t))
+        for image_x in (x_c - grid.length, x_c, x_c + grid.length):  # the box wraps like the field
+            axes[0].add_patch(_box(image_x, t_c, half_x, half_t))
     axes[0].set_ylabel("t")
-    fig.colorbar(image, ax=list(axes), label="u", pad=0.01)
+    bar = fig.colorbar(image, ax=list(axes), pad=0.01)
+    _scale_bar(bar, scale)
     if title:
         fig.suptitle(title)
     return fig
+
+
+@dataclass(frozen=True)
+class _Scale:
+    """The colour scale of a field: its norm, colour map and the words for its colour bar."""
+
+    cmap: str
+    norm: mcolors.Normalize
+    label: str
+    ticks: tuple[float, ...]
+
+
+def _scale(u: np.ndarray) -> _Scale:
+    """Signed fields on a symmetric-log scale, one-signed ones on a square-root (power) scale: the
+    solitons and the small radiation behind them are both visible. The colour bar says which."""
+    vmax = float(np.abs(u).max()) or 1.0
+    if _is_signed(u):
+        linthresh = 0.02 * vmax
+        inner = [float(f"{v:.1g}") for v in (linthresh, 0.2 * vmax)]
+        ticks = tuple(sorted({0.0, vmax, -vmax, *inner, *(-v for v in inner)}))
+        label = f"u   (symlog scale, linear within ±{linthresh:.2g})"
+        norm: mcolors.Normalize = mcolors.SymLogNorm(linthresh, vmin=-vmax, vmax=vmax)
+        return _Scale("RdBu_r", norm, label, ticks)
+    norm = mcolors.PowerNorm(0.5, vmin=0.0, vmax=vmax)
+    # Round ticks (one significant digit) spread evenly in colour: 1%, 10%, 25%, 50% of the top.
+    ticks = tuple(sorted({0.0, vmax, *(float(f"{vmax * f:.1g}") for f in (0.01, 0.1, 0.25, 0.5))}))
+    return _Scale("Greys", norm, "u   (power scale, γ = 0.5)", ticks)
+
+
+def _scale_bar(bar: Any, scale: _Scale) -> None:
+    from matplotlib.ticker import FixedLocator, FuncFormatter, NullLocator
+
+    bar.set_label(scale.label, labelpad=8)
+    bar.ax.yaxis.set_major_locator(FixedLocator(list(scale.ticks)))
+    bar.ax.yaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:.2g}"))
+    bar.ax.yaxis.set_minor_locator(NullLocator())
 
 
 def _box(x_c: float, t_c: float, half_x: float, half_t: float) -> Any:
@@ -133,27 +178,22 @@ def _box(x_c: float, t_c: float, half_x: float, half_t: float) -> Any:
     )
 
 
-def _field(ax: Axes, u: np.ndarray, t: np.ndarray, grid: Grid, shift: int) -> Any:
+def _field(ax: Axes, u: np.ndarray, t: np.ndarray, grid: Grid, shift: int) -> tuple[Any, _Scale]:
     """Draw the field; ``shift`` grid steps re-centre it (periodic roll)."""
-    signed = _is_signed(u)
-    vmax = float(np.abs(u).max()) or 1.0
-    if signed:
-        cmap, norm = "RdBu_r", mcolors.SymLogNorm(0.02 * vmax, vmin=-vmax, vmax=vmax)
-    else:
-        cmap, norm = "Greys", mcolors.PowerNorm(0.5, vmin=0.0, vmax=vmax)
+    scale = _scale(u)
     x0, x1 = -0.5 * grid.length, 0.5 * grid.length
     image = ax.imshow(
         np.roll(u, -shift, axis=1),
         origin="lower",
         aspect="auto",
-        cmap=cmap,
-        norm=norm,
+        cmap=scale.cmap,
+        norm=scale.norm,
         interpolation="nearest",
         extent=(x0 - 0.5 * grid.dx, x1 - 0.5 * grid.dx, t[0], t[-1]),
     )
     ax.set_xlim(x0, x1)
     ax.set_ylim(t[0], t[-1])
-    return image
+    return image, scale
 
 
 def _is_signed(u: np.ndarray) -> bool:
@@ -219,7 +259,7 @@ def _draw_tracks(
                     path_effects=_EDGE[signed],
                 )
     # Mid-collision the solitons are not identified; show every extremum found there instead.
-    gap = [f for f in range(t.size) if not tracks.linked[f] and f < len(tracks.extrema)]
+    gap = _collision_frames(tracks)
     if gap:
         px = np.concatenate([tracks.extrema[f].x for f in gap])
         pt = np.concatenate([np.full(len(tracks.extrema[f]), t[f]) for f in gap])
@@ -238,13 +278,55 @@ def _draw_tracks(
         )
         if legend:
             handles += dots
-    if tracks.n_solitons and legend:
+    if analysis.fits and legend:
         handles += ax.plot(
             [], [], color="0.2", lw=1.3, ls=(0, (4, 3)), label="fitted asymptote, extrapolated"
         )
-        ax.get_figure().legend(
+    if handles and legend:
+        ax.figure.legend(
             handles=handles, loc="outside lower center", ncols=min(len(handles), 2), frameon=False
         )
+
+
+def _collision_frames(tracks: Any) -> list[int]:
+    """Frames of the unlinked stretches during which two solitons passed each other.
+
+    A stretch counts when the lap index ``floor((X_i - X_j) / L)`` of some pair differs between
+    the linked frames on either side of it; a stretch where a peak was merely missed (a soliton
+    crossing the box edge, say) leaves every lap index as it was and is not marked.
+    """
+    linked = np.asarray(tracks.linked, dtype=bool)[: len(tracks.extrema)]
+    if tracks.n_solitons < 2 or linked.all():
+        return []
+    laps = tracks.laps()
+    frames: list[int] = []
+    f = 0
+    while f < linked.size:
+        if linked[f]:
+            f += 1
+            continue
+        end = f
+        while end < linked.size and not linked[end]:
+            end += 1
+        if f > 0 and end < linked.size and np.any(laps[f - 1] != laps[end]):
+            frames.extend(range(f, end))
+        f = end
+    return frames
+
+
+# --- sweeps ------------------------------------------------------------------------------------
+
+_MARKERS = ("o", "s", "^", "D", "v", "P")
+_LINES = ("-", "--", ":", "-.")
+#: Axis labels with their symbols (mathtext).
+PREDICTED_LABEL = r"predicted phase shift $\Delta x_{\mathrm{theory}}$"
+MEASURED_LABEL = r"measured phase shift $\Delta x_{\mathrm{meas}}$"
+RELATIVE_LABEL = (
+    r"relative error $|\Delta x_{\mathrm{meas}} - \Delta x_{\mathrm{theory}}|"
+    r"\,/\,|\Delta x_{\mathrm{theory}}|$"
+)
+#: Most groups drawn as panels side by side in :func:`shift_comparison`.
+MAX_PANELS = 4
 
 
 def _with_errors(solitons: pd.DataFrame) -> pd.DataFrame:
@@ -255,6 +337,13 @@ def _with_errors(solitons: pd.DataFrame) -> pd.DataFrame:
     return df
 
 
+def _value(v: Any) -> str:
+    """A parameter value for a label: numbers to 4 significant digits."""
+    if isinstance(v, float | np.floating):
+        return f"{float(v):.4g}"
+    return str(v)
+
+
 def _groups(df: pd.DataFrame, by: Sequence[str]) -> list[tuple[str, pd.DataFrame]]:
     by = [c for c in by if c in df.columns]
     if not by:
@@ -263,14 +352,11 @@ def _groups(df: pd.DataFrame, by: Sequence[str]) -> list[tuple[str, pd.DataFrame
     for key, part in df.groupby(by, sort=True, dropna=False):
         values = key if isinstance(key, tuple) else (key,)
         label = ", ".join(
-            f"{c} {v:g}" if isinstance(v, float) else f"{v}" if c == "equation" else f"{c} {v}"
+            _value(v) if c == "equation" else f"{c} {_value(v)}"
             for c, v in zip(by, values, strict=True)
         )
         out.append((label, part))
     return out
-
-
-_MARKERS = ("o", "s", "^", "D", "v", "P")
 
 
 def shift_comparison(
@@ -278,77 +364,84 @@ def shift_comparison(
 ) -> Figure:
     """Measured against predicted phase shift, one marker per soliton of each run.
 
+    Groups that would lie on top of each other (KdV and mKdV pairs of the same kappas have the
+    same shifts) get a panel each, side by side with shared axes, up to :data:`MAX_PANELS`;
+    beyond that they share one panel.
+
     Parameters
     ----------
     solitons
         Columns ``shift_predicted``, ``shift_measured`` (optionally ``soliton`` for the marker,
-        ``shift_uncertainty`` for error bars and the columns named in ``group_by``).
+        ``shift_uncertainty`` for the measurement's resolution and the columns of ``group_by``).
     group_by
-        Columns that split the points into coloured series (e.g. ``["equation", "polarity"]``).
+        Columns that split the points into groups (e.g. ``["equation", "polarity"]``).
     residuals
-        Add a panel below with the relative error on a log scale: on the identity line alone,
-        errors of 1e-6 are invisible.
+        Add a row below with the relative error on a log scale (on the identity line alone,
+        errors of 1e-6 are invisible), and there the relative uncertainty of each measurement as a
+        grey bar: an error below its bar is within the resolution of the measurement.
 
     Returns
     -------
     matplotlib.figure.Figure
-        The first axes hold the comparison (one errorbar container per group and soliton).
+        The first axes hold the first group's comparison (one errorbar container per soliton).
     """
     df = _with_errors(solitons.dropna(subset=["shift_predicted", "shift_measured"]))
-    fig = _figure(6.5, 7.5 if residuals else 6.0)
-    if residuals:
-        ax, low = fig.subplots(2, 1, sharex=True, height_ratios=(3, 1.2))
-    else:
-        ax, low = fig.add_subplot(), None
+    groups = _groups(df, group_by)
+    panels = len(groups) if len(groups) <= MAX_PANELS else 1
+    fig = _figure(max(6.5, 4.2 * panels + 1.0), 7.5 if residuals else 6.0)
+    grid = fig.subplots(
+        2 if residuals else 1,
+        panels,
+        sharex=True,
+        sharey="row",
+        squeeze=False,
+        height_ratios=(3, 1.3) if residuals else None,
+    )
+    tops: list[Axes] = list(grid[0])
+    lows: list[Axes] = list(grid[1]) if residuals else []
     both = df[["shift_predicted", "shift_measured"]].to_numpy()
     lo, hi = (float(np.nanmin(both)), float(np.nanmax(both))) if len(df) else (-1.0, 1.0)
     pad = 0.06 * (hi - lo or 1.0)
     ends = [lo - pad, hi + pad]
-    ax.plot(ends, ends, color="0.5", lw=1.2, zorder=1, label="measured = predicted")
     solitons_seen = sorted(df["soliton"].unique()) if "soliton" in df else [0]
-    for g, (label, part) in enumerate(_groups(df, group_by)):
+    for ax in tops:
+        ax.plot(ends, ends, color="0.5", lw=1.2, zorder=1, label="measured = predicted")
+    for g, (label, part) in enumerate(groups):
+        p = g if panels > 1 else 0
+        ax, low = tops[p], (lows[p] if residuals else None)
         color = SOLITON_COLORS[g % len(SOLITON_COLORS)]
+        if panels > 1 and label:
+            ax.set_title(label)
         for s in solitons_seen:
             sub = part[part["soliton"] == s] if "soliton" in part else part
             if sub.empty:
                 continue
-            yerr = sub["shift_uncertainty"] if "shift_uncertainty" in sub else None
-            name = label or "runs"
+            marker = _MARKERS[int(s) % len(_MARKERS)]
             ax.errorbar(
                 sub["shift_predicted"],
                 sub["shift_measured"],
-                yerr=yerr,
                 ls="none",
-                marker=_MARKERS[int(s) % len(_MARKERS)],
-                ms=7,
+                marker=marker,
+                ms=7 + (2 * (len(groups) - 1 - g) if panels == 1 else 0),
                 mfc="none",
                 mew=1.6,
                 color=color,
-                label=name if s == solitons_seen[0] else None,
+                label=label if label and s == solitons_seen[0] and panels == 1 else None,
                 zorder=2 + g,
             )
             if low is not None:
-                keep = sub["shift_rel_error"] > 0
-                low.plot(
-                    sub["shift_predicted"][keep],
-                    sub["shift_rel_error"][keep],
-                    ls="none",
-                    marker=_MARKERS[int(s) % len(_MARKERS)],
-                    ms=6,
-                    mfc="none",
-                    mew=1.4,
-                    color=color,
-                )
-    ax.set_xlim(*ends)
-    ax.set_ylim(*ends)
-    ax.set_ylabel("measured shift")
-    ax.grid(alpha=0.3)
-    handles, labels = ax.get_legend_handles_labels()
+                _residuals(low, sub, marker, color)
+    for ax in tops:
+        ax.set_xlim(*ends)
+        ax.set_ylim(*ends)
+        ax.grid(alpha=0.3)
+    tops[0].set_ylabel(MEASURED_LABEL)
+    handles, labels = tops[0].get_legend_handles_labels()
     if len(solitons_seen) > 1:
         # Marker shapes tell the solitons apart (0 = leftmost at the start).
         for s in solitons_seen:
             handles.append(
-                ax.plot(
+                tops[0].plot(
                     [],
                     [],
                     ls="none",
@@ -359,15 +452,61 @@ def shift_comparison(
                 )[0]
             )
             labels.append(f"soliton {s}")
-    ax.legend(handles, labels, loc="upper left")
-    if low is not None:
-        low.set_yscale("log")
-        low.set_ylabel("relative error")
-        low.set_xlabel("predicted shift (theory)")
-        low.grid(alpha=0.3, which="major")
-    else:
-        ax.set_xlabel("predicted shift (theory)")
+    tops[0].legend(handles, labels, loc="upper left", fontsize=10)
+    bottom = lows if residuals else tops
+    for ax in bottom:
+        ax.set_xlabel(PREDICTED_LABEL if panels == 1 else r"$\Delta x_{\mathrm{theory}}$")
+    if residuals:
+        lows[0].set_ylabel("relative error")
+        for low in lows:
+            low.set_yscale("log")
+            low.grid(alpha=0.3, which="major")
+        if "shift_uncertainty" in df and df["shift_uncertainty"].notna().any():
+            lows[0].plot(
+                [], [], ls="none", marker="_", ms=10, mew=2, color="0.6", label="resolution"
+            )
+            lows[0].legend(loc="best", fontsize=9)
+    if panels > 1:
+        fig.supxlabel(PREDICTED_LABEL, fontsize=14)
     return fig
+
+
+def _residuals(low: Axes, sub: pd.DataFrame, marker: str, color: str) -> None:
+    """Relative errors, and beside them the relative uncertainty of the measurement (grey)."""
+    keep = sub["shift_rel_error"] > 0
+    low.plot(
+        sub["shift_predicted"][keep],
+        sub["shift_rel_error"][keep],
+        ls="none",
+        marker=marker,
+        ms=6,
+        mfc="none",
+        mew=1.4,
+        color=color,
+        zorder=3,
+    )
+    if "shift_uncertainty" in sub:
+        rel = sub["shift_uncertainty"].abs() / sub["shift_predicted"].abs()
+        ok = np.isfinite(rel) & (rel > 0)
+        low.plot(
+            sub["shift_predicted"][ok],
+            rel[ok],
+            ls="none",
+            marker="_",
+            ms=10,
+            mew=2,
+            color="0.6",
+            zorder=2,
+        )
+
+
+def _is_slice(df: pd.DataFrame, parameter: str, others: Sequence[str]) -> bool:
+    """True when, within each series, ``parameter`` takes each value once and ``others`` are fixed:
+    the points of a series then form a curve worth joining by a line."""
+    if df.empty or df[parameter].nunique() < 2:
+        return False
+    varying = [c for c in others if c in df.columns and df[c].nunique(dropna=False) > 1]
+    return not varying and not df[parameter].duplicated().any()
 
 
 def relative_error(
@@ -375,64 +514,143 @@ def relative_error(
     parameter: str,
     group_by: Sequence[str] = (),
     ax: Axes | None = None,
+    color_by: str | None = None,
 ) -> Figure:
     """Relative shift error ``|measured - predicted| / |predicted|`` against a swept parameter.
+
+    A series (one group, one soliton) whose other parameters are fixed is a curve: its points are
+    joined. Otherwise (a random or Latin-hypercube draw, or a single point per series) the points
+    stand alone; with ``color_by`` they are coloured by that column, with a colour bar.
 
     Parameters
     ----------
     solitons
         Solitons rows joined with their run's parameters: columns ``parameter``, ``soliton``,
-        ``shift_predicted``, ``shift_measured`` and those of ``group_by``.
+        ``shift_predicted``, ``shift_measured`` and those of ``group_by`` and ``color_by``.
     parameter
         The column for the horizontal axis.
     group_by
         Columns splitting the series further (colour); solitons are told apart by marker.
     ax
         Axes to draw into.
+    color_by
+        A numeric column to colour scattered points by (instead of by group).
     """
-    if parameter not in solitons.columns:
-        raise ConfigError(
-            f"relative_error: no column {parameter!r}; expected one of {list(solitons.columns)}"
-        )
+    for name in (parameter, color_by):
+        if name is not None and name not in solitons.columns:
+            raise ConfigError(
+                f"relative_error: no column {name!r}; expected one of {list(solitons.columns)}"
+            )
     df = _with_errors(solitons).dropna(subset=["shift_rel_error", parameter])
     df = df[df["shift_rel_error"] > 0]
     if ax is None:
         fig = _figure(7.5, 6.0)
         ax = fig.add_subplot()
     else:
-        fig = ax.get_figure()
-    for g, (label, part) in enumerate(_groups(df, group_by)):
-        color = SOLITON_COLORS[g % len(SOLITON_COLORS)]
+        fig = ax.get_figure()  # type: ignore[assignment]
+    norm = None
+    if color_by is not None and len(df):
+        norm = mcolors.Normalize(float(df[color_by].min()), float(df[color_by].max()))
+    groups = _groups(df, group_by)
+    joined: set[int] = set()  # solitons drawn as curves somewhere
+    for g, (_, part) in enumerate(groups):
+        color = SOLITON_COLORS[g % len(SOLITON_COLORS)] if norm is None else "0.3"
         for s, sol in part.groupby("soliton"):
             sol = sol.sort_values(parameter)
-            name = f"{label}, soliton {s}" if label else f"soliton {s}"
-            ax.plot(
-                sol[parameter],
-                sol["shift_rel_error"],
-                color=color,
-                marker=_MARKERS[int(s) % len(_MARKERS)],
-                ms=6,
-                mfc="none",
-                mew=1.4,
-                lw=1.2,
-                ls="-" if int(s) == 0 else "--",
-                label=name,
-            )
+            marker = _MARKERS[int(s) % len(_MARKERS)]
+            if norm is None and _is_slice(sol, parameter, [color_by or ""]):
+                joined.add(int(s))
+                ax.plot(
+                    sol[parameter],
+                    sol["shift_rel_error"],
+                    color=color,
+                    marker=marker,
+                    ms=6,
+                    mfc="none",
+                    mew=1.4,
+                    lw=1.2,
+                    ls=_LINES[int(s) % len(_LINES)],
+                )
+            elif norm is not None:
+                ax.scatter(
+                    sol[parameter],
+                    sol["shift_rel_error"],
+                    c=sol[color_by],
+                    cmap="viridis",
+                    norm=norm,
+                    marker=marker,
+                    s=42,
+                    edgecolors="0.2",
+                    linewidths=0.5,
+                )
+            else:
+                ax.plot(
+                    sol[parameter],
+                    sol["shift_rel_error"],
+                    ls="none",
+                    color=color,
+                    marker=marker,
+                    ms=7,
+                    mfc="none",
+                    mew=1.4,
+                )
+    # One legend entry per group (colour) and per soliton (marker, and line style on curves).
+    handles = []
+    if norm is None:
+        for g, (label, _) in enumerate(groups):
+            if label:
+                color = SOLITON_COLORS[g % len(SOLITON_COLORS)]
+                handles += ax.plot([], [], color=color, lw=6, alpha=0.8, label=label)
+    for s in sorted(int(v) for v in df["soliton"].unique()):
+        handles += ax.plot(
+            [],
+            [],
+            color="0.3",
+            marker=_MARKERS[s % len(_MARKERS)],
+            mfc="none" if norm is None else "0.7",
+            mew=1.4,
+            ms=7,
+            lw=1.2,
+            ls=_LINES[s % len(_LINES)] if s in joined else "none",
+            label=f"soliton {s}",
+        )
     ax.set_yscale("log")
     ax.set_xlabel(parameter)
-    ax.set_ylabel("relative shift error")
+    ax.set_ylabel(RELATIVE_LABEL, fontsize=12)
     ax.grid(alpha=0.3, which="both")
-    if len(df):
+    if norm is not None:
+        mappable = _mappable(norm)
+        fig.colorbar(mappable, ax=ax, label=color_by, pad=0.01)
+    if handles:
         # Outside the axes: with several groups a legend inside would cover the points.
-        fig.legend(loc="outside lower center", ncols=2, frameon=False, fontsize=9)
+        fig.legend(
+            handles=handles,
+            loc="outside lower center",
+            ncols=min(len(handles), 3 if len(handles) != 4 else 2),
+            frameon=False,
+            fontsize=10,
+        )
     return fig
+
+
+def _mappable(norm: mcolors.Normalize) -> Any:
+    """A colour-bar source for points coloured with ``viridis`` under ``norm``."""
+    from matplotlib.cm import ScalarMappable
+
+    return ScalarMappable(norm=norm, cmap="viridis")
+
+
+def _check_formats(formats: Sequence[str]) -> None:
+    bad = [f for f in formats if f not in ("png", "pdf", "svg")]
+    if bad or not formats:
+        raise ConfigError(
+            f"plot: unknown format(s) {', '.join(bad) or '(none given)'}; expected png, pdf or svg"
+        )
 
 
 def save(fig: Figure, stem: str | os.PathLike[str], formats: Sequence[str] = FORMATS) -> list[Path]:
     """Write ``fig`` as ``stem.png``, ``stem.pdf`` (or the ``formats`` given); returns the paths."""
-    bad = [f for f in formats if f not in ("png", "pdf", "svg")]
-    if bad:
-        raise ConfigError(f"save: unknown format(s) {bad}; expected png, pdf or svg")
+    _check_formats(formats)
     stem = Path(stem)
     stem.parent.mkdir(parents=True, exist_ok=True)
     paths = []
@@ -446,17 +664,61 @@ def save(fig: Figure, stem: str | os.PathLike[str], formats: Sequence[str] = FOR
 # --- the store ---------------------------------------------------------------------------------
 
 
+@dataclass(frozen=True)
+class FigurePlan:
+    """One figure of a store: what to draw, or the one-line reason it cannot be drawn.
+
+    Attributes
+    ----------
+    stem
+        File name without suffix (``shift_comparison``, ``relative_error_k2``, ``spacetime_run4``).
+    kind
+        ``"shift_comparison"``, ``"relative_error"`` or ``"spacetime"``.
+    parameter
+        The horizontal axis of a relative-error figure.
+    run_id
+        The run of a space-time figure.
+    group_by, color_by
+        Columns splitting the series, and colouring scattered points.
+    reason
+        Empty when the figure can be drawn; else why not, in one line.
+    notes
+        One-line caveats of a figure that is drawn (e.g. runs left out).
+    """
+
+    stem: str
+    kind: str
+    parameter: str | None = None
+    run_id: int | None = None
+    group_by: tuple[str, ...] = ()
+    color_by: str | None = None
+    reason: str = ""
+    notes: tuple[str, ...] = ()
+
+    @property
+    def drawable(self) -> bool:
+        """True when the figure can be drawn."""
+        return not self.reason
+
+
+@dataclass
+class FigureOutcome:
+    """What became of one :class:`FigurePlan`: the files written, and the one-line notes."""
+
+    plan: FigurePlan
+    paths: list[Path] = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)
+
+
 def _series_columns(runs: pd.DataFrame, parameters: Sequence[str], x: str | None) -> list[str]:
     """Swept parameters with few values, used to split series (not the horizontal one)."""
-    out = []
+    out: list[str] = []
     for p in parameters:
         if p != x and p in runs.columns and runs[p].nunique(dropna=False) <= 6:
-            # A parameter zipped with one already chosen adds no information: skip it.
-            if not any(
-                runs.groupby(c)[p].nunique().max() == 1 and runs[c].nunique() == runs[p].nunique()
-                for c in out
-            ):
-                out.append(p)
+            # A parameter zipped with those already chosen (fixed by them) adds no information.
+            if out and runs.groupby(out, dropna=False)[p].nunique(dropna=False).max() == 1:
+                continue
+            out.append(p)
     return out
 
 
@@ -469,18 +731,245 @@ def _axis_parameters(runs: pd.DataFrame, parameters: Sequence[str]) -> list[str]
     ]
 
 
-def _run_analysis(results: Any, run: pd.Series) -> tuple[Any, Grid, RunAnalysis] | None:
-    frames = results.frames(int(run["run_id"]))
-    name = str(run.get("equation", "kdv"))
+def _equations(runs: pd.DataFrame) -> tuple[dict[int, Equation], str]:
+    """The equation of each run, read from its row; and the error when the store lacks them."""
+    out: dict[int, Equation] = {}
+    for row in runs.to_dict("records"):
+        try:
+            out[int(row["run_id"])] = Equation.from_columns(row)
+        except ConfigError as err:
+            return {}, str(err)
+    return out, ""
+
+
+def _describe_equations(equations: Sequence[Equation]) -> str:
+    forms = sorted({eq.describe() for eq in equations})
+    more = f" and {len(forms) - 2} more" if len(forms) > 2 else ""
+    return "; ".join(forms[:2]) + more
+
+
+def plan_figures(
+    results: Results, parameter: str | None = None, runs: Sequence[int] | None = None
+) -> list[FigurePlan]:
+    """The standard figures of a store, each with the reason when it cannot be drawn.
+
+    Parameters
+    ----------
+    results
+        The store's tables (:func:`kdvsweep.load`).
+    parameter
+        Swept parameter for the relative-error figure; default every numeric swept parameter with
+        more than three values.
+    runs
+        Run ids for space-time diagrams; default the first stored run of each series (at most 4).
+
+    Returns
+    -------
+    list of FigurePlan
+
+    Raises
+    ------
+    ConfigError
+        A requested run is not stored, failed or kept no frames; ``parameter`` is not a column.
+    """
+    params = results.parameters
+    table = results.runs
+    ok = table[table["status"] == "ok"] if "status" in table else table
+    if parameter is not None and parameter not in ok.columns:
+        raise ConfigError(
+            f"plot: no parameter {parameter!r} in the runs table; swept parameters: "
+            f"{', '.join(params) or 'none'}"
+        )
+    plans = _shift_plans(results, ok, params, parameter)
+    for run_id in (
+        runs if runs is not None else _default_runs(ok, _series_columns(ok, params, None))
+    ):
+        plans.append(_spacetime_plan(results, int(run_id), explicit=runs is not None))
+    return plans
+
+
+def _shift_plans(
+    results: Results, ok: pd.DataFrame, params: Sequence[str], parameter: str | None
+) -> list[FigurePlan]:
+    """Plans of the shift comparison and the relative-error figures."""
+    axes = [parameter] if parameter else _axis_parameters(ok, params)
+    stems: list[tuple[str, str, str | None]] = [("shift_comparison", "shift_comparison", None)]
+    stems += [(f"relative_error_{p}", "relative_error", p) for p in axes]
+
+    def none_drawn(reason: str) -> list[FigurePlan]:
+        return [FigurePlan(stem, kind, parameter=p, reason=reason) for stem, kind, p in stems]
+
+    solitons = results.solitons
+    if solitons.empty:
+        return none_drawn("the store has no soliton rows (no run started from solitons)")
+    equations, missing = _equations(ok)
+    if missing:
+        return none_drawn(missing)
+    kept = [rid for rid, eq in equations.items() if eq.integrable]
+    left = [equations[rid] for rid in equations if rid not in set(kept)]
+    notes: tuple[str, ...] = ()
+    if left:
+        why = (
+            "theory predicts phase shifts for unperturbed KdV and focusing mKdV only; "
+            f"{len(left)} run(s) have {_describe_equations(left)}"
+        )
+        if not kept:
+            return none_drawn(why)
+        notes = (f"left out: {why}",)
+    measured = solitons[solitons["run_id"].isin(kept)].dropna(
+        subset=["shift_predicted", "shift_measured"]
+    )
+    if measured.empty:
+        return none_drawn(
+            "no run has measured shifts (see the reason column of `kdvsweep table OUT --runs`)"
+        )
+    sub = ok[ok["run_id"].isin(kept)]
+    plans = []
+    for stem, kind, p in stems:
+        series = tuple(_series_columns(sub, params, p if p else (axes[0] if axes else None)))
+        color_by = None
+        if p is not None:
+            others = [q for q in _axis_parameters(sub, params) if q != p and q not in series]
+            if others:
+                color_by = others[0]
+        plans.append(FigurePlan(stem, kind, p, None, series, color_by, "", notes))
+    return plans
+
+
+def _spacetime_plan(results: Results, run_id: int, explicit: bool) -> FigurePlan:
+    stem = f"spacetime_run{run_id}"
+    table = results.runs
+    row = table[table["run_id"] == run_id]
+    if row.empty:
+        ids = table["run_id"].to_numpy()
+        have = f"stored run ids {ids.min()}..{ids.max()}" if ids.size else "no run is stored"
+        raise ConfigError(f"plot: run {run_id} is not in the store {results.path} ({have})")
+    rec = row.iloc[0]
+    if rec.get("status", "ok") != "ok":
+        raise ConfigError(f"plot: run {run_id} failed ({rec.get('reason')}); it has no frames")
+    if int(rec.get("frames_stored", 0) or 0) == 0:
+        raise ConfigError(
+            f"plot: run {run_id} kept no frames; set keep_frames = true in the sweep's [run] "
+            "table and run it into a new folder"
+        )
     try:
-        eq = Equation.preset(name)
-    except ConfigError:
-        return None
-    sol = results.solitons[results.solitons["run_id"] == run["run_id"]].sort_values("soliton")
-    kappas = sol["kappa"].to_numpy(float) if len(sol) else None
-    grid = Grid(int(run["n"]), float(run["length"]))
-    analysis = analyse_run(frames.u, frames.times, grid, eq, kappas)
-    return frames, grid, analysis
+        eq = Equation.from_columns(rec.to_dict())
+    except ConfigError as err:
+        return FigurePlan(stem, "spacetime", run_id=run_id, reason=str(err))
+    notes: tuple[str, ...] = ()
+    if eq.soliton_form_or_none() is None:
+        notes = (
+            "field only: the collision analysis follows KdV and focusing-mKdV solitons; "
+            f"this run has {eq.describe()}",
+        )
+    return FigurePlan(stem, "spacetime", run_id=run_id, notes=notes)
+
+
+def _default_runs(runs: pd.DataFrame, series: Sequence[str]) -> list[int]:
+    if "frames_stored" in runs:
+        runs = runs[runs["frames_stored"] > 0]
+    if runs.empty:
+        return []
+    if not series:
+        return [int(runs["run_id"].iloc[0])]
+    return [int(part["run_id"].iloc[0]) for _, part in runs.groupby(list(series), sort=True)][:4]
+
+
+def _joined(results: Results) -> pd.DataFrame:
+    """Soliton rows of the ok runs with their runs' parameters."""
+    params = results.parameters
+    table = results.runs
+    ok = table[table["status"] == "ok"] if "status" in table else table
+    keep = ["run_id", *(c for c in ok.columns if c in params or c == "equation")]
+    return results.solitons.merge(ok[list(dict.fromkeys(keep))], on="run_id", how="inner")
+
+
+def draw(results: Results, plan: FigurePlan) -> tuple[Figure, list[str]]:
+    """Draw one planned figure; returns it with the one-line notes found while drawing.
+
+    Raises
+    ------
+    ConfigError
+        The plan cannot be drawn (its ``reason``).
+    """
+    if plan.reason:
+        raise ConfigError(f"{plan.stem}: {plan.reason}")
+    notes = list(plan.notes)
+    if plan.kind == "spacetime":
+        assert plan.run_id is not None
+        return _spacetime_of_run(results, plan.run_id, notes), notes
+    table = results.runs
+    ok = table[table["status"] == "ok"] if "status" in table else table
+    equations, _ = _equations(ok)
+    kept = [rid for rid, eq in equations.items() if eq.integrable]
+    merged = _joined(results)
+    merged = merged[merged["run_id"].isin(kept)]
+    if plan.kind == "shift_comparison":
+        return shift_comparison(merged, plan.group_by), notes
+    assert plan.parameter is not None
+    fig = relative_error(merged, plan.parameter, plan.group_by, color_by=plan.color_by)
+    return fig, notes
+
+
+def _spacetime_of_run(results: Results, run_id: int, notes: list[str]) -> Figure:
+    row = results.runs[results.runs["run_id"] == run_id].iloc[0]
+    eq = Equation.from_columns(row.to_dict())
+    frames = results.frames(run_id)
+    grid = Grid(int(row["n"]), float(row["length"]))
+    analysis: RunAnalysis | None = None
+    if eq.soliton_form_or_none() is not None:
+        sol = results.solitons[results.solitons["run_id"] == run_id].sort_values("soliton")
+        kappas = sol["kappa"].to_numpy(float) if len(sol) else None
+        if kappas is not None and not np.all(np.isfinite(kappas)):
+            kappas = None
+        try:
+            analysis = analyse_run(frames.u, frames.times, grid, eq, kappas)
+        except KdvsweepError as err:
+            notes.append(f"field only: the collision analysis failed: {err}")
+        else:
+            if analysis.tracks.reason:
+                notes.append(f"field only: {analysis.tracks.reason}")
+                analysis = None
+            elif not analysis.ok:
+                notes.append(
+                    "no asymptotes: " + str(analysis.summary.get("analysis_reason", "not fitted"))
+                )
+    params = [p for p in results.parameters if p in row.index and p != "equation"]
+    label = ", ".join(f"{p} = {_value(row[p])}" for p in params)
+    title = eq.describe() + (f"\n{label}" if label else "")
+    return spacetime(frames.u, frames.times, grid, analysis, title=title)
+
+
+def iter_figures(
+    out: str | os.PathLike[str],
+    into: str | os.PathLike[str] | None = None,
+    parameter: str | None = None,
+    runs: Sequence[int] | None = None,
+    formats: Sequence[str] = FORMATS,
+) -> Iterator[FigureOutcome]:
+    """Make and save the standard figures of a store, one at a time.
+
+    Parameters as :func:`plot_store`. Every figure is planned before the first is drawn, so a
+    request that cannot be met (a run that is not stored) fails before anything is written.
+
+    Yields
+    ------
+    FigureOutcome
+        For each planned figure: the files written, or none and the reason in ``notes``.
+    """
+    from .results import load
+
+    res = load(out)
+    dest = Path(into) if into is not None else Path(out) / "figures"
+    _check_formats(formats)  # before anything is drawn
+    for plan in plan_figures(res, parameter, runs):
+        if not plan.drawable:
+            yield FigureOutcome(plan, [], [plan.reason])
+            continue
+        with _style():
+            fig, notes = draw(res, plan)
+            paths = save(fig, dest / plan.stem, formats)
+        yield FigureOutcome(plan, paths, notes)
 
 
 def plot_store(
@@ -490,7 +979,7 @@ def plot_store(
     runs: Sequence[int] | None = None,
     formats: Sequence[str] = FORMATS,
 ) -> list[Path]:
-    """Make the standard figures of a sweep store.
+    """Make the standard figures of a sweep store; returns the files written.
 
     Parameters
     ----------
@@ -509,109 +998,29 @@ def plot_store(
     Returns
     -------
     list of pathlib.Path
-        The files written.
+        The files written (:func:`iter_figures` also says why a figure was not drawn).
     """
-    from .results import load
-
-    res = load(out)
-    dest = Path(into) if into is not None else Path(out) / "figures"
-    params = res.parameters
-    ok = res.runs[res.runs["status"] == "ok"] if "status" in res.runs else res.runs
-    keep = ["run_id", *(c for c in ok.columns if c in params or c == "equation")]
-    merged = res.solitons.merge(ok[list(dict.fromkeys(keep))], on="run_id", how="inner")
-    written: list[Path] = []
-    axes = [parameter] if parameter else _axis_parameters(ok, params)
-    series = _series_columns(ok, params, axes[0] if axes else None)
-    if len(merged):
-        with _style():
-            written += save(shift_comparison(merged, series), dest / "shift_comparison", formats)
-            for p in axes:
-                written += save(
-                    relative_error(merged, p, series), dest / f"relative_error_{p}", formats
-                )
-    for run_id in runs if runs is not None else _default_runs(ok, series):
-        row = ok[ok["run_id"] == run_id]
-        if row.empty or int(row.iloc[0].get("frames_stored", 0)) == 0:
-            continue
-        made = _run_analysis(res, row.iloc[0])
-        if made is None:
-            continue
-        frames, grid, analysis = made
-        label = ", ".join(f"{p} = {row.iloc[0][p]}" for p in params if p in row.columns)
-        with _style():
-            fig = spacetime(frames.u, frames.times, grid, analysis, title=label or None)
-            written += save(fig, dest / f"spacetime_run{run_id}", formats)
-    return written
+    return [
+        p for outcome in iter_figures(out, into, parameter, runs, formats) for p in outcome.paths
+    ]
 
 
-def _default_runs(runs: pd.DataFrame, series: Sequence[str]) -> list[int]:
-    if "frames_stored" in runs:
-        runs = runs[runs["frames_stored"] > 0]
-    if runs.empty:
-        return []
-    if not series:
-        return [int(runs["run_id"].iloc[0])]
-    return [int(part["run_id"].iloc[0]) for _, part in runs.groupby(list(series), sort=True)][:4]
+@contextlib.contextmanager
+def _style() -> Iterator[None]:
+    """Apply :data:`STYLE` to the figures made inside the block."""
+    import matplotlib as mpl
 
-
-class _style:
-    """Context manager applying :data:`STYLE` to the figures made inside it."""
-
-    def __enter__(self) -> None:
-        import matplotlib as mpl
-
-        self._ctx = mpl.rc_context(STYLE)
-        self._ctx.__enter__()
-
-    def __exit__(self, *exc: object) -> None:
-        self._ctx.__exit__(*exc)
-
-
-def main(argv: Sequence[str] | None = None) -> int:
-    """``kdvsweep plot OUT``: write the figures of a store; returns the exit status."""
-    parser = argparse.ArgumentParser(
-        prog="kdvsweep plot",
-        description="Figures of a sweep store: measured vs predicted shifts, relative error "
-        "against a swept parameter, space-time diagrams of stored runs.",
-    )
-    parser.add_argument("out", help="the store folder")
-    parser.add_argument("--into", help="folder for the figures (default OUT/figures)")
-    parser.add_argument("--parameter", help="swept parameter for the relative-error plot")
-    parser.add_argument(
-        "--run",
-        type=int,
-        action="append",
-        dest="runs",
-        help="run id for a space-time diagram (repeatable)",
-    )
-    parser.add_argument(
-        "--formats",
-        default=",".join(FORMATS),
-        help="comma-separated file formats (default png,pdf)",
-    )
-    args = parser.parse_args(argv)
-    try:
-        paths = plot_store(
-            args.out,
-            args.into,
-            args.parameter,
-            args.runs,
-            [f.strip() for f in args.formats.split(",") if f.strip()],
-        )
-    except KdvsweepError as err:
-        print(f"kdvsweep plot: {err}", file=sys.stderr)
-        return 2
-    for path in paths:
-        print(path)
-    if not paths:
-        print(f"kdvsweep plot: nothing to plot in {args.out}", file=sys.stderr)
-        return 1
-    return 0
+    with mpl.rc_context(cast(Any, STYLE)):
+        yield
 
 
 __all__ = [
     "FORMATS",
-    "main",
+    "FigureOutcome",
+    "FigurePlan",
+    "draw",
+    "iter_figures",
+    "plan_figures",
     "plot_store",
     "relative_error",
     "save",

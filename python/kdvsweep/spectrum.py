@@ -65,17 +65,14 @@ there; the tests check it on an overlapping opposite-polarity 2-soliton.
 
 from __future__ import annotations
 
-import argparse
-import sys
 import warnings
 from dataclasses import dataclass, field
-from pathlib import Path
 
 import numpy as np
 import pandas as pd
 import scipy.linalg as sla
 
-from .exceptions import ConfigError, KdvsweepError, ShapeError
+from .exceptions import ConfigError, ShapeError
 from .model import Equation, Grid, SolitonForm
 
 DEFAULT_TOL = 1e-8
@@ -641,117 +638,10 @@ def _warn_accuracy(
         )
 
 
-# ----------------------------------------------------------------------------- command line
-
-
-def _print_table(frame: pd.DataFrame) -> None:
-    with pd.option_context(
-        "display.width", 200, "display.max_columns", 50, "display.float_format", "{:.10g}".format
-    ):
-        print(frame.to_string(index=False))
-
-
-def _predict(u0: np.ndarray, grid: Grid, equation: str | Equation, tol: float) -> pd.DataFrame:
-    """``bound_states`` with its warnings printed to stderr as one line each."""
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        content = bound_states(u0, grid, equation, tol=tol)
-    for w in caught:
-        print(f"kdvsweep spectrum: warning: {w.message}", file=sys.stderr)
-    print(f"kdvsweep spectrum: {content.method}", file=sys.stderr)
-    return content.table()
-
-
-def _sweep_tables(path: Path, run_ids: list[int] | None, tol: float) -> tuple[pd.DataFrame, int]:
-    """One table over the runs of a sweep file (each run's initial data); and the failure count."""
-    from .initial import build_profile
-    from .sweep.config import load_sweep
-    from .sweep.runner import build_equation, build_grid
-
-    sweep = load_sweep(path)
-    by_id = {spec.run_id: spec for spec in sweep.runs}
-    wanted = sorted(by_id) if not run_ids else run_ids
-    missing = [i for i in wanted if i not in by_id]
-    if missing:
-        raise ConfigError(f"{path}: no run {missing[0]}; expected run ids 0..{len(sweep.runs) - 1}")
-    frames, failed = [], 0
-    for run_id in wanted:
-        spec = by_id[run_id]
-        grid = build_grid(spec.model)
-        eq = build_equation(spec.model)
-        # The spectral problem belongs to the integrable part; perturbations act later.
-        integrable = Equation(a=eq.a, b=eq.b, d=eq.d, name=eq.name)
-        if eq.f or eq.g or eq.v:
-            print(
-                f"kdvsweep spectrum: run {run_id}: the perturbation terms (f, g, v) are left out: "
-                "this is the content under the unperturbed equation",
-                file=sys.stderr,
-            )
-        try:
-            table = _predict(build_profile(spec.initial, grid, eq), grid, integrable, tol)
-        except KdvsweepError as err:
-            print(f"kdvsweep spectrum: run {run_id}: {err}", file=sys.stderr)
-            failed += 1
-            continue
-        table.insert(0, "run_id", run_id)
-        frames.append(table)
-    return (pd.concat(frames, ignore_index=True) if frames else pd.DataFrame()), failed
-
-
-def _parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
-        prog="kdvsweep spectrum",
-        description="Solitons predicted for initial data by the inverse scattering transform: "
-        "the discrete spectrum of a profile in a .npy file, or of each run's initial data in a "
-        "sweep file (.toml).",
-    )
-    parser.add_argument("file", type=Path, help="a 1-D .npy profile or a sweep file")
-    parser.add_argument("--length", type=float, help="domain length L of the .npy profile")
-    parser.add_argument(
-        "--equation", help="preset of the .npy profile: kdv (default), kdv-, mkdv, mkdv-"
-    )
-    parser.add_argument(
-        "--run", type=int, action="append", dest="runs", help="sweep run id (repeatable)"
-    )
-    parser.add_argument(
-        "--tol", type=float, default=DEFAULT_TOL, help=f"accuracy of kappa (default {DEFAULT_TOL})"
-    )
-    return parser
-
-
-def main(argv: list[str] | None = None) -> int:
-    """``kdvsweep spectrum FILE``: print the predicted solitons; returns the exit status."""
-    args = _parser().parse_args(argv)
-    try:
-        if args.file.suffix == ".toml":
-            if args.length is not None or args.equation is not None:
-                raise ConfigError(
-                    "--length and --equation apply to .npy profiles; a sweep sets them"
-                )
-            table, failed = _sweep_tables(args.file, args.runs, args.tol)
-        else:
-            if args.length is None:
-                raise ConfigError(f"{args.file}: a .npy profile needs --length L")
-            if args.runs:
-                raise ConfigError("--run applies to sweep files (.toml)")
-            from .initial import load_array
-
-            u0 = load_array(args.file)
-            grid = Grid(u0.size, args.length)
-            table = _predict(u0, grid, args.equation or "kdv", args.tol)
-            failed = 0
-    except KdvsweepError as err:
-        print(f"kdvsweep spectrum: error: {err}", file=sys.stderr)
-        return 2
-    _print_table(table)
-    return 1 if failed else 0
-
-
 __all__ = [
     "Breather",
     "DomainWarning",
     "ResolutionWarning",
     "SolitonContent",
     "bound_states",
-    "main",
 ]

@@ -1,4 +1,6 @@
-"""Sweeps: sweep files (``load_sweep``) and running them (``run``, ``run_sweep``)."""
+"""Sweeps: sweep files (``load_sweep``) and running them: ``run`` (a file into a store, on this
+machine, an existing dask cluster or batch jobs; what ``kdvsweep run`` calls) and ``run_sweep``
+(a loaded sweep on a dask client of your own)."""
 
 from typing import Any
 

@@ -1,4 +1,4 @@
-"""``kdvsweep bench --sweep``: throughput of the farm on a reference sweep of KdV pair collisions.
+"""The farm benchmark (``kdvsweep bench --sweep``): throughput of the farm on a reference sweep of KdV pair collisions.
 
 The reference sweep: kappa1 = 1 overtakes kappa2 = 0.5 ... 0.7 (evenly spaced), n = 512,
 L = 80, t from 0 to 38, ETDRK4 with dt = 2.5e-3, frames every 0.1 for the collision analysis
@@ -17,26 +17,27 @@ Measured, in runs per hour:
 Then, on 2 workers, sweeps of growing size: farm overhead ``(elapsed * workers - compute) /
 compute`` (scheduling, transfers, storage, idle tail), the client's storage time over compute, and
 the peak resident memory of the client and of the workers, sampled every 0.2 s.
+
+:func:`measure` returns every figure in a :class:`SweepBenchmark`; the command prints it.
 """
 
 from __future__ import annotations
 
-import argparse
 import concurrent.futures as cf
 import math
 import multiprocessing
 import os
 import shutil
-import sys
 import tempfile
 import threading
 import time
-from collections.abc import Iterator, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from ..exceptions import ConfigError
 from ..model import Equation, Grid
 from ..reference import ReferenceSimulation
 from ..results import load
@@ -201,83 +202,111 @@ class FarmRun:
 def _farm(client: Any, sweep: Sweep, out: Path) -> FarmRun:
     pids = [os.getpid(), *client.run(os.getpid).values()]
     with ProcessSampler(pids) as sampler:
-        report = run_sweep(sweep, out, client, progress=False)
+        report = run_sweep(sweep, out, client)
     runs = load(out).runs
     return FarmRun(report, sampler, float(runs["cpu_time"].sum()))
 
 
-def _say(text: str = "") -> None:
-    print(text, flush=True)
-
-
-def _load() -> str:
+def load_average() -> tuple[float, float]:
+    """The 1 and 5 minute load averages of the machine."""
     one, five, _ = os.getloadavg()
-    return f"load average {one:.1f} (1 min), {five:.1f} (5 min)"
+    return one, five
 
 
-def main(argv: Sequence[str] | None = None) -> int:
-    """Run the sweep benchmark and print its figures; returns 0."""
-    parser = argparse.ArgumentParser(
-        prog="kdvsweep bench --sweep",
-        description="Throughput of the sweep farm on the reference sweep of KdV pair collisions.",
-    )
-    parser.add_argument(
-        "--runs", type=int, default=REFERENCE_RUNS, help="runs of the reference sweep"
-    )
-    parser.add_argument(
-        "--numpy-runs",
-        type=int,
-        default=None,
-        help="runs of the NumPy baseline (evenly spread subset; default all, 10 with --quick)",
-    )
-    parser.add_argument(
-        "--growth",
-        default=None,
-        help=f"comma-separated sweep sizes for overhead and memory (default {GROWTH})",
-    )
-    parser.add_argument(
-        "--quick", action="store_true", help=f"smaller: NumPy on 10 runs, growth {QUICK_GROWTH}"
-    )
-    parser.add_argument("--keep", type=Path, help="keep the stores in this folder")
-    args = parser.parse_args(list(argv) if argv is not None else None)
-    growth = (
-        tuple(int(v) for v in args.growth.split(","))
-        if args.growth
-        else (QUICK_GROWTH if args.quick else GROWTH)
-    )
-    numpy_runs = args.numpy_runs or (10 if args.quick else args.runs)
+@dataclass(frozen=True)
+class GrowthRow:
+    """The farm on a sweep of ``runs`` runs, 2 workers (see the module notes for the terms)."""
 
-    folder = Path(tempfile.mkdtemp(prefix="kdvsweep-bench-")) if args.keep is None else args.keep
+    runs: int
+    rate: float  # runs per hour
+    overhead: float  # (elapsed x workers - run wall time) / run wall time
+    cpu_overhead: float  # (CPU of all processes - run CPU) / run CPU
+    storage: float  # client wall time writing the store / run wall time
+    client_rss: float  # peak resident memory of the client, bytes
+    worker_rss: float  # peak resident memory of the largest worker, bytes
+
+
+@dataclass
+class SweepBenchmark:
+    """Every figure of one farm benchmark.
+
+    ``rates`` maps a way of running the reference sweep to ``(runs per hour, CPU seconds per run
+    of the processes doing the work)``; ``numpy_name`` is the key of the NumPy baseline in it.
+    """
+
+    runs: int
+    cores: int
+    loads: dict[str, tuple[float, float]] = field(default_factory=dict)
+    rates: dict[str, tuple[float, float]] = field(default_factory=dict)
+    numpy_name: str = ""
+    efficiency: float = math.nan  # farm 2 / (2 x farm 1), wall
+    cpu_efficiency: float = math.nan  # CPU per run, 1 worker / 2 workers
+    startups: dict[int, float] = field(default_factory=dict)  # workers -> cluster start-up, s
+    serial_step_share: float = math.nan  # of serial run wall time: stepping
+    serial_analysis_share: float = math.nan  # of serial run wall time: analysis
+    numpy_step_share: float = math.nan
+    failed_serial: list[int] = field(default_factory=list)
+    growth: list[GrowthRow] = field(default_factory=list)
+
+
+def measure(
+    runs: int = REFERENCE_RUNS,
+    numpy_runs: int | None = None,
+    growth: Sequence[int] = GROWTH,
+    keep: Path | None = None,
+    on_stage: Callable[[str], None] | None = None,
+) -> SweepBenchmark:
+    """Run the farm benchmark; ``on_stage`` hears what is being measured as it starts.
+
+    Parameters
+    ----------
+    runs
+        Runs of the reference sweep.
+    numpy_runs
+        Runs of the NumPy baseline (an evenly spread subset; default all).
+    growth
+        Sweep sizes for the overhead and memory figures.
+    keep
+        Keep the stores in this folder (default: a temporary folder, removed at the end).
+    on_stage
+        Called with a short description of each stage.
+    """
+    if runs < 2 or (numpy_runs is not None and numpy_runs < 2) or any(g < 2 for g in growth):
+        raise ConfigError(
+            f"bench --sweep: sweep sizes must be at least 2, got runs = {runs}, "
+            f"numpy runs = {numpy_runs}, growth = {list(growth)}"
+        )
+    folder = Path(tempfile.mkdtemp(prefix="kdvsweep-bench-")) if keep is None else keep
     folder.mkdir(parents=True, exist_ok=True)
     try:
-        _bench(args.runs, numpy_runs, growth, folder)
+        return _bench(runs, numpy_runs or runs, growth, folder, on_stage or (lambda _: None))
     finally:
-        if args.keep is None:
+        if keep is None:
             shutil.rmtree(folder, ignore_errors=True)
-    return 0
 
 
-def _bench(runs: int, numpy_runs: int, growth: Sequence[int], folder: Path) -> None:
+def _bench(
+    runs: int, numpy_runs: int, growth: Sequence[int], folder: Path, stage: Callable[[str], None]
+) -> SweepBenchmark:
     sweep = reference_sweep(runs, folder)
-    _say(
-        f"reference sweep: {runs} KdV pair collisions, kappa1 = {KAPPA1}, kappa2 = {KAPPA2[0]}"
-        f"..{KAPPA2[1]}, n = {POINTS}, L = {LENGTH:g}, t = 0..{T_END:g}, ETDRK4 dt = {DT:g}, "
-        f"frames every {FRAME_EVERY:g} (every {KEEP_STRIDE}th stored)"
-    )
-    _say(f"machine: {os.cpu_count()} cores, {_load()} at start")
-    # name -> (runs per hour, CPU seconds per run of the processes doing the work)
-    table: dict[str, tuple[float, float]] = {}
+    out = SweepBenchmark(runs=runs, cores=os.cpu_count() or 1)
+    out.loads["start"] = load_average()
+    table = out.rates
 
     # 1. serial loop, this process, the Rust core
+    stage("serial loop")
     execute(sweep.runs[0])  # warm-up: imports, first-call costs
     cpu0, start = time.process_time(), time.perf_counter()
     serial = [execute(spec).run_row for spec in sweep.runs]
     serial_s, serial_cpu = time.perf_counter() - start, time.process_time() - cpu0
-    bad = [r["run_id"] for r in serial if r["status"] != "ok"]
+    out.failed_serial = [int(r["run_id"]) for r in serial if r["status"] != "ok"]
     table["serial loop, 1 process (Rust core)"] = (per_hour(runs, serial_s), serial_cpu / runs)
     share = {k: sum(r[k] for r in serial) for k in ("step_time", "analysis_time", "wall_time")}
+    out.serial_step_share = share["step_time"] / share["wall_time"]
+    out.serial_analysis_share = share["analysis_time"] / share["wall_time"]
 
     # 2. NumPy reference on a 2-process pool
+    stage("NumPy baseline")
     pick = sorted({round(i * (runs - 1) / max(numpy_runs - 1, 1)) for i in range(numpy_runs)})
     subset = [sweep.runs[i] for i in pick]
     ctx = multiprocessing.get_context("spawn")
@@ -286,80 +315,57 @@ def _bench(runs: int, numpy_runs: int, growth: Sequence[int], folder: Path) -> N
         start = time.perf_counter()
         np_rows = list(pool.map(numpy_run, subset))
         numpy_s = time.perf_counter() - start
-    numpy_name = f"NumPy schemes, 2-process pool ({len(subset)} runs)"
+    out.numpy_name = f"NumPy schemes, 2-process pool ({len(subset)} runs)"
     np_cpu = sum(r["cpu_time"] for r in np_rows) / len(np_rows)
-    table[numpy_name] = (per_hour(len(subset), numpy_s), np_cpu)
-    np_share = sum(r["step_time"] for r in np_rows) / sum(r["wall_time"] for r in np_rows)
+    table[out.numpy_name] = (per_hour(len(subset), numpy_s), np_cpu)
+    out.numpy_step_share = sum(r["step_time"] for r in np_rows) / sum(
+        r["wall_time"] for r in np_rows
+    )
 
     # 3. the farm, 1 and 2 workers
     farms: dict[int, FarmRun] = {}
-    startups: dict[int, float] = {}
     for workers in (1, 2):
+        stage(f"farm, {workers} worker(s)")
         with _timed_cluster(workers, sweep.runs[0]) as (client, startup):
-            startups[workers] = startup
+            out.startups[workers] = startup
             farms[workers] = _farm(client, sweep, folder / f"farm-{workers}")
         label = f"farm, {workers} worker{'s' if workers > 1 else ''} (store included)"
         farm = farms[workers]
         table[label] = (farm.rate, farm.total_cpu / farm.report.stored)
-
-    numpy_rate, numpy_cpu = table[numpy_name]
-    _say()
-    _say(
-        f"{'':46s} {'runs/hour':>9s} {'wall s/run':>10s} {'CPU s/run':>9s}  "
-        f"{'vs NumPy pool: rate':>19s} {'CPU':>5s}"
-    )
-    for name, (rate, cpu) in table.items():
-        _say(
-            f"{name:46s} {rate:9.0f} {3600 / rate:10.3f} {cpu:9.3f}  "
-            f"{rate / numpy_rate:18.1f}x {numpy_cpu / cpu:4.1f}x"
-        )
-    efficiency = farms[2].rate / (2 * farms[1].rate)
-    cpu_eff = (farms[1].total_cpu / farms[1].report.stored) / (
+    out.efficiency = farms[2].rate / (2 * farms[1].rate)
+    out.cpu_efficiency = (farms[1].total_cpu / farms[1].report.stored) / (
         farms[2].total_cpu / farms[2].report.stored
     )
-    _say()
-    _say(f"scaling efficiency at 2 workers: {100 * efficiency:.0f}% (wall: farm 2 / (2 x farm 1))")
-    _say(
-        f"  CPU per run, all processes, 1 worker / 2 workers: {100 * cpu_eff:.0f}% "
-        "(what the efficiency would be on 2 free cores)"
-    )
-    _say(
-        f"cluster start-up (not counted above): 1 worker {startups[1]:.1f} s, "
-        f"2 workers {startups[2]:.1f} s"
-    )
-    _say(
-        f"serial run time: stepping {100 * share['step_time'] / share['wall_time']:.0f}%, "
-        f"analysis {100 * share['analysis_time'] / share['wall_time']:.0f}%; NumPy runs: "
-        f"stepping {100 * np_share:.0f}%"
-    )
-    if bad:
-        _say(f"warning: runs {bad} failed in the serial loop")
-    _say(f"{_load()} after the comparison")
+    out.loads["after comparison"] = load_average()
 
     # 4. growth: overhead and memory on 2 workers
-    _say()
-    _say("sweep growth on 2 workers (one warm cluster):")
-    _say(
-        f"{'runs':>6s} {'runs/hour':>9s} {'overhead':>9s} {'CPU ovh':>8s} {'storage':>8s} "
-        f"{'client RSS':>11s} {'worker RSS':>11s}"
-    )
     with _timed_cluster(2, sweep.runs[0]) as (client, _):
         for count in growth:
+            stage(f"growth: {count} runs on 2 workers")
             grown = _farm(client, reference_sweep(count, folder), folder / f"grow-{count}")
             report, mem = grown.report, grown.sampler
-            client_rss = mem.peak[os.getpid()] / 2**20
-            worker_rss = max(v for k, v in mem.peak.items() if k != os.getpid()) / 2**20
-            _say(
-                f"{count:6d} {grown.rate:9.0f} {100 * report.overhead():8.1f}% "
-                f"{100 * grown.cpu_overhead:7.1f}% {100 * report.store_time / report.compute:7.1f}% "
-                f"{client_rss:8.0f} MB {worker_rss:8.0f} MB"
+            out.growth.append(
+                GrowthRow(
+                    runs=count,
+                    rate=grown.rate,
+                    overhead=report.overhead(),
+                    cpu_overhead=grown.cpu_overhead,
+                    storage=report.store_time / report.compute,
+                    client_rss=float(mem.peak[os.getpid()]),
+                    worker_rss=float(max(v for k, v in mem.peak.items() if k != os.getpid())),
+                )
             )
-    _say(f"{_load()} at the end")
-    _say()
-    _say("overhead = (elapsed x workers - sum of run wall times) / sum of run wall times")
-    _say("CPU ovh  = (CPU of client, scheduler and workers - sum of run CPU) / sum of run CPU")
-    _say("storage  = client wall time writing the store / sum of run wall times (overlaps)")
+    out.loads["end"] = load_average()
+    return out
 
 
-if __name__ == "__main__":  # pragma: no cover
-    sys.exit(main())
+__all__ = [
+    "GROWTH",
+    "QUICK_GROWTH",
+    "REFERENCE_RUNS",
+    "GrowthRow",
+    "SweepBenchmark",
+    "measure",
+    "reference_sweep",
+    "reference_text",
+]

@@ -1,7 +1,7 @@
 """Run a sweep's dask workers as batch jobs: cluster profiles and a managed dask-jobqueue cluster.
 
-A *cluster profile* is a small TOML file (our own format, documented in ``docs/cluster.md``) saying
-which batch system to use and what each job asks for::
+A *cluster profile* is a small TOML file (our own format, documented in the README section "Running
+a sweep on a batch cluster") saying which batch system to use and what each job asks for::
 
     [batch]
     system = "slurm"          # slurm, pbs, moab, sge, lsf
@@ -388,7 +388,7 @@ def _walltime_for(system: str, walltime: str) -> str:
     return f"{minutes // 60}:{minutes % 60:02d}"
 
 
-def cluster_class(profile: ClusterProfile) -> type:
+def cluster_class(profile: ClusterProfile) -> Any:
     """The dask-jobqueue cluster class of the profile's batch system."""
     return getattr(_jobqueue(), SYSTEMS[profile.system].cluster_class)
 
@@ -464,7 +464,9 @@ def cluster_client(
     ClusterStartError
         If no worker joined within ``profile.start_timeout`` seconds (all jobs are cancelled first).
     """
-    from distributed import Client
+    import distributed
+
+    Client: Any = distributed.Client
 
     def say(message: str) -> None:
         log.info(message)

@@ -23,7 +23,9 @@ Where it runs
   core (a run is single-threaded Rust; processes avoid any contention on the interpreter), bound
   to the loopback interface, no dashboard;
 * ``scheduler="tcp://host:8786"`` (CLI ``--scheduler``): an existing dask cluster;
-* a batch system, through dask-jobqueue: build the cluster, pass its client to :func:`run_sweep`::
+* ``cluster="mycluster.toml"`` (CLI ``--cluster``): a cluster profile; :func:`run` starts the batch
+  jobs it describes (:mod:`.cluster`) and cancels them at the end;
+* any other dask cluster: build it yourself and pass its client to :func:`run_sweep`::
 
       from dask_jobqueue import SLURMCluster
       from distributed import Client
@@ -54,12 +56,20 @@ from collections import deque
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from ..exceptions import ConfigError, KdvsweepError
-from .progress import Progress
 from .runner import RunResult, base_row, cost, execute_chunk
 from .store import Store, SweepLike
+
+if TYPE_CHECKING:
+    from .cluster import ClusterProfile
+    from .config import Sweep
+
+#: ``on_progress(done, failed, total)``: runs stored so far (those stored before this call
+#: included), failed among them, runs in the sweep. Called once before the first task and after
+#: every batch of results is stored.
+ProgressCallback = Callable[[int, int, int], None]
 
 #: Target wall time of one task, seconds: long enough that scheduling (~1 ms a task) is noise,
 #: short enough that a lost worker costs little and the progress bar moves.
@@ -186,11 +196,12 @@ class _Chunker:
         return chunk
 
 
-def _malloc_trim() -> Callable[[], Any] | None:
+def _malloc_trim() -> Callable[[int], Any] | None:
     """glibc's ``malloc_trim(0)``, or None on other C libraries."""
     try:
         libc = ctypes.CDLL(ctypes.util.find_library("c") or "libc.so.6")
-        return libc.malloc_trim  # type: ignore[no-any-return]
+        trim: Callable[[int], Any] = libc.malloc_trim
+        return trim
     except (OSError, AttributeError):
         return None
 
@@ -203,6 +214,13 @@ def _lost(spec: Any, exc: BaseException) -> RunResult:
     return RunResult(row, [], None, None)
 
 
+def _distributed() -> Any:
+    """The ``distributed`` module (imported when a sweep runs: it is slow to load)."""
+    import distributed
+
+    return distributed
+
+
 def _threads(client: Any) -> int:
     return int(sum(client.nthreads().values()))
 
@@ -213,7 +231,7 @@ def run_sweep(
     client: Any = None,
     *,
     workers: int | None = None,
-    progress: bool | None = None,
+    on_progress: ProgressCallback | None = None,
     chunk_seconds: float = CHUNK_SECONDS,
     retries: int = RETRIES,
 ) -> SweepReport:
@@ -229,8 +247,8 @@ def run_sweep(
         A ``distributed.Client`` to use; default an embedded ``LocalCluster`` started here.
     workers
         Worker processes of the embedded cluster (default one per core); ignored with ``client``.
-    progress
-        Show the progress bar on stderr; ``None`` shows it on a terminal only.
+    on_progress
+        Called as ``on_progress(done, failed, total)`` (see :data:`ProgressCallback`).
     chunk_seconds
         Target wall time of one task.
     retries
@@ -247,12 +265,14 @@ def run_sweep(
     with Store.open(out, sweep) as store:
         todo = store.pending(sweep.runs)
         report = SweepReport(Path(out), len(sweep.runs), skipped=len(sweep.runs) - len(todo))
+        if on_progress is not None:
+            on_progress(report.skipped, len(store.failed), report.total)
         if not todo:
             return report
         with contextlib.ExitStack() as stack:
             if client is None:
                 client = stack.enter_context(local_client(workers))
-            _drive(client, store, todo, report, progress, chunk_seconds, retries)
+            _drive(client, store, todo, report, on_progress, chunk_seconds, retries)
     report.elapsed = time.perf_counter() - start
     return report
 
@@ -262,12 +282,14 @@ def _drive(
     store: Store,
     todo: list[Any],
     report: SweepReport,
-    progress: bool | None,
+    on_progress: ProgressCallback | None,
     chunk_seconds: float,
     retries: int,
 ) -> None:
     """Keep a few chunks per worker in flight, store each batch of results as it arrives."""
-    from distributed import KilledWorker, as_completed
+    distributed = _distributed()
+    KilledWorker = distributed.KilledWorker
+    as_completed = distributed.as_completed
 
     chunker = _Chunker(todo, chunk_seconds)
     ongoing = as_completed()
@@ -275,7 +297,7 @@ def _drive(
     threads = max(_threads(client), 1)
     report.workers = threads
     checked = time.monotonic()
-    failed_before = len(store.failed)  # shown on the bar, not counted in the report
+    failed_before = len(store.failed)  # reported to on_progress, not counted in the report
     kills: dict[int, int] = {}  # run id -> tasks holding that run that ended in KilledWorker
 
     def submit(chunk: list[Any]) -> None:
@@ -311,52 +333,54 @@ def _drive(
         finally:
             fut.release()
 
-    with Progress(report.total, report.skipped, failed_before, enabled=progress) as bar:
-        try:
+    try:
+        fill()
+        for batch in ongoing.batches():
+            results: list[RunResult] = []
+            broken: BaseException | None = None
+            for fut in batch:
+                _, chunk = inflight.pop(fut.key)
+                try:
+                    got = collect(fut, chunk)
+                except Exception as exc:
+                    # The runner turns every error of a run into a row, so this is the
+                    # infrastructure (kdvsweep missing on a worker, a version mismatch):
+                    # stop rather than store good runs as failed.
+                    broken = exc
+                    continue
+                chunker.observe(chunk, got)
+                results.extend(got)
+            tick = time.perf_counter()
+            stored = store.write(results)
+            report.store_time += time.perf_counter() - tick
+            failed = sum(not r.ok for r in results)
+            report.stored += stored
+            report.failed += failed
+            report.compute += sum(float(r.run_row["wall_time"]) for r in results)
+            if on_progress is not None:
+                on_progress(
+                    report.skipped + report.stored, failed_before + report.failed, report.total
+                )
+            if broken is not None:
+                raise KdvsweepError(
+                    f"a task failed outside the runs ({type(broken).__name__}: {broken}); "
+                    f"{report.skipped + report.stored} runs are stored in {store.out}; fix "
+                    "the cause and run the same sweep again to resume"
+                ) from broken
+            if trim is not None and time.monotonic() - trimmed > 1.0:
+                trim(0)
+                trimmed = time.monotonic()
+            if time.monotonic() - checked > 2.0:  # workers come and go (adaptive clusters)
+                threads = max(_threads(client), 1)
+                report.workers = max(report.workers, threads)
+                checked = time.monotonic()
             fill()
-            for batch in ongoing.batches():
-                results: list[RunResult] = []
-                broken: BaseException | None = None
-                for fut in batch:
-                    _, chunk = inflight.pop(fut.key)
-                    try:
-                        got = collect(fut, chunk)
-                    except Exception as exc:
-                        # The runner turns every error of a run into a row, so this is the
-                        # infrastructure (kdvsweep missing on a worker, a version mismatch):
-                        # stop rather than store good runs as failed.
-                        broken = exc
-                        continue
-                    chunker.observe(chunk, got)
-                    results.extend(got)
-                tick = time.perf_counter()
-                stored = store.write(results)
-                report.store_time += time.perf_counter() - tick
-                failed = sum(not r.ok for r in results)
-                report.stored += stored
-                report.failed += failed
-                report.compute += sum(float(r.run_row["wall_time"]) for r in results)
-                bar.update(stored, failed)
-                if broken is not None:
-                    raise KdvsweepError(
-                        f"a task failed outside the runs ({type(broken).__name__}: {broken}); "
-                        f"{report.skipped + report.stored} runs are stored in {store.out}; fix "
-                        "the cause and run the same sweep again to resume"
-                    ) from broken
-                if trim is not None and time.monotonic() - trimmed > 1.0:
-                    trim(0)
-                    trimmed = time.monotonic()
-                if time.monotonic() - checked > 2.0:  # workers come and go (adaptive clusters)
-                    threads = max(_threads(client), 1)
-                    report.workers = max(report.workers, threads)
-                    checked = time.monotonic()
-                fill()
-        finally:
-            # Interrupted or broken: tasks of this sweep must not go on running on a shared
-            # cluster after we stop listening.
-            if inflight:
-                with contextlib.suppress(Exception):  # the client may be closing already
-                    client.cancel([fut for fut, _ in inflight.values()])
+    finally:
+        # Interrupted or broken: tasks of this sweep must not go on running on a shared
+        # cluster after we stop listening.
+        if inflight:
+            with contextlib.suppress(Exception):  # the client may be closing already
+                client.cancel([fut for fut, _ in inflight.values()])
 
 
 @contextlib.contextmanager
@@ -366,7 +390,9 @@ def local_client(workers: int | None = None) -> Iterator[Any]:
     The scheduler listens on the loopback interface only and has no dashboard.
     """
     import dask
-    from distributed import Client, LocalCluster
+
+    distributed = _distributed()
+    Client, LocalCluster = distributed.Client, distributed.LocalCluster
 
     count = workers if workers is not None else (os.cpu_count() or 1)
     if count < 1:
@@ -390,56 +416,124 @@ def local_client(workers: int | None = None) -> Iterator[Any]:
 
 
 @contextlib.contextmanager
-def connect(workers: int | None = None, scheduler: str | None = None) -> Iterator[Any]:
-    """A client: of the scheduler at ``scheduler`` if given, else of an embedded cluster."""
-    if scheduler is not None:
-        if workers is not None:
-            raise ConfigError(
-                "workers applies to the embedded cluster only; an existing scheduler "
-                f"({scheduler}) has its own workers"
-            )
-        from distributed import Client
+def connect(
+    workers: int | None = None,
+    scheduler: str | None = None,
+    cluster: str | os.PathLike[str] | ClusterProfile | None = None,
+    *,
+    logs: Path | None = None,
+    on_message: Callable[[str], None] | None = None,
+) -> Iterator[Any]:
+    """A client: of the scheduler at ``scheduler``, of the batch cluster a profile describes, or of
+    an embedded cluster of ``workers`` processes (at most one of the three may be given).
 
-        with Client(scheduler) as client:
+    ``logs`` is where batch jobs write their output when the profile names no folder;
+    ``on_message`` receives the batch cluster's one-line messages (submission, dashboard address,
+    replacements, shutdown).
+    """
+    _check_where(workers, scheduler, cluster)
+    if scheduler is not None:
+        with _distributed().Client(scheduler) as client:
+            yield client
+    elif cluster is not None:
+        from .cluster import cluster_client
+
+        with cluster_client(_profile(cluster), logs=logs, echo=on_message) as client:
             yield client
     else:
         with local_client(workers) as client:
             yield client
 
 
+def _check_where(workers: int | None, scheduler: str | None, cluster: object) -> None:
+    """Refuse two places to run at once, before anything starts."""
+    given = [
+        name
+        for name, value in (("workers", workers), ("scheduler", scheduler), ("cluster", cluster))
+        if value is not None
+    ]
+    if len(given) > 1:
+        raise ConfigError(
+            f"{' and '.join(given)} were both given; expected one of them: workers (an embedded "
+            "cluster on this machine), scheduler (an existing dask cluster) or cluster (a cluster "
+            "profile)"
+        )
+
+
+def _profile(cluster: str | os.PathLike[str] | ClusterProfile) -> ClusterProfile:
+    from .cluster import ClusterProfile, load_profile
+
+    return cluster if isinstance(cluster, ClusterProfile) else load_profile(cluster)
+
+
 def run(
-    path: str | os.PathLike[str],
+    sweep: str | os.PathLike[str] | Sweep,
     out: str | os.PathLike[str] | None = None,
     *,
     workers: int | None = None,
     scheduler: str | None = None,
-    progress: bool | None = None,
-) -> Path:
-    """Load the sweep file ``path`` and run it into ``out`` (default ``results/<sweep name>``).
+    cluster: str | os.PathLike[str] | ClusterProfile | None = None,
+    on_progress: ProgressCallback | None = None,
+    on_message: Callable[[str], None] | None = None,
+    chunk_seconds: float = CHUNK_SECONDS,
+) -> SweepReport:
+    """Run a sweep file into ``out`` (default ``results/<sweep name>``); resume what is stored.
 
-    Returns the output folder. The public ``kdvsweep.sweep.run``.
+    The public ``kdvsweep.sweep.run``, and what ``kdvsweep run`` calls.
+
+    Parameters
+    ----------
+    sweep
+        A sweep file (TOML), or a sweep already loaded with :func:`~kdvsweep.sweep.load_sweep`.
+    out
+        The store folder: new, empty, or holding this same sweep.
+    workers
+        Worker processes of an embedded cluster on this machine (default one per core).
+    scheduler
+        Address of an existing dask scheduler (``tcp://host:8786``) to use instead.
+    cluster
+        A cluster profile (TOML file, or a loaded :class:`~kdvsweep.sweep.cluster.ClusterProfile`)
+        to start batch jobs with instead; their output goes to ``OUT/batch-logs`` unless the profile
+        names a folder. The jobs are cancelled when the sweep ends, fails or is interrupted.
+    on_progress
+        Called as ``on_progress(done, failed, total)`` (see :data:`ProgressCallback`).
+    on_message
+        Receives one-line messages of a batch cluster.
+    chunk_seconds
+        Target wall time of one task.
+
+    Returns
+    -------
+    SweepReport
+        What this call did; ``report.out`` is the store folder.
     """
-    from .config import load_sweep
+    from .config import Sweep, load_sweep
 
-    if scheduler is not None and workers is not None:
-        raise ConfigError(
-            f"workers ({workers}) applies to the embedded cluster only; the scheduler at "
-            f"{scheduler} has its own workers"
+    _check_where(workers, scheduler, cluster)
+    loaded = sweep if isinstance(sweep, Sweep) else load_sweep(Path(sweep))
+    target = Path(out) if out is not None else Path("results") / loaded.name
+    profile = _profile(cluster) if cluster is not None else None  # a bad profile fails first
+    # Refuse a folder of another sweep (or not a store at all) before any cluster starts.
+    Store.open(target, loaded).close()
+    with contextlib.ExitStack() as stack:
+        client = None  # the embedded cluster starts in run_sweep, only if runs are pending
+        if scheduler is not None or profile is not None:
+            client = stack.enter_context(
+                connect(None, scheduler, profile, logs=target / "batch-logs", on_message=on_message)
+            )
+        return run_sweep(
+            loaded,
+            target,
+            client,
+            workers=workers,
+            on_progress=on_progress,
+            chunk_seconds=chunk_seconds,
         )
-    sweep = load_sweep(path)
-    target = Path(out) if out is not None else Path("results") / sweep.name
-    if scheduler is None:
-        run_sweep(sweep, target, workers=workers, progress=progress)
-    else:
-        # Open (and validate) the store before connecting, as the embedded path does.
-        Store.open(target, sweep).close()
-        with connect(workers, scheduler) as client:
-            run_sweep(sweep, target, client, progress=progress)
-    return target
 
 
 __all__ = [
     "CHUNK_SECONDS",
+    "ProgressCallback",
     "SweepReport",
     "connect",
     "local_client",

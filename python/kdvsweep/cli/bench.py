@@ -1,0 +1,262 @@
+"""``kdvsweep bench``: the core against bare FFTs and NumPy; ``--sweep``: the farm's throughput."""
+
+from __future__ import annotations
+
+import argparse
+import math
+from collections.abc import Sequence
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+from .common import say
+
+if TYPE_CHECKING:
+    from ..bench import Budget, Row
+    from ..sweep.bench_sweep import SweepBenchmark
+
+#: Options of the core benchmark and of the farm benchmark (``--sweep``); one may not take the
+#: other's.
+CORE_ONLY = ("n", "schemes", "strict")
+SWEEP_ONLY = ("runs", "numpy_runs", "growth", "keep")
+
+
+def _int_list(text: str) -> list[int]:
+    try:
+        return [int(part) for part in text.split(",") if part.strip()]
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected integers like 256,512, got {text!r}") from None
+
+
+def _word_list(text: str) -> list[str]:
+    return [part.strip() for part in text.split(",") if part.strip()]
+
+
+def register(sub: Any) -> None:
+    """Add ``bench`` to the ``kdvsweep`` sub-parsers."""
+    from ..bench import SIZES
+    from ..reference import SCHEMES
+    from ..sweep.bench_sweep import GROWTH, QUICK_GROWTH, REFERENCE_RUNS
+
+    p = sub.add_parser(
+        "bench",
+        help="core against bare FFTs and NumPy; --sweep: the farm's runs per hour",
+        description="Benchmark of the Rust steppers against their FFT floor and plain NumPy; "
+        "with --sweep, the throughput of the sweep farm on a reference sweep of KdV pair "
+        "collisions.",
+    )
+    p.add_argument(
+        "--sweep", action="store_true", help="benchmark the farm instead of the steppers"
+    )
+    p.add_argument(
+        "--quick", action="store_true", help="fewer and shorter timings (rougher figures)"
+    )
+    core = p.add_argument_group("steppers (without --sweep)")
+    core.add_argument(
+        "--n",
+        type=_int_list,
+        default=None,
+        metavar="LIST",
+        help=f"grid sizes, comma separated (default {','.join(map(str, SIZES))})",
+    )
+    core.add_argument(
+        "--schemes",
+        type=_word_list,
+        default=None,
+        metavar="LIST",
+        help=f"schemes, comma separated (default {','.join(SCHEMES)})",
+    )
+    core.add_argument(
+        "--strict", action="store_true", help="exit with status 1 when a target is missed"
+    )
+    farm = p.add_argument_group("farm (with --sweep)")
+    farm.add_argument(
+        "--runs",
+        type=int,
+        default=None,
+        metavar="N",
+        help=f"runs of the reference sweep (default {REFERENCE_RUNS})",
+    )
+    farm.add_argument(
+        "--numpy-runs",
+        type=int,
+        default=None,
+        metavar="N",
+        help="runs of the NumPy baseline (evenly spread subset; default all, 10 with --quick)",
+    )
+    farm.add_argument(
+        "--growth",
+        type=_int_list,
+        default=None,
+        metavar="LIST",
+        help=f"sweep sizes for overhead and memory (default {','.join(map(str, GROWTH))}; "
+        f"{','.join(map(str, QUICK_GROWTH))} with --quick)",
+    )
+    farm.add_argument("--keep", type=Path, metavar="DIR", help="keep the stores in this folder")
+    p.set_defaults(handler=_bench)
+
+
+def _bench(args: argparse.Namespace) -> int:
+    wrong = [name for name in (SWEEP_ONLY if not args.sweep else CORE_ONLY) if _given(args, name)]
+    if wrong:
+        option = "--" + wrong[0].replace("_", "-")
+        where = "the farm benchmark (--sweep)" if not args.sweep else "the stepper benchmark"
+        say(f"error: {option} applies to {where} only", "bench")
+        return 2
+    return _sweep(args) if args.sweep else _steppers(args)
+
+
+def _given(args: argparse.Namespace, name: str) -> bool:
+    value = getattr(args, name)
+    return value not in (None, False)
+
+
+# --- the steppers --------------------------------------------------------------------------------
+
+
+def _steppers(args: argparse.Namespace) -> int:
+    from ..bench import FULL, QUICK, SIZES, run_benchmark, targets_met
+    from ..reference import SCHEMES
+
+    budget = QUICK if args.quick else FULL
+    rows = run_benchmark(
+        args.n or SIZES,
+        args.schemes or SCHEMES,
+        budget,
+        on_row=lambda row: say(f"measured n = {row.n} {row.scheme}", "bench"),
+    )
+    print(format_rows(rows, budget))
+    return 1 if args.strict and not targets_met(rows) else 0
+
+
+def _mark(met: bool | None) -> str:
+    return "" if met is None else ("ok" if met else "MISS")
+
+
+def format_rows(rows: Sequence[Row], budget: Budget) -> str:
+    """The table of figures and ratios, with the targets flagged where they apply."""
+    from ..bench import (
+        DT,
+        FLOOR_SIZES,
+        FLOOR_TARGET,
+        KAPPAS,
+        LENGTH,
+        SPEEDUP_SIZES,
+        SPEEDUP_TARGET,
+        TOL,
+        TRANSFORMS_PER_STEP,
+    )
+
+    lines = [
+        f"KdV 2-soliton (kappa = {KAPPAS[0]:g}, {KAPPAS[1]:g}) on L = {LENGTH:g}; dt = {DT:g}, "
+        f"adaptive tol = {TOL:g}; best of {budget.repeats} timings of >= {budget.min_time:g} s",
+        "microseconds per step (adaptive: per accepted step); "
+        f"floor = {TRANSFORMS_PER_STEP} r2c + {TRANSFORMS_PER_STEP} c2r transforms in Rust",
+        "",
+        f"{'n':>5}  {'scheme':<9}{'rust':>9}{'floor':>9}{'numpy':>10}"
+        f"{'rust/floor':>12}{'':6}{'numpy/rust':>12}",
+    ]
+    for r in rows:
+        line = (
+            f"{r.n:>5}  {r.scheme:<9}{r.rust_us:>9.2f}{r.floor_us:>9.2f}{r.numpy_us:>10.1f}"
+            f"{r.rust_over_floor:>12.2f} {_mark(r.floor_met()):<5}{r.numpy_over_rust:>12.1f} "
+            f"{_mark(r.speedup_met())}"
+        )
+        lines.append(line.rstrip())
+    lines.append("")
+    lines.append(
+        f"targets: rust/floor <= {FLOOR_TARGET:g} at n = {', '.join(map(str, FLOOR_SIZES))}; "
+        f"numpy/rust >= {SPEEDUP_TARGET:g} at n = {', '.join(map(str, SPEEDUP_SIZES))}"
+    )
+    if any(math.isnan(r.floor_us) for r in rows):
+        lines.append("floor not measured: this build of kdvsweep._core has no fft_floor")
+    return "\n".join(lines)
+
+
+# --- the farm --------------------------------------------------------------------------------------
+
+
+def _sweep(args: argparse.Namespace) -> int:
+    from ..sweep.bench_sweep import GROWTH, QUICK_GROWTH, REFERENCE_RUNS, measure
+
+    runs = args.runs if args.runs is not None else REFERENCE_RUNS
+    growth = args.growth or (QUICK_GROWTH if args.quick else GROWTH)
+    numpy_runs = args.numpy_runs or (10 if args.quick else runs)
+    result = measure(
+        runs,
+        min(numpy_runs, runs),
+        growth,
+        args.keep,
+        on_stage=lambda text: say(f"measuring: {text}", "bench --sweep"),
+    )
+    print(format_sweep(result))
+    return 0
+
+
+def format_sweep(b: SweepBenchmark) -> str:
+    """The farm benchmark's figures as text."""
+    from ..sweep.bench_sweep import (
+        DT,
+        FRAME_EVERY,
+        KAPPA1,
+        KAPPA2,
+        KEEP_STRIDE,
+        LENGTH,
+        POINTS,
+        T_END,
+    )
+
+    def load(key: str) -> str:
+        one, five = b.loads.get(key, (math.nan, math.nan))
+        return f"load average {one:.1f} (1 min), {five:.1f} (5 min)"
+
+    lines = [
+        f"reference sweep: {b.runs} KdV pair collisions, kappa1 = {KAPPA1}, kappa2 = {KAPPA2[0]}"
+        f"..{KAPPA2[1]}, n = {POINTS}, L = {LENGTH:g}, t = 0..{T_END:g}, ETDRK4 dt = {DT:g}, "
+        f"frames every {FRAME_EVERY:g} (every {KEEP_STRIDE}th stored)",
+        f"machine: {b.cores} cores, {load('start')} at start",
+        "",
+        f"{'':46s} {'runs/hour':>9s} {'wall s/run':>10s} {'CPU s/run':>9s}  "
+        f"{'vs NumPy pool: rate':>19s} {'CPU':>5s}",
+    ]
+    numpy_rate, numpy_cpu = b.rates[b.numpy_name]
+    for name, (rate, cpu) in b.rates.items():
+        lines.append(
+            f"{name:46s} {rate:9.0f} {3600 / rate:10.3f} {cpu:9.3f}  "
+            f"{rate / numpy_rate:18.1f}x {numpy_cpu / cpu:4.1f}x"
+        )
+    lines += [
+        "",
+        f"scaling efficiency at 2 workers: {100 * b.efficiency:.0f}% (wall: farm 2 / (2 x farm 1))",
+        f"  CPU per run, all processes, 1 worker / 2 workers: {100 * b.cpu_efficiency:.0f}% "
+        "(what the efficiency would be on 2 free cores)",
+        f"cluster start-up (not counted above): 1 worker {b.startups[1]:.1f} s, "
+        f"2 workers {b.startups[2]:.1f} s",
+        f"serial run time: stepping {100 * b.serial_step_share:.0f}%, "
+        f"analysis {100 * b.serial_analysis_share:.0f}%; NumPy runs: "
+        f"stepping {100 * b.numpy_step_share:.0f}%",
+    ]
+    if b.failed_serial:
+        lines.append(f"warning: runs {b.failed_serial} failed in the serial loop")
+    lines += [
+        f"{load('after comparison')} after the comparison",
+        "",
+        "sweep growth on 2 workers (one warm cluster):",
+        f"{'runs':>6s} {'runs/hour':>9s} {'overhead':>9s} {'CPU ovh':>8s} {'storage':>8s} "
+        f"{'client RSS':>11s} {'worker RSS':>11s}",
+    ]
+    for g in b.growth:
+        lines.append(
+            f"{g.runs:6d} {g.rate:9.0f} {100 * g.overhead:8.1f}% {100 * g.cpu_overhead:7.1f}% "
+            f"{100 * g.storage:7.1f}% {g.client_rss / 2**20:8.0f} MB {g.worker_rss / 2**20:8.0f} MB"
+        )
+    lines += [
+        f"{load('end')} at the end",
+        "",
+        "overhead = (elapsed x workers - sum of run wall times) / sum of run wall times",
+        "CPU ovh  = (CPU of client, scheduler and workers - sum of run CPU) / sum of run CPU",
+        "storage  = client wall time writing the store / sum of run wall times (overlaps)",
+    ]
+    return "\n".join(lines)
+
+
+__all__ = ["format_rows", "format_sweep", "register"]

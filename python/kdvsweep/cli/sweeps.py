@@ -1,0 +1,195 @@
+"""``kdvsweep run``, ``demo``, ``table`` and ``status``: run sweeps and look at their stores."""
+
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+from typing import Any
+
+from ..exceptions import ConfigError
+from .common import print_frame, say
+from .progress import Progress
+
+DEMO_OUT = Path("results") / "demo"
+
+
+def demo_file() -> Path:
+    """The embedded demo sweep: inside the installed package, else in the source checkout."""
+    from importlib import resources
+
+    packaged = resources.files("kdvsweep") / "data" / "demo.toml"
+    if packaged.is_file():
+        return Path(str(packaged))
+    checkout = Path(__file__).resolve().parents[3] / "sweeps" / "demo.toml"
+    if checkout.is_file():
+        return checkout
+    raise ConfigError(
+        f"demo: sweep file not found; expected kdvsweep/data/demo.toml in the package or {checkout}"
+    )
+
+
+def _farm_options(p: argparse.ArgumentParser) -> None:
+    where = p.add_mutually_exclusive_group()
+    where.add_argument(
+        "--workers", type=int, metavar="N", help="worker processes (default: one per core)"
+    )
+    where.add_argument(
+        "--scheduler", metavar="ADDR", help="use the dask cluster at ADDR (tcp://host:port)"
+    )
+    where.add_argument(
+        "--cluster",
+        type=Path,
+        metavar="PROFILE",
+        help="start workers as batch jobs described by a cluster profile (TOML)",
+    )
+    p.add_argument(
+        "--chunk-seconds",
+        type=float,
+        default=None,
+        metavar="S",
+        help="target wall time of one task (default 3)",
+    )
+    bar = p.add_mutually_exclusive_group()
+    bar.add_argument(
+        "--progress",
+        dest="progress",
+        action="store_true",
+        default=None,
+        help="always show the progress bar",
+    )
+    bar.add_argument(
+        "--no-progress",
+        dest="progress",
+        action="store_false",
+        help="never show the progress bar (default: on a terminal only)",
+    )
+
+
+def register(sub: Any) -> None:
+    """Add the commands of this module to the ``kdvsweep`` sub-parsers."""
+    p = sub.add_parser(
+        "run",
+        help="run a sweep; re-running into the same folder resumes it",
+        description="Run a sweep file into a store folder; re-running resumes an interrupted run.",
+    )
+    p.add_argument("file", type=Path, metavar="FILE", help="sweep file (TOML)")
+    p.add_argument("--out", type=Path, metavar="DIR", help="store folder (default results/NAME)")
+    _farm_options(p)
+    p.set_defaults(handler=lambda args: _run(args, args.file))
+
+    p = sub.add_parser(
+        "demo",
+        help="the embedded demo sweep (27 pair collisions), then its summary",
+        description="Run the embedded demo sweep and print its summary table.",
+    )
+    p.add_argument(
+        "--out",
+        type=Path,
+        default=DEMO_OUT,
+        metavar="DIR",
+        help=f"store folder (default {DEMO_OUT})",
+    )
+    _farm_options(p)
+    p.set_defaults(handler=_demo)
+
+    p = sub.add_parser(
+        "table",
+        help="the summary table of a store (--runs: the runs table)",
+        description="Print the summary table of a store, then its failed runs.",
+    )
+    p.add_argument("out", type=Path, metavar="OUT", help="store folder")
+    p.add_argument("--runs", action="store_true", help="print the runs table instead")
+    p.set_defaults(handler=lambda args: _table(args.out, runs=args.runs))
+
+    p = sub.add_parser(
+        "status",
+        help="runs done / failed / pending in a store",
+        description="Count the runs done, failed and pending in a store (also while it runs).",
+    )
+    p.add_argument("out", type=Path, metavar="OUT", help="store folder")
+    p.set_defaults(handler=lambda args: _status(args.out))
+
+
+def _run(args: argparse.Namespace, file: Path) -> int:
+    from ..sweep.config import load_sweep
+    from ..sweep.farm import CHUNK_SECONDS, run
+
+    sweep = load_sweep(file)
+    for warning in sweep.warnings:
+        say(f"warning: {warning}")
+    out = args.out if args.out is not None else Path("results") / sweep.name
+    chunk = args.chunk_seconds if args.chunk_seconds is not None else CHUNK_SECONDS
+    try:
+        with Progress(enabled=args.progress) as bar:
+            report = run(
+                sweep,
+                out,
+                workers=args.workers,
+                scheduler=args.scheduler,
+                cluster=args.cluster,
+                on_progress=bar,
+                on_message=lambda message: bar.write(f"kdvsweep: {message}"),
+                chunk_seconds=chunk,
+            )
+    except KeyboardInterrupt:
+        say(f"interrupted; what finished is stored in {out}; run the same command again to resume")
+        return 130
+    say(
+        f"{report.stored} runs stored now ({report.failed} failed), "
+        f"{report.skipped} were already stored, {report.total} in the sweep; "
+        f"{report.elapsed:.1f} s"
+    )
+    return 0
+
+
+def _demo(args: argparse.Namespace) -> int:
+    code = _run(args, demo_file())
+    if code:
+        return code
+    return _table(args.out)
+
+
+def _table(out: Path, runs: bool = False) -> int:
+    from ..results import load
+
+    res = load(out)
+    counts = res.counts()
+    if runs:
+        print_frame(res.runs)
+    else:
+        summary = res.summary()
+        if summary.empty:
+            print("(no soliton rows stored)")
+        else:
+            print_frame(summary)
+        failed = res.runs.loc[res.runs["status"] != "ok", ["run_id", "reason"]]
+        if len(failed):
+            print(f"\nfailed runs ({len(failed)}):")
+            print_frame(failed)
+    print(
+        f"\n{counts['ok']} ok, {counts['failed']} failed, {counts['pending']} pending "
+        f"of {counts['total']} runs; results in {out.resolve()}"
+    )
+    return 0
+
+
+def _status(out: Path) -> int:
+    from ..results import load
+
+    res = load(out)
+    counts = res.counts()
+    print(f"sweep   {res.manifest.get('sweep_name')} ({res.manifest.get('sweep_file')})")
+    print(f"store   {out.resolve()}")
+    print(f"done    {counts['ok']}")
+    print(f"failed  {counts['failed']}")
+    print(f"pending {counts['pending']}")
+    print(f"total   {counts['total']}")
+    if counts["failed"]:
+        reasons = res.runs.loc[res.runs["status"] != "ok", "reason"].value_counts().head(5)
+        print("most common reasons of failure:")
+        for reason, count in reasons.items():
+            print(f"  {count:6d}  {reason}")
+    return 0
+
+
+__all__ = ["DEMO_OUT", "demo_file", "register"]
