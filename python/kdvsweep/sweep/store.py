@@ -25,6 +25,7 @@ from __future__ import annotations
 
 import contextlib
 import datetime as dt
+import importlib.metadata
 import io
 import json
 import os
@@ -379,15 +380,13 @@ def check_parameter_names(sweep: Sweep) -> None:
 
 def new_manifest(sweep: Sweep) -> dict[str, Any]:
     """The manifest of a new store for ``sweep``."""
-    from .. import __version__
-
     return {
         "format": STORE_FORMAT,
         "format_version": STORE_VERSION,
         "sweep_name": sweep.name,
         "sweep_file": str(sweep.path),
         "digest": sweep.digest,
-        "package_version": __version__,
+        "package_version": importlib.metadata.version("kdvsweep"),
         "created": dt.datetime.now(dt.UTC).isoformat(timespec="seconds"),
         "parameters": list(sweep.parameters),
         "runs_total": len(sweep.runs),
