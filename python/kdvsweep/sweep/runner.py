@@ -22,7 +22,7 @@ from ..columns import TIMING_COLUMNS
 from ..exceptions import ConfigError, NumericalError
 from ..model import Equation, Grid
 from ..simulation import Simulation, invariants
-from .config import ModelSpec, RunSpec
+from .config import RunSpec
 
 
 @dataclass
@@ -55,16 +55,6 @@ class RunResult:
     def ok(self) -> bool:
         """True when the run completed."""
         return self.run_row["status"] == "ok"
-
-
-def build_equation(model: ModelSpec) -> Equation:
-    """The equation of a spec's model (``model.equation``; kept for callers of the dict era)."""
-    return model.equation
-
-
-def build_grid(model: ModelSpec) -> Grid:
-    """The grid of a spec's model (``model.grid``; kept for callers of the dict era)."""
-    return model.grid
 
 
 def base_row(spec: RunSpec) -> dict[str, Any]:
@@ -294,8 +284,6 @@ def cost(spec: RunSpec) -> float:
 __all__ = [
     "TIMING_COLUMNS",
     "RunResult",
-    "build_equation",
-    "build_grid",
     "execute",
     "execute_chunk",
 ]
