@@ -31,7 +31,7 @@ from typing import Any
 import numpy as np
 
 from .exceptions import ConfigError, ShapeError
-from .model import Equation, Grid, _sech
+from .model import Equation, Grid, sech
 
 KINDS = ("solitons", "multisoliton", "sech2", "gaussian", "box", "npy")
 
@@ -186,7 +186,7 @@ class Profile:
         if self.shape == "sech2":
 
             def bump(y: np.ndarray) -> np.ndarray:
-                return height * _sech((y - center) / scale) ** 2
+                return height * sech((y - center) / scale) ** 2
 
             return _periodic(bump, grid.x, grid.length, _TAIL_DECAYS * scale)
 

@@ -8,7 +8,7 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, TypedDict
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -19,6 +19,18 @@ MIN_POINTS = 16
 
 #: The coefficients of the model, in the order of its terms.
 COEFFICIENTS = ("a", "b", "d", "f", "g", "v")
+
+
+class CoreFields(TypedDict):
+    """The equation as the Rust core takes it: named coefficients and the dealiasing override."""
+
+    a: float
+    b: float
+    d: float
+    f: float
+    g: float
+    v: float
+    dealias: float | None
 
 
 @dataclass(frozen=True)
@@ -199,7 +211,7 @@ class Equation:
         """``(a, b, d, f, g, v)``."""
         return (self.a, self.b, self.d, self.f, self.g, self.v)
 
-    def core_fields(self) -> dict[str, float | None]:
+    def core_fields(self) -> CoreFields:
         """The named fields the Rust core takes: ``a, b, d, f, g, v`` and ``dealias`` (or None)."""
         dealias = None if self.dealias is None else float(self.dealias)
         return {
@@ -341,14 +353,14 @@ class SolitonForm:
         sech^2(kappa (x - x0))`` (KdV) or ``sign alpha 2 kappa sech(2 kappa (x - x0))`` (mKdV)."""
         z = np.asarray(x, dtype=np.float64) - x0
         if self.family == "kdv":
-            return self.alpha * 2.0 * kappa**2 * _sech(kappa * z) ** 2
-        return sign * self.alpha * 2.0 * kappa * _sech(2.0 * kappa * z)
+            return self.alpha * 2.0 * kappa**2 * sech(kappa * z) ** 2
+        return sign * self.alpha * 2.0 * kappa * sech(2.0 * kappa * z)
 
 
-def _sech(z: np.ndarray) -> np.ndarray:
+def sech(z: np.ndarray) -> np.ndarray:
     """``sech z`` as ``2 e^{-|z|} / (1 + e^{-2|z|})``: no overflow for large ``|z|``."""
     e = np.exp(-np.abs(z))
     return 2.0 * e / (1.0 + e * e)
 
 
-__all__ = ["COEFFICIENTS", "Equation", "Grid", "SolitonForm"]
+__all__ = ["COEFFICIENTS", "CoreFields", "Equation", "Grid", "SolitonForm", "sech"]

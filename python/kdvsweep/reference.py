@@ -19,8 +19,7 @@ import numpy as np
 
 from .exceptions import ConfigError, NumericalError, ShapeError
 from .model import Equation, Grid
-
-SCHEMES = ("etdrk4", "ifrk4", "strang", "adaptive")
+from .simulation import DEFAULT_DT, DEFAULT_SCHEME, DEFAULT_TOL, SCHEMES, step_options
 
 #: Points on the contour around each ``z = h L`` (Kassam & Trefethen 2005 use 64).
 CONTOUR_POINTS = 64
@@ -31,7 +30,6 @@ _SHRINK_LIMIT = 0.2
 _GROWTH_LIMIT = 5.0
 # Accepted growth below this keeps the step (hysteresis, as the core: it reuses its exponentials).
 _HOLD_LIMIT = 1.25
-_DEFAULT_TOL = 1e-9
 
 Spectrum = np.ndarray
 Nonlinear = Callable[[Spectrum], Spectrum]
@@ -192,6 +190,7 @@ class IFRK4(_Scheme):
         return e, e * e
 
     def step(self, v: Spectrum, h: float) -> Spectrum:
+        """One step of size ``h`` from the spectrum ``v``."""
         e, e2 = self.coefficients(h)
         nl = self.nonlinear
         a = h * nl(v)
@@ -208,6 +207,7 @@ class ETDRK4(_Scheme):
         return etdrk4_coefficients(self.symbol, h)
 
     def step(self, v: Spectrum, h: float) -> Spectrum:
+        """One step of size ``h`` from the spectrum ``v``."""
         e, e2, q, f1, f2, f3 = self.coefficients(h)
         nl = self.nonlinear
         nv = nl(v)
@@ -227,6 +227,7 @@ class Strang(_Scheme):
         return (np.exp(0.5 * h * self.symbol),)
 
     def step(self, v: Spectrum, h: float) -> Spectrum:
+        """One step of size ``h`` from the spectrum ``v``."""
         (e,) = self.coefficients(h)
         nl = self.nonlinear
         w = e * v
@@ -284,30 +285,19 @@ class ReferenceSimulation:
         self,
         grid: Grid,
         equation: Equation,
-        scheme: str = "etdrk4",
-        dt: float = 1e-3,
+        scheme: str = DEFAULT_SCHEME,
+        dt: float = DEFAULT_DT,
         tol: float | None = None,
     ) -> None:
-        if scheme not in SCHEMES:
-            raise ConfigError(
-                f"ReferenceSimulation: unknown scheme {scheme!r}; expected one of {SCHEMES}"
-            )
-        if tol is not None and scheme != "adaptive":
-            raise ConfigError(
-                f"ReferenceSimulation: tol applies to the adaptive scheme only, not {scheme!r}"
-            )
-        if not (math.isfinite(dt) and dt > 0):
-            raise ConfigError(f"ReferenceSimulation: dt must be a positive finite number, got {dt}")
-        tol = _DEFAULT_TOL if tol is None else float(tol)
-        if not (math.isfinite(tol) and tol > 0):
-            raise ConfigError(
-                f"ReferenceSimulation: tol must be a positive finite number, got {tol}"
-            )
+        try:
+            step, tolerance = step_options(scheme, dt, tol)
+        except ConfigError as err:
+            raise ConfigError(f"ReferenceSimulation: {err}") from None
         self.grid = grid
         self.equation = equation
         self.scheme = scheme
-        self.dt = float(dt)
-        self.tol = tol
+        self.dt = step
+        self.tol = DEFAULT_TOL if tolerance is None else tolerance
         self._stepper = (
             AdaptiveIFRK4(grid, equation)
             if scheme == "adaptive"

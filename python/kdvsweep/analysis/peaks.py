@@ -95,6 +95,7 @@ class Interpolant:
         return [np.real((ph * (1j * self.k) ** m).sum(axis=1)) for m in orders]
 
     def __call__(self, frame: np.ndarray, x: np.ndarray) -> np.ndarray:
+        """Values of frame ``frame[p]``'s interpolant at ``x[p]``."""
         return self.derivatives(frame, x, (0,))[0]
 
 

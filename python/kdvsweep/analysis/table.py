@@ -180,7 +180,9 @@ def _radiation(
     return energy, energy / total if total > 0 else math.nan
 
 
-def _drifts(invariants: Mapping[str, object] | Sequence[Mapping[str, float]] | None) -> dict:
+def _drifts(
+    invariants: Mapping[str, object] | Sequence[Mapping[str, float]] | None,
+) -> dict[str, float]:
     """``drift_<name>`` = max |I(t) - I(t0)| / |I(t0)| for each invariant series given."""
     if invariants is None:
         return {}
@@ -367,7 +369,9 @@ def _empty_rows(tracks: Tracks, given: np.ndarray | None, eq: Equation) -> list[
     return rows
 
 
-def _fill_speeds(rows: list[dict], tracks: Tracks, window: np.ndarray, eq: Equation) -> None:
+def _fill_speeds(
+    rows: list[dict[str, Any]], tracks: Tracks, window: np.ndarray, eq: Equation
+) -> None:
     """Heights (and kappa from them) averaged over the separated frames, whatever the status."""
     use = window if window.any() else tracks.linked
     for i, row in enumerate(rows):
