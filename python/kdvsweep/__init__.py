@@ -3,13 +3,15 @@
 A Rust pseudo-spectral core stepped from Python; see the README for the job and the quick start.
 """
 
+import importlib.metadata
+
 from . import analysis, exact, initial, spectrum, sweep, theory
-from .exceptions import ConfigError, KdvsweepError, NumericalError, ShapeError
+from .exceptions import ConfigError, KdvsweepError, NumericalError, ShapeError, StoreBusyError
 from .model import Equation, Grid
 from .results import Results, load
 from .simulation import SCHEMES, Simulation, invariants
 
-__version__ = "0.1.0"
+__version__ = importlib.metadata.version("kdvsweep")
 
 __all__ = [
     "SCHEMES",
@@ -21,6 +23,7 @@ __all__ = [
     "Results",
     "ShapeError",
     "Simulation",
+    "StoreBusyError",
     "__version__",
     "analysis",
     "exact",

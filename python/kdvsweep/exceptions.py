@@ -21,4 +21,8 @@ class NumericalError(KdvsweepError, ArithmeticError):
     """A run went unstable: non-finite values or growth past the blow-up bound."""
 
 
-__all__ = ["ConfigError", "KdvsweepError", "NumericalError", "ShapeError"]
+class StoreBusyError(KdvsweepError, RuntimeError):
+    """Another process is writing to the store (it holds the store's lock)."""
+
+
+__all__ = ["ConfigError", "KdvsweepError", "NumericalError", "ShapeError", "StoreBusyError"]

@@ -18,6 +18,7 @@ import numpy as np
 import pandas as pd
 
 from .. import theory
+from ..columns import SOLITON_COLUMNS
 from ..exceptions import ConfigError
 from ..model import Equation, Grid
 from .fits import MIN_FRAMES, AsymptoticFit, fit_asymptotes
@@ -26,28 +27,8 @@ from .tracks import Tracks, check_record, track
 
 DEFAULT_SEPARATION = 16.0
 
-TABLE_COLUMNS = (
-    "soliton",
-    "sign",
-    "kappa",
-    "kappa_measured",
-    "kappa_from_height",
-    "speed",
-    "speed_before",
-    "speed_after",
-    "amplitude",
-    "collisions",
-    "offset_before",
-    "offset_after",
-    "shift_predicted",
-    "shift_measured",
-    "shift_error",
-    "shift_rel_error",
-    "shift_uncertainty",
-    "fit_residual",
-    "frames_before",
-    "frames_after",
-)
+#: Columns of a collision table: the solitons table's, less the run's id and the input centre.
+TABLE_COLUMNS = tuple(c.name for c in SOLITON_COLUMNS if c.name not in ("run_id", "x0"))
 
 
 @dataclass

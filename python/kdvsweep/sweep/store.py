@@ -40,7 +40,7 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 
 from ..columns import Layout, reserved_names
-from ..exceptions import ConfigError, KdvsweepError
+from ..exceptions import ConfigError, StoreBusyError
 from .config import RunSpec, Sweep
 from .runner import RunResult
 
@@ -56,10 +56,6 @@ STORE_VERSION = 2
 TABLES = ("runs", "solitons")
 _PART = re.compile(r"^part-(\d+)\.parquet$")
 _TMP_PREFIX = ".tmp-"
-
-
-class StoreBusyError(KdvsweepError, RuntimeError):
-    """Another process is writing to the store (it holds the store's lock)."""
 
 
 #: Transitional name for :class:`~kdvsweep.sweep.config.Sweep` (until the farm imports Sweep).
