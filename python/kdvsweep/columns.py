@@ -20,6 +20,8 @@ from dataclasses import dataclass
 
 import pyarrow as pa
 
+from .model import COEFFICIENT_MEANINGS
+
 
 @dataclass(frozen=True)
 class Column:
@@ -47,14 +49,10 @@ RUN_COLUMNS: tuple[Column, ...] = (
     Column(
         "equation", _S, "the equation's preset name (kdv, kdv-, mkdv, mkdv-, gardner) or custom"
     ),
-    Column(
-        "eq_a", _F, "coefficient a of u_t + (a u + b u^2) u_x + d u_xxx + f u_xxxxx = -g u + v u_xx"
+    *(
+        Column(f"eq_{key}", _F, f"coefficient {key} of the equation: {meaning}")
+        for key, meaning in COEFFICIENT_MEANINGS.items()
     ),
-    Column("eq_b", _F, "coefficient b (cubic flux) of the same equation"),
-    Column("eq_d", _F, "coefficient d (third-order dispersion)"),
-    Column("eq_f", _F, "coefficient f (fifth-order dispersion)"),
-    Column("eq_g", _F, "coefficient g (linear damping)"),
-    Column("eq_v", _F, "coefficient v (viscosity)"),
     Column("dealias", _F, "fraction of the Nyquist band kept in the nonlinear term"),
     Column("n", _I, "grid points"),
     Column("length", _F, "period L of the box [-L/2, L/2)"),

@@ -17,8 +17,16 @@ from .exceptions import ConfigError
 
 MIN_POINTS = 16
 
-#: The coefficients of the model, in the order of its terms.
-COEFFICIENTS = ("a", "b", "d", "f", "g", "v")
+#: The coefficients of the model, in the order of its terms, with what each multiplies.
+COEFFICIENT_MEANINGS: dict[str, str] = {
+    "a": "quadratic flux, a u u_x",
+    "b": "cubic flux, b u^2 u_x",
+    "d": "third-order dispersion, d u_xxx",
+    "f": "fifth-order dispersion, f u_xxxxx",
+    "g": "linear damping, -g u on the right",
+    "v": "viscosity, v u_xx on the right",
+}
+COEFFICIENTS = tuple(COEFFICIENT_MEANINGS)
 
 
 class CoreFields(TypedDict):
@@ -363,4 +371,12 @@ def sech(z: np.ndarray) -> np.ndarray:
     return 2.0 * e / (1.0 + e * e)
 
 
-__all__ = ["COEFFICIENTS", "CoreFields", "Equation", "Grid", "SolitonForm", "sech"]
+__all__ = [
+    "COEFFICIENTS",
+    "COEFFICIENT_MEANINGS",
+    "CoreFields",
+    "Equation",
+    "Grid",
+    "SolitonForm",
+    "sech",
+]

@@ -27,7 +27,7 @@ import numpy as np
 from .. import initial as init
 from ..columns import Layout
 from ..exceptions import ConfigError, ShapeError
-from ..model import Equation, Grid, SolitonForm
+from ..model import COEFFICIENTS, Equation, Grid, SolitonForm
 from ..simulation import ADAPTIVE, DEFAULT_SCHEME, SCHEMES, step_options
 from . import sizing
 from .expr import Expression, ExpressionError
@@ -43,7 +43,7 @@ PRESETS = ("kdv", "kdv-", "mkdv", "mkdv-", "gardner")
 _TOP = ("sweep", "model", "initial", "run", "vary", "derive", "sizing")
 _SWEEP = ("name", "note")
 _MODEL = ("equation", "points", "length", "scheme", "dt", "tol")
-_EQUATION = ("preset", "a", "b", "d", "f", "g", "v", "dealias")
+_EQUATION = ("preset", *COEFFICIENTS, "dealias")
 _RUN = ("end", "frame_every", "keep_frames", "keep_stride", "predict_content")
 _SIZING = ("tail",)
 _SOLITON_SIZES = ("kappa", "amplitude", "speed")
@@ -421,7 +421,7 @@ def _read_equation(
         if tab.has("preset")
         else None
     }
-    for coef in ("a", "b", "d", "f", "g", "v", "dealias"):
+    for coef in (*COEFFICIENTS, "dealias"):
         out[coef] = _num(src, tab.key(coef), tab.raw(coef), names) if tab.has(coef) else None
     return out
 
