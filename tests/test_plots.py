@@ -109,7 +109,7 @@ def test_mid_collision_markers_only_where_solitons_passed() -> None:
     # with no change of the lap index (a peak missed as a soliton crossed the box edge): not marked.
     linked = [True, True, False, False, True, True, False, False, True]
     laps = [-1, -1, np.nan, np.nan, 0, 0, np.nan, np.nan, 0]
-    assert plots._collision_frames(_fake_tracks(linked, laps)) == [2, 3]
+    assert plots.figures._collision_frames(_fake_tracks(linked, laps)) == [2, 3]
 
 
 def _sweep_table() -> pd.DataFrame:

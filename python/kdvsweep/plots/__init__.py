@@ -1,0 +1,32 @@
+"""Figures of collisions and sweeps (:mod:`.figures`), and of a whole store (:mod:`.store`)."""
+
+from .figures import (
+    ASYMPTOTE_GID,
+    FORMATS,
+    PEAK_GID,
+    STYLE,
+    TRAJECTORY_GID,
+    relative_error,
+    save,
+    shift_comparison,
+    spacetime,
+)
+from .store import FigureOutcome, FigurePlan, draw, iter_figures, plan_figures, plot_store
+
+__all__ = [
+    "ASYMPTOTE_GID",
+    "FORMATS",
+    "PEAK_GID",
+    "STYLE",
+    "TRAJECTORY_GID",
+    "FigureOutcome",
+    "FigurePlan",
+    "draw",
+    "iter_figures",
+    "plan_figures",
+    "plot_store",
+    "relative_error",
+    "save",
+    "shift_comparison",
+    "spacetime",
+]

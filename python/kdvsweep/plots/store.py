@@ -1,0 +1,376 @@
+"""Which figures a store can give, and drawing them: each with its one-line reason when not.
+
+:func:`plan_figures` lists the figures of a store (each with the one-line reason when it cannot be
+drawn), :func:`draw` makes one, :func:`iter_figures` and :func:`plot_store` make and save them all.
+Each run's equation is read from the store (``eq_a`` .. ``eq_v``, ``dealias``), never from a name.
+"""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Iterator, Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+import numpy as np
+import pandas as pd
+from matplotlib.figure import Figure
+
+from ..analysis import RunAnalysis, analyse_run
+from ..exceptions import ConfigError, KdvsweepError
+from ..model import Equation, Grid
+from .figures import (
+    FORMATS,
+    check_formats,
+    figure_style,
+    format_value,
+    relative_error,
+    save,
+    shift_comparison,
+    spacetime,
+)
+
+if TYPE_CHECKING:
+    from ..results import Results
+
+
+@dataclass(frozen=True)
+class FigurePlan:
+    """One figure of a store: what to draw, or the one-line reason it cannot be drawn.
+
+    Attributes
+    ----------
+    stem
+        File name without suffix (``shift_comparison``, ``relative_error_k2``, ``spacetime_run4``).
+    kind
+        ``"shift_comparison"``, ``"relative_error"`` or ``"spacetime"``.
+    parameter
+        The horizontal axis of a relative-error figure.
+    run_id
+        The run of a space-time figure.
+    group_by, color_by
+        Columns splitting the series, and colouring scattered points.
+    reason
+        Empty when the figure can be drawn; else why not, in one line.
+    notes
+        One-line caveats of a figure that is drawn (e.g. runs left out).
+    """
+
+    stem: str
+    kind: str
+    parameter: str | None = None
+    run_id: int | None = None
+    group_by: tuple[str, ...] = ()
+    color_by: str | None = None
+    reason: str = ""
+    notes: tuple[str, ...] = ()
+
+    @property
+    def drawable(self) -> bool:
+        """True when the figure can be drawn."""
+        return not self.reason
+
+
+@dataclass
+class FigureOutcome:
+    """What became of one :class:`FigurePlan`: the files written, and the one-line notes."""
+
+    plan: FigurePlan
+    paths: list[Path] = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)
+
+
+def _series_columns(runs: pd.DataFrame, parameters: Sequence[str], x: str | None) -> list[str]:
+    """Swept parameters with few values, used to split series (not the horizontal one)."""
+    out: list[str] = []
+    for p in parameters:
+        if p != x and p in runs.columns and runs[p].nunique(dropna=False) <= 6:
+            # A parameter zipped with those already chosen (fixed by them) adds no information.
+            if out and runs.groupby(out, dropna=False)[p].nunique(dropna=False).max() == 1:
+                continue
+            out.append(p)
+    return out
+
+
+def _axis_parameters(runs: pd.DataFrame, parameters: Sequence[str]) -> list[str]:
+    """Numeric swept parameters with enough values for a curve."""
+    return [
+        p
+        for p in parameters
+        if p in runs.columns and pd.api.types.is_numeric_dtype(runs[p]) and runs[p].nunique() > 3
+    ]
+
+
+def _equations(runs: pd.DataFrame) -> tuple[dict[int, Equation], str]:
+    """The equation of each run, read from its row; and the error when the store lacks them."""
+    out: dict[int, Equation] = {}
+    for row in runs.to_dict("records"):
+        try:
+            out[int(row["run_id"])] = Equation.from_columns(row)
+        except ConfigError as err:
+            return {}, str(err)
+    return out, ""
+
+
+def _describe_equations(equations: Sequence[Equation]) -> str:
+    forms = sorted({eq.describe() for eq in equations})
+    more = f" and {len(forms) - 2} more" if len(forms) > 2 else ""
+    return "; ".join(forms[:2]) + more
+
+
+def plan_figures(
+    results: Results, parameter: str | None = None, runs: Sequence[int] | None = None
+) -> list[FigurePlan]:
+    """The standard figures of a store, each with the reason when it cannot be drawn.
+
+    Parameters
+    ----------
+    results
+        The store's tables (:func:`kdvsweep.load`).
+    parameter
+        Swept parameter for the relative-error figure; default every numeric swept parameter with
+        more than three values.
+    runs
+        Run ids for space-time diagrams; default the first stored run of each series (at most 4).
+
+    Returns
+    -------
+    list of FigurePlan
+
+    Raises
+    ------
+    ConfigError
+        A requested run is not stored, failed or kept no frames; ``parameter`` is not a column.
+    """
+    params = results.parameters
+    table = results.runs
+    ok = table[table["status"] == "ok"] if "status" in table else table
+    if parameter is not None and parameter not in ok.columns:
+        raise ConfigError(
+            f"plot: no parameter {parameter!r} in the runs table; swept parameters: "
+            f"{', '.join(params) or 'none'}"
+        )
+    plans = _shift_plans(results, ok, params, parameter)
+    for run_id in (
+        runs if runs is not None else _default_runs(ok, _series_columns(ok, params, None))
+    ):
+        plans.append(_spacetime_plan(results, int(run_id), explicit=runs is not None))
+    return plans
+
+
+def _shift_plans(
+    results: Results, ok: pd.DataFrame, params: Sequence[str], parameter: str | None
+) -> list[FigurePlan]:
+    """Plans of the shift comparison and the relative-error figures."""
+    axes = [parameter] if parameter else _axis_parameters(ok, params)
+    stems: list[tuple[str, str, str | None]] = [("shift_comparison", "shift_comparison", None)]
+    stems += [(f"relative_error_{p}", "relative_error", p) for p in axes]
+
+    def none_drawn(reason: str) -> list[FigurePlan]:
+        return [FigurePlan(stem, kind, parameter=p, reason=reason) for stem, kind, p in stems]
+
+    solitons = results.solitons
+    if solitons.empty:
+        return none_drawn("the store has no soliton rows (no run started from solitons)")
+    equations, missing = _equations(ok)
+    if missing:
+        return none_drawn(missing)
+    kept = [rid for rid, eq in equations.items() if eq.integrable]
+    left = [equations[rid] for rid in equations if rid not in set(kept)]
+    notes: tuple[str, ...] = ()
+    if left:
+        why = (
+            "theory predicts phase shifts for unperturbed KdV and focusing mKdV only; "
+            f"{len(left)} run(s) have {_describe_equations(left)}"
+        )
+        if not kept:
+            return none_drawn(why)
+        notes = (f"left out: {why}",)
+    measured = solitons[solitons["run_id"].isin(kept)].dropna(
+        subset=["shift_predicted", "shift_measured"]
+    )
+    if measured.empty:
+        return none_drawn(
+            "no run has measured shifts (see the reason column of `kdvsweep table OUT --runs`)"
+        )
+    sub = ok[ok["run_id"].isin(kept)]
+    plans = []
+    for stem, kind, p in stems:
+        series = tuple(_series_columns(sub, params, p if p else (axes[0] if axes else None)))
+        color_by = None
+        if p is not None:
+            others = [q for q in _axis_parameters(sub, params) if q != p and q not in series]
+            if others:
+                color_by = others[0]
+        plans.append(FigurePlan(stem, kind, p, None, series, color_by, "", notes))
+    return plans
+
+
+def _spacetime_plan(results: Results, run_id: int, explicit: bool) -> FigurePlan:
+    stem = f"spacetime_run{run_id}"
+    table = results.runs
+    row = table[table["run_id"] == run_id]
+    if row.empty:
+        ids = table["run_id"].to_numpy()
+        have = f"stored run ids {ids.min()}..{ids.max()}" if ids.size else "no run is stored"
+        raise ConfigError(f"plot: run {run_id} is not in the store {results.path} ({have})")
+    rec = row.iloc[0]
+    if rec.get("status", "ok") != "ok":
+        raise ConfigError(f"plot: run {run_id} failed ({rec.get('reason')}); it has no frames")
+    if int(rec.get("frames_stored", 0) or 0) == 0:
+        raise ConfigError(
+            f"plot: run {run_id} kept no frames; set keep_frames = true in the sweep's [run] "
+            "table and run it into a new folder"
+        )
+    try:
+        eq = Equation.from_columns(rec.to_dict())
+    except ConfigError as err:
+        return FigurePlan(stem, "spacetime", run_id=run_id, reason=str(err))
+    notes: tuple[str, ...] = ()
+    if eq.soliton_form_or_none() is None:
+        notes = (
+            "field only: the collision analysis follows KdV and focusing-mKdV solitons; "
+            f"this run has {eq.describe()}",
+        )
+    return FigurePlan(stem, "spacetime", run_id=run_id, notes=notes)
+
+
+def _default_runs(runs: pd.DataFrame, series: Sequence[str]) -> list[int]:
+    if "frames_stored" in runs:
+        runs = runs[runs["frames_stored"] > 0]
+    if runs.empty:
+        return []
+    if not series:
+        return [int(runs["run_id"].iloc[0])]
+    return [int(part["run_id"].iloc[0]) for _, part in runs.groupby(list(series), sort=True)][:4]
+
+
+def _joined(results: Results) -> pd.DataFrame:
+    """Soliton rows of the ok runs with their runs' parameters."""
+    params = results.parameters
+    table = results.runs
+    ok = table[table["status"] == "ok"] if "status" in table else table
+    keep = ["run_id", *(c for c in ok.columns if c in params or c == "equation")]
+    return results.solitons.merge(ok[list(dict.fromkeys(keep))], on="run_id", how="inner")
+
+
+def draw(results: Results, plan: FigurePlan) -> tuple[Figure, list[str]]:
+    """Draw one planned figure; returns it with the one-line notes found while drawing.
+
+    Raises
+    ------
+    ConfigError
+        The plan cannot be drawn (its ``reason``).
+    """
+    if plan.reason:
+        raise ConfigError(f"{plan.stem}: {plan.reason}")
+    notes = list(plan.notes)
+    if plan.kind == "spacetime":
+        assert plan.run_id is not None
+        return _spacetime_of_run(results, plan.run_id, notes), notes
+    table = results.runs
+    ok = table[table["status"] == "ok"] if "status" in table else table
+    equations, _ = _equations(ok)
+    kept = [rid for rid, eq in equations.items() if eq.integrable]
+    merged = _joined(results)
+    merged = merged[merged["run_id"].isin(kept)]
+    if plan.kind == "shift_comparison":
+        return shift_comparison(merged, plan.group_by), notes
+    assert plan.parameter is not None
+    fig = relative_error(merged, plan.parameter, plan.group_by, color_by=plan.color_by)
+    return fig, notes
+
+
+def _spacetime_of_run(results: Results, run_id: int, notes: list[str]) -> Figure:
+    row = results.runs[results.runs["run_id"] == run_id].iloc[0]
+    eq = Equation.from_columns(row.to_dict())
+    frames = results.frames(run_id)
+    grid = Grid(int(row["n"]), float(row["length"]))
+    analysis: RunAnalysis | None = None
+    if eq.soliton_form_or_none() is not None:
+        sol = results.solitons[results.solitons["run_id"] == run_id].sort_values("soliton")
+        kappas = sol["kappa"].to_numpy(float) if len(sol) else None
+        if kappas is not None and not np.all(np.isfinite(kappas)):
+            kappas = None
+        try:
+            analysis = analyse_run(frames.u, frames.times, grid, eq, kappas)
+        except KdvsweepError as err:
+            notes.append(f"field only: the collision analysis failed: {err}")
+        else:
+            if analysis.tracks.reason:
+                notes.append(f"field only: {analysis.tracks.reason}")
+                analysis = None
+            elif not analysis.ok:
+                notes.append(
+                    "no asymptotes: " + str(analysis.summary.get("analysis_reason", "not fitted"))
+                )
+    params = [p for p in results.parameters if p in row.index and p != "equation"]
+    label = ", ".join(f"{p} = {format_value(row[p])}" for p in params)
+    title = eq.describe() + (f"\n{label}" if label else "")
+    return spacetime(frames.u, frames.times, grid, analysis, title=title)
+
+
+def iter_figures(
+    out: str | os.PathLike[str],
+    into: str | os.PathLike[str] | None = None,
+    parameter: str | None = None,
+    runs: Sequence[int] | None = None,
+    formats: Sequence[str] = FORMATS,
+) -> Iterator[FigureOutcome]:
+    """Make and save the standard figures of a store, one at a time.
+
+    Parameters as :func:`plot_store`. Every figure is planned before the first is drawn, so a
+    request that cannot be met (a run that is not stored) fails before anything is written.
+
+    Yields
+    ------
+    FigureOutcome
+        For each planned figure: the files written, or none and the reason in ``notes``.
+    """
+    from ..results import load
+
+    res = load(out)
+    dest = Path(into) if into is not None else Path(out) / "figures"
+    check_formats(formats)  # before anything is drawn
+    for plan in plan_figures(res, parameter, runs):
+        if not plan.drawable:
+            yield FigureOutcome(plan, [], [plan.reason])
+            continue
+        with figure_style():
+            fig, notes = draw(res, plan)
+            paths = save(fig, dest / plan.stem, formats)
+        yield FigureOutcome(plan, paths, notes)
+
+
+def plot_store(
+    out: str | os.PathLike[str],
+    into: str | os.PathLike[str] | None = None,
+    parameter: str | None = None,
+    runs: Sequence[int] | None = None,
+    formats: Sequence[str] = FORMATS,
+) -> list[Path]:
+    """Make the standard figures of a sweep store; returns the files written.
+
+    Parameters
+    ----------
+    out
+        The store folder (read with :func:`kdvsweep.load`).
+    into
+        Where to write the figures; default ``OUT/figures``.
+    parameter
+        Swept parameter for the relative-error plot; default every numeric swept parameter with
+        more than three values.
+    runs
+        Run ids for space-time diagrams; default the first stored run of each series.
+    formats
+        File formats.
+
+    Returns
+    -------
+    list of pathlib.Path
+        The files written (:func:`iter_figures` also says why a figure was not drawn).
+    """
+    return [
+        p for outcome in iter_figures(out, into, parameter, runs, formats) for p in outcome.paths
+    ]
