@@ -134,9 +134,10 @@ def _soliton_profile(
     """The equation's soliton shape (polarity ``sign`` for mKdV; KdV's is the equation's) with its
     two nearest periodic images."""
     form = eq.soliton_form
-    return np.sum(
-        [form.profile(x, kappa, centre + image, sign) for image in (-length, 0.0, length)], axis=0
-    )
+    out = np.zeros_like(x)
+    for image in (-length, 0.0, length):
+        out += form.profile(x - centre, kappa, image, sign)
+    return out
 
 
 def _radiation(
