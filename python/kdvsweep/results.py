@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import os
+import zipfile
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, NamedTuple
@@ -12,7 +13,7 @@ import pandas as pd
 
 from .exceptions import ConfigError
 from .model import Grid
-from .sweep.store import frames_path, read_manifest, read_table
+from .sweep.store import StoreCheck, frames_path, read_store
 
 
 class Frames(NamedTuple):
@@ -39,12 +40,16 @@ class Results:
         "The tables"); ``Equation.from_columns(row)`` gives the equation of a row.
     solitons
         One row per soliton per stored run, sorted by ``run_id`` then ``soliton``.
+    check
+        What was found on disk: damaged batches left out (``load(..., skip_damaged=True)``) and
+        rows not counted (run ids outside the sweep, rows of runs stored before).
     """
 
     path: Path
     manifest: dict[str, Any]
     runs: pd.DataFrame
     solitons: pd.DataFrame
+    check: StoreCheck | None = None
 
     @property
     def parameters(self) -> list[str]:
@@ -84,8 +89,14 @@ class Results:
                 "of a sweep with frame storage on"
             )
         row = self.runs.loc[self.runs["run_id"] == int(run_id)].iloc[0]
-        with np.load(path) as data:
-            times, u = data["t"], data["u"]
+        try:
+            with np.load(path) as data:
+                times, u = data["t"], data["u"]
+        except (OSError, ValueError, KeyError, zipfile.BadZipFile) as exc:
+            raise ConfigError(
+                f"{path}: damaged frames file ({type(exc).__name__}: {exc}); delete it and run "
+                "the sweep again to redo the run, or use the tables without its frames"
+            ) from None
         return Frames(times, Grid(int(row["n"]), float(row["length"])).x, u)
 
     def summary(self) -> pd.DataFrame:
@@ -93,22 +104,32 @@ class Results:
         return summary_table(self)
 
 
-def load(out: str | os.PathLike[str]) -> Results:
+def load(out: str | os.PathLike[str], skip_damaged: bool = False) -> Results:
     """Load the store ``out`` (a folder made by ``kdvsweep run`` / ``kv.sweep.run``).
 
     Parameters
     ----------
     out
         The store folder.
+    skip_damaged
+        Leave out the batches whose files are damaged (``.check.damaged`` lists them; their runs
+        count as pending) instead of raising.
 
     Returns
     -------
     Results
-        ``.runs``, ``.solitons`` (DataFrames), ``.manifest`` (dict), ``.frames(run_id)``.
+        ``.runs``, ``.solitons`` (DataFrames), ``.manifest`` (dict), ``.frames(run_id)``,
+        ``.check`` (what was found on disk).
+
+    Raises
+    ------
+    ConfigError
+        ``out`` is not a store; or a batch is damaged (unless ``skip_damaged``): the message names
+        the file and what to do (README, "What the store guarantees").
     """
     path = Path(out)
-    manifest = read_manifest(path)
-    return Results(path, manifest, read_table(path, "runs"), read_table(path, "solitons"))
+    contents = read_store(path, skip_damaged=skip_damaged)
+    return Results(path, contents.manifest, contents.runs, contents.solitons, contents.check)
 
 
 def summary_table(results: Results) -> pd.DataFrame:

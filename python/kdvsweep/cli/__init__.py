@@ -41,6 +41,10 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KdvsweepError as exc:
         say(f"error: {exc}")
         return 2
+    except OSError as exc:  # a file the library did not expect to fail: one line, no traceback
+        where = f"{exc.filename}: " if exc.filename else ""
+        say(f"error: {where}{exc.strerror or exc}; expected a file or folder that can be used")
+        return 2
 
 
 __all__ = ["COMMANDS", "build_parser", "demo_file", "main"]

@@ -119,6 +119,7 @@ def _run(args: argparse.Namespace, file: Path) -> int:
         say(f"warning: {warning}")
     out = args.out if args.out is not None else Path("results") / sweep.name
     chunk = args.chunk_seconds if args.chunk_seconds is not None else CHUNK_SECONDS
+    _say_store_state(out)
     try:
         with Progress(enabled=args.progress) as bar:
             report = run(
@@ -149,10 +150,40 @@ def _demo(args: argparse.Namespace) -> int:
     return _table(args.out)
 
 
+def _say_store_state(out: Path) -> None:
+    """Before a run resumes a store: one line on what it will set aside or not count."""
+    from ..sweep.store import MANIFEST, check_store
+
+    if not (out / MANIFEST).is_file():
+        return
+    try:
+        check = check_store(out)
+    except ConfigError:
+        return  # the run itself says what is wrong with the folder
+    if check.damaged:
+        more = f" (and {len(check.damaged) - 1} more)" if len(check.damaged) > 1 else ""
+        say(
+            f"warning: {len(check.damaged)} damaged batch(es) in {out}: {check.damaged[0]}{more}; "
+            "set aside as *.damaged, their runs are run again"
+        )
+    for line in check.ignored:
+        say(f"warning: {out}/{line}")
+
+
+def _damage_lines(res: Any) -> int:
+    """Say what a store's check found (one line each); 1 when a batch is damaged, else 0."""
+    for line in res.check.ignored:
+        say(f"warning: {res.path}/{line}")
+    if res.check.damaged:
+        say(f"warning: {res.path}: {res.check.summary()}")
+        return 1
+    return 0
+
+
 def _table(out: Path, runs: bool = False) -> int:
     from ..results import load
 
-    res = load(out)
+    res = load(out, skip_damaged=True)
     counts = res.counts()
     if runs:
         print_frame(res.runs)
@@ -170,13 +201,13 @@ def _table(out: Path, runs: bool = False) -> int:
         f"\n{counts['ok']} ok, {counts['failed']} failed, {counts['pending']} pending "
         f"of {counts['total']} runs; results in {out.resolve()}"
     )
-    return 0
+    return _damage_lines(res)
 
 
 def _status(out: Path) -> int:
     from ..results import load
 
-    res = load(out)
+    res = load(out, skip_damaged=True)
     counts = res.counts()
     print(f"sweep   {res.manifest.get('sweep_name')} ({res.manifest.get('sweep_file')})")
     print(f"store   {out.resolve()}")
@@ -189,7 +220,11 @@ def _status(out: Path) -> int:
         print("most common reasons of failure:")
         for reason, count in reasons.items():
             print(f"  {count:6d}  {reason}")
-    return 0
+    if res.check is not None and res.check.damaged:
+        print(f"damage  {res.check.summary()}")
+    for line in res.check.ignored if res.check is not None else ():
+        print(f"ignored {line}")
+    return 1 if res.check is not None and res.check.damaged else 0
 
 
 __all__ = ["DEMO_OUT", "demo_file", "register"]

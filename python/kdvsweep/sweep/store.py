@@ -14,8 +14,18 @@ files). Every file is written to a temporary name in its own folder, fsync'ed, t
 ``os.replace``, so a file is either whole or absent even after SIGKILL or a power cut. A batch is
 committed by its runs part, which is written last: solitons parts and frames whose runs part is
 missing are leftovers of an interrupted batch and are ignored (and overwritten when the runs are
-redone). Readers keep the first stored row of each ``run_id``. The manifest ties the folder to one
-sweep definition by its digest, so another sweep cannot be mixed in.
+redone). Readers keep the first stored row of each ``run_id`` of the sweep; rows of a ``run_id``
+outside the sweep are ignored (and reported). The manifest ties the folder to one sweep definition
+by its digest, so another sweep cannot be mixed in: the lock is taken before the manifest is
+written or checked, and the manifest is written last when a store is made, so a folder holding
+only the lock, empty table folders or temporary files is a store that was never finished.
+
+Each runs part carries in its Parquet metadata the record of its batch: the row count, size and
+SHA-256 of the batch's solitons part. Opening a store for writing checks every committed batch
+(readable Parquet with the store's columns, page checksums, the solitons part as recorded); a
+batch that is not whole is set aside (its files renamed ``part-NNNNNN.parquet.damaged``, the runs
+part first, which uncommits it) and its runs are pending again. Readers report such batches
+(:class:`StoreCheck`) instead of failing deep inside pyarrow.
 
 Every part of a table is written with the one Arrow schema of :mod:`kdvsweep.columns` for the
 sweep's :class:`~kdvsweep.columns.Layout` (kept in the manifest), whatever the values of the batch.
@@ -25,12 +35,16 @@ from __future__ import annotations
 
 import contextlib
 import datetime as dt
+import errno
+import hashlib
 import importlib.metadata
 import io
 import json
 import os
 import re
+import time
 from collections.abc import Iterable, Iterator, Mapping, Sequence
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
@@ -39,8 +53,8 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from ..columns import Layout, reserved_names
-from ..exceptions import ConfigError, StoreBusyError
+from ..columns import PARAMETER_TYPES, Layout, reserved_names
+from ..exceptions import ConfigError, KdvsweepError, StoreBusyError
 from .config import RunSpec, Sweep
 from .runner import RunResult
 
@@ -50,12 +64,25 @@ except ImportError:  # pragma: no cover
     fcntl = None  # type: ignore[assignment]
 
 MANIFEST = "manifest.json"
+LOCK = ".lock"
 STORE_FORMAT = "kdvsweep-store"
 #: Version 2: typed Parquet schema in every part, the model's coefficients in the runs table.
 STORE_VERSION = 2
 TABLES = ("runs", "solitons")
 _PART = re.compile(r"^part-(\d+)\.parquet$")
 _TMP_PREFIX = ".tmp-"
+#: Suffix of the files of a batch set aside as damaged (no longer matched as parts).
+DAMAGED_SUFFIX = ".damaged"
+#: Key of the batch record in the Parquet metadata of a runs part.
+_RECORD_KEY = b"kdvsweep.batch"
+#: Seconds a writer waits for the lock: a process that only checks the folder holds it briefly.
+LOCK_WAIT = 2.0
+
+#: What to do after a store was found damaged (one home for the advice).
+REPAIR_ADVICE = (
+    "run the same sweep again into this folder (`kdvsweep run FILE --out OUT`): the damaged "
+    "batches are set aside as *.damaged files and their runs are run again"
+)
 
 
 #: Transitional name for :class:`~kdvsweep.sweep.config.Sweep` (until the farm imports Sweep).
@@ -76,19 +103,45 @@ def _fsync_dir(folder: Path) -> None:
         os.close(fd)
 
 
+def io_error(path: Path, exc: OSError, doing: str = "write") -> KdvsweepError:
+    """A one-line error for an operating-system failure on ``path``, with what to do about it."""
+    reason = exc.strerror or str(exc) or type(exc).__name__
+    if exc.errno in (errno.ENOSPC, errno.EDQUOT):
+        advice = (
+            "free some space (or choose another output folder), then run the same command "
+            "again: what is stored is whole and the sweep resumes"
+        )
+    elif exc.errno in (errno.EACCES, errno.EPERM, errno.EROFS):
+        advice = "expected a folder you may write to; choose another output folder with --out"
+    else:
+        advice = "fix the cause, then run the same command again: what is stored is whole"
+    return KdvsweepError(f"{path}: cannot {doing} ({reason}); {advice}")
+
+
 def write_atomic(path: Path, data: bytes, sync_dir: bool = True) -> None:
     """Write ``data`` to ``path`` so that ``path`` is either the old file, absent, or whole.
 
     Temporary file in the same folder (a rename across file systems is not atomic), fsync, rename.
     ``sync_dir=False`` leaves the fsync of the folder (which makes the rename durable) to the
     caller, who can then do it once for many files.
+
+    Raises
+    ------
+    KdvsweepError
+        The file could not be written (full disk, no permission...); the temporary file is
+        removed and ``path`` is left as it was.
     """
     tmp = path.with_name(f"{_TMP_PREFIX}{os.getpid()}-{path.name}")
-    with open(tmp, "wb") as fh:
-        fh.write(data)
-        fh.flush()
-        os.fsync(fh.fileno())
-    os.replace(tmp, path)
+    try:
+        with open(tmp, "wb") as fh:
+            fh.write(data)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    except OSError as exc:
+        with contextlib.suppress(OSError):
+            tmp.unlink(missing_ok=True)
+        raise io_error(path, exc) from None
     if sync_dir:
         _fsync_dir(path.parent)
 
@@ -104,20 +157,20 @@ def _arrow_table(rows: Sequence[Mapping[str, Any]], schema: pa.Schema) -> pa.Tab
                 "expected the columns of kdvsweep.columns"
             )
     arrays = []
-    for field in schema:
-        values = [row.get(field.name) for row in rows]
+    for fld in schema:
+        values = [row.get(fld.name) for row in rows]
         try:
-            arrays.append(pa.array(values, type=field.type, from_pandas=True))
+            arrays.append(pa.array(values, type=fld.type, from_pandas=True))
         except (pa.ArrowInvalid, pa.ArrowTypeError) as exc:
             raise ConfigError(
-                f"store: column {field.name!r} holds {values[:3]!r}...; expected {field.type} ({exc})"
+                f"store: column {fld.name!r} holds {values[:3]!r}...; expected {fld.type} ({exc})"
             ) from None
     return pa.Table.from_arrays(arrays, schema=schema)
 
 
 def _parquet_bytes(table: pa.Table) -> bytes:
     buf = io.BytesIO()
-    pq.write_table(table, buf)
+    pq.write_table(table, buf, write_page_checksum=True)
     return buf.getvalue()
 
 
@@ -126,7 +179,11 @@ def part_files(folder: Path) -> dict[int, Path]:
     if not folder.is_dir():
         return {}
     found = {}
-    for entry in folder.iterdir():
+    try:
+        entries = list(folder.iterdir())
+    except OSError:
+        return {}
+    for entry in entries:
         m = _PART.match(entry.name)
         if m:
             found[int(m.group(1))] = entry
@@ -144,7 +201,10 @@ def read_manifest(out: str | os.PathLike[str]) -> dict[str, Any]:
     try:
         manifest = json.loads(path.read_text(encoding="utf-8"))
     except (OSError, ValueError) as exc:
-        raise ConfigError(f"{path}: unreadable manifest ({exc}); expected JSON") from exc
+        raise ConfigError(
+            f"{path}: unreadable manifest ({_short(exc)}); expected the JSON written by "
+            "`kdvsweep run` (if it was damaged, run the sweep into a new folder)"
+        ) from None
     found = manifest.get("format") if isinstance(manifest, dict) else type(manifest).__name__
     if found != STORE_FORMAT:
         raise ConfigError(f"{path}: format is {found!r}; expected {STORE_FORMAT!r}")
@@ -155,7 +215,34 @@ def read_manifest(out: str | os.PathLike[str]) -> dict[str, Any]:
             f"{manifest.get('package_version', '?')}); this kdvsweep reads version {STORE_VERSION}: "
             "run the sweep again into a new folder, or read this one with the kdvsweep that wrote it"
         )
+    problem = _manifest_problem(manifest)
+    if problem:
+        raise ConfigError(
+            f"{path}: damaged manifest ({problem}); expected the manifest written by "
+            "`kdvsweep run` (run the sweep into a new folder)"
+        )
     return manifest
+
+
+def _manifest_problem(manifest: Mapping[str, Any]) -> str | None:
+    """What is wrong with the fields of a manifest the store relies on, or None."""
+    if not isinstance(manifest.get("digest"), str):
+        return "digest is not text"
+    total = manifest.get("runs_total")
+    if not isinstance(total, int) or isinstance(total, bool) or total < 0:
+        return f"runs_total is {total!r}, not a count"
+    params = manifest.get("parameters", [])
+    if not isinstance(params, list) or not all(isinstance(p, str) for p in params):
+        return "parameters is not a list of names"
+    lay = manifest.get("layout")
+    if not isinstance(lay, dict):
+        return "layout is not an object"
+    kinds = lay.get("parameters", {})
+    if not isinstance(kinds, dict) or not all(
+        isinstance(k, str) and v in PARAMETER_TYPES for k, v in kinds.items()
+    ):
+        return f"layout parameters are not names of kinds {sorted(PARAMETER_TYPES)}"
+    return None
 
 
 def layout(manifest: Mapping[str, Any]) -> Layout:
@@ -167,47 +254,316 @@ def _committed_parts(out: Path) -> dict[int, Path]:
     return part_files(out / "runs")
 
 
-def read_table(out: str | os.PathLike[str], table: str) -> pd.DataFrame:
-    """One table of a store, deduplicated by run (first stored row wins) and sorted.
+def _short(exc: BaseException, limit: int = 160) -> str:
+    """The first line of an exception's message, shortened."""
+    text = (str(exc).strip().splitlines() or [type(exc).__name__])[0]
+    return text if len(text) <= limit else text[: limit - 3] + "..."
 
-    Parts of the solitons table count only when the runs part of the same batch exists.
+
+# -- checking what is stored ---------------------------------------------------------------------
+class _Broken(Exception):
+    """A part that is not whole (internal: becomes a :class:`Damage`)."""
+
+
+@dataclass(frozen=True)
+class Damage:
+    """A committed batch whose files are not whole: its runs count as pending.
+
+    Attributes
+    ----------
+    batch
+        The batch's sequence number (``part-NNNNNN``).
+    path
+        The file found wrong (the runs or the solitons part of the batch).
+    problem
+        What is wrong, one line.
     """
+
+    batch: int
+    path: Path
+    problem: str
+
+    def __str__(self) -> str:
+        return f"{self.path.parent.name}/{self.path.name}: {self.problem}"
+
+
+@dataclass
+class StoreCheck:
+    """What a store holds, as found on disk.
+
+    Attributes
+    ----------
+    out
+        The store folder.
+    total
+        Runs in the sweep.
+    kept
+        Stored run id -> the batch its row is read from (the first stored row of the run).
+    failed
+        Stored runs whose status is not "ok".
+    damaged
+        Batches that are not whole (their runs are not in ``kept``).
+    ignored
+        One line per part holding rows that are not counted: run ids outside the sweep, rows of
+        runs already stored.
+    """
+
+    out: Path
+    total: int
+    kept: dict[int, int] = field(default_factory=dict)
+    failed: set[int] = field(default_factory=set)
+    damaged: list[Damage] = field(default_factory=list)
+    ignored: list[str] = field(default_factory=list)
+
+    @property
+    def ok(self) -> bool:
+        """No damaged batch."""
+        return not self.damaged
+
+    def summary(self) -> str:
+        """One line on the damaged batches and what to do, or "" when there is none."""
+        if not self.damaged:
+            return ""
+        more = f" (and {len(self.damaged) - 1} more)" if len(self.damaged) > 1 else ""
+        return (
+            f"{len(self.damaged)} damaged batch(es), their runs count as pending: "
+            f"{self.damaged[0]}{more}; {REPAIR_ADVICE}"
+        )
+
+
+def _schema_difference(found: pa.Schema, expected: pa.Schema) -> str:
+    names = set(found.names)
+    missing = [n for n in expected.names if n not in names]
+    extra = [n for n in found.names if n not in set(expected.names)]
+    typed = [
+        f"{f.name} is {f.type}, not {expected.field(f.name).type}"
+        for f in found
+        if f.name in set(expected.names) and f.type != expected.field(f.name).type
+    ]
+    parts = []
+    if missing:
+        parts.append(f"missing {missing[:4]}{'...' if len(missing) > 4 else ''}")
+    if extra:
+        parts.append(f"unknown {extra[:4]}{'...' if len(extra) > 4 else ''}")
+    parts += typed[:2]
+    return "; ".join(parts) or "columns in another order"
+
+
+def _parse(data: bytes, schema: pa.Schema) -> pa.Table:
+    """The table in ``data`` if it is whole Parquet of exactly ``schema``; else :class:`_Broken`."""
+    if not data:
+        raise _Broken("empty file (0 bytes)")
+    try:
+        pf = pq.ParquetFile(pa.BufferReader(data), page_checksum_verification=True)
+        found = pf.schema_arrow
+    except (pa.ArrowException, OSError, ValueError) as exc:
+        raise _Broken(f"not a readable Parquet file ({_short(exc)})") from None
+    if not found.remove_metadata().equals(schema):
+        raise _Broken(f"columns differ from the store's ({_schema_difference(found, schema)})")
+    try:
+        return pf.read()
+    except (pa.ArrowException, OSError, ValueError) as exc:
+        raise _Broken(f"unreadable data ({_short(exc)})") from None
+
+
+def _read_bytes(path: Path) -> bytes:
+    try:
+        return path.read_bytes()
+    except FileNotFoundError:
+        raise
+    except OSError as exc:
+        raise _Broken(f"unreadable ({exc.strerror or _short(exc)})") from None
+
+
+def _record(table: pa.Table) -> dict[str, Any] | None:
+    """The batch record of a runs part, None for a part written without one (older kdvsweep)."""
+    meta = table.schema.metadata or {}
+    raw = meta.get(_RECORD_KEY)
+    if raw is None:
+        return None
+    try:
+        record = json.loads(raw)
+        rows, size, digest = record["rows"], record["bytes"], record["sha256"]
+    except (ValueError, KeyError, TypeError):
+        raise _Broken("its batch record is unreadable") from None
+    if not (isinstance(rows, int) and isinstance(size, int) and isinstance(digest, str)):
+        raise _Broken("its batch record is unreadable")
+    return {"rows": rows, "bytes": size, "sha256": digest}
+
+
+def _batch(out: Path, seq: int, runs_path: Path, lay: Layout) -> tuple[pa.Table, pa.Table | None]:
+    """The runs and solitons tables of one committed batch, checked; :class:`_Broken` names the
+    file found wrong (as its first argument) and the problem."""
+    try:
+        runs = _parse(_read_bytes(runs_path), lay.schema("runs"))
+        record = _record(runs)
+    except _Broken as exc:
+        raise _Broken(runs_path, str(exc)) from None
+    sol_path = out / "solitons" / runs_path.name
+    solitons: pa.Table | None = None
+    try:
+        if record is None:  # an older part: what can be checked without a record
+            if sol_path.exists():
+                solitons = _parse(_read_bytes(sol_path), lay.schema("solitons"))
+        elif record["rows"]:
+            try:
+                data = _read_bytes(sol_path)
+            except FileNotFoundError:
+                raise _Broken(
+                    f"missing; the batch's runs part records {record['rows']} rows"
+                ) from None
+            if len(data) != record["bytes"] or hashlib.sha256(data).hexdigest() != record["sha256"]:
+                raise _Broken(
+                    f"changed since it was written ({len(data)} bytes, "
+                    f"{record['bytes']} recorded, checksum differs)"
+                )
+            solitons = _parse(data, lay.schema("solitons"))
+            if solitons.num_rows != record["rows"]:
+                raise _Broken(f"{solitons.num_rows} rows, {record['rows']} recorded")
+        if solitons is not None:
+            own = set(runs.column("run_id").to_pylist())
+            strays = set(solitons.column("run_id").to_pylist()) - own
+            if strays:
+                raise _Broken(f"rows of run(s) {sorted(strays, key=str)[:4]} not in its batch")
+    except FileNotFoundError:
+        raise _Broken(sol_path, "vanished while it was read") from None
+    except _Broken as exc:
+        raise _Broken(sol_path, str(exc)) from None
+    return runs, solitons
+
+
+def _scan(
+    out: Path, manifest: Mapping[str, Any], keep: bool
+) -> tuple[StoreCheck, dict[int, tuple[pa.Table, pa.Table | None]]]:
+    """Check every committed batch; with ``keep``, also return the tables of the whole ones."""
+    lay = layout(manifest)
+    check = StoreCheck(out, int(manifest["runs_total"]))
+    tables: dict[int, tuple[pa.Table, pa.Table | None]] = {}
+    for seq, path in _committed_parts(out).items():
+        try:
+            runs, solitons = _batch(out, seq, path, lay)
+        except FileNotFoundError:  # set aside meanwhile by a writer: not committed any more
+            continue
+        except _Broken as exc:
+            where, problem = exc.args if len(exc.args) == 2 else (path, str(exc))
+            check.damaged.append(Damage(seq, Path(where), str(problem)))
+            continue
+        outside = duplicate = 0
+        for rid, status in zip(
+            runs.column("run_id").to_pylist(), runs.column("status").to_pylist(), strict=True
+        ):
+            if rid is None or not 0 <= rid < check.total:
+                outside += 1
+            elif rid in check.kept:
+                duplicate += 1
+            else:
+                check.kept[rid] = seq
+                if status != "ok":
+                    check.failed.add(rid)
+        name = f"runs/{path.name}"
+        if outside:
+            check.ignored.append(
+                f"{name}: {outside} row(s) of a run_id outside the sweep "
+                f"(0..{check.total - 1}) ignored"
+            )
+        if duplicate:
+            check.ignored.append(
+                f"{name}: {duplicate} row(s) of runs stored before ignored (the first row counts)"
+            )
+        if keep:
+            tables[seq] = (runs, solitons)
+    return check, tables
+
+
+def check_store(out: str | os.PathLike[str]) -> StoreCheck:
+    """Check a store without changing it: damaged batches, ignored rows, what is stored.
+
+    Raises
+    ------
+    ConfigError
+        ``out`` is not a store this kdvsweep reads.
+    """
+    out = Path(out)
+    return _scan(out, read_manifest(out), keep=False)[0]
+
+
+@dataclass
+class StoreContents:
+    """The tables of a store as read (see :func:`read_store`)."""
+
+    manifest: dict[str, Any]
+    runs: pd.DataFrame
+    solitons: pd.DataFrame
+    check: StoreCheck
+
+
+def read_store(out: str | os.PathLike[str], skip_damaged: bool = False) -> StoreContents:
+    """Both tables of a store, deduplicated by run (first stored row wins) and sorted.
+
+    Rows of a ``run_id`` outside the sweep are left out (``check.ignored`` says so). Parts of the
+    solitons table count only when the runs part of the same batch exists; a run's solitons come
+    from the batch of its kept runs row.
+
+    Parameters
+    ----------
+    out
+        The store folder.
+    skip_damaged
+        Leave damaged batches out (``check.damaged`` lists them) instead of raising.
+
+    Raises
+    ------
+    ConfigError
+        ``out`` is not a store, or (unless ``skip_damaged``) a batch of it is damaged: the message
+        names the file and what to do.
+    """
+    out = Path(out)
+    manifest = read_manifest(out)
+    lay = layout(manifest)
+    check, tables = _scan(out, manifest, keep=True)
+    if check.damaged and not skip_damaged:
+        raise ConfigError(f"{out}: {check.summary()}")
+    run_parts, sol_parts = [], []
+    for seq, (runs, solitons) in tables.items():
+        ids = runs.column("run_id").to_pylist()
+        taken: set[int] = set()
+        mask = []
+        for rid in ids:
+            mine = rid is not None and check.kept.get(rid) == seq and rid not in taken
+            if mine:
+                taken.add(rid)
+            mask.append(mine)
+        run_parts.append(runs.filter(pa.array(mask, type=pa.bool_())))
+        if solitons is not None:
+            sol_mask = [
+                r is not None and check.kept.get(r) == seq
+                for r in solitons.column("run_id").to_pylist()
+            ]
+            sol_parts.append(solitons.filter(pa.array(sol_mask, type=pa.bool_())))
+    frames = {}
+    for name, parts, keys in (
+        ("runs", run_parts, ["run_id"]),
+        ("solitons", sol_parts, ["run_id", "soliton"]),
+    ):
+        schema = lay.schema(name)
+        table = (
+            pa.concat_tables([p.replace_schema_metadata(None) for p in parts])
+            if parts
+            else (schema.empty_table())
+        )
+        data = table.to_pandas()
+        if len(data):
+            data = data.sort_values(keys, kind="stable")
+        frames[name] = data.reset_index(drop=True)
+    return StoreContents(manifest, frames["runs"], frames["solitons"], check)
+
+
+def read_table(out: str | os.PathLike[str], table: str) -> pd.DataFrame:
+    """One table of a store (see :func:`read_store`); ConfigError if a batch is damaged."""
     if table not in TABLES:
         raise ConfigError(f"read_table: table {table!r}; expected one of {TABLES}")
-    out = Path(out)
-    schema = layout(read_manifest(out)).schema(table)
-    committed = _committed_parts(out)
-    if table == "runs":
-        files = list(committed.items())
-    else:
-        parts = part_files(out / "solitons")
-        files = [(seq, p) for seq, p in parts.items() if seq in committed]
-    if not files:
-        return schema.empty_table().to_pandas()
-    tables = [pq.read_table(path, schema=schema) for _, path in files]
-    # The batch of each row, beside the data (never a column: any name could be a parameter's).
-    part = np.concatenate(
-        [
-            np.full(t.num_rows, seq, dtype=np.int64)
-            for (seq, _), t in zip(files, tables, strict=True)
-        ]
-    )
-    data = pa.concat_tables(tables).to_pandas()
-    run_id = data["run_id"].to_numpy()
-    if table == "runs":
-        order = np.argsort(part, kind="stable")  # by batch, then as stored
-        first = pd.Series(run_id[order]).duplicated(keep="first").to_numpy()
-        keep = np.sort(order[~first])
-        data = data.iloc[keep].sort_values("run_id", kind="stable")
-    else:
-        # The solitons of a run come from the batch of its kept runs row (the first).
-        kept: dict[int, int] = {}
-        for seq, path in committed.items():
-            for rid in pq.read_table(path, columns=["run_id"]).column("run_id").to_pylist():
-                kept.setdefault(int(rid), seq)
-        mask = part == np.array([kept.get(int(r), -1) for r in run_id], dtype=np.int64)
-        data = data.iloc[np.flatnonzero(mask)].sort_values(["run_id", "soliton"], kind="stable")
-    return data.reset_index(drop=True)
+    contents = read_store(out)
+    return contents.runs if table == "runs" else contents.solitons
 
 
 def frames_path(out: str | os.PathLike[str], run_id: int) -> Path:
@@ -219,6 +575,13 @@ class Store:
     """The writer of one sweep's output folder. Open with :meth:`open`; one writer at a time.
 
     Parameters are set by :meth:`open`; use it as a context manager to release the lock.
+
+    Attributes
+    ----------
+    repaired
+        The damaged batches found and set aside when the store was opened (their runs are pending).
+    ignored
+        Parts holding rows that are not counted (see :class:`StoreCheck`).
     """
 
     def __init__(self, out: Path, manifest: dict[str, Any], lock: Any) -> None:
@@ -226,15 +589,25 @@ class Store:
         self.manifest = manifest
         self.layout = layout(manifest)
         self._lock = lock
-        committed = _committed_parts(out)
-        every = set(committed) | set(part_files(out / "solitons"))
+        check, _ = _scan(out, manifest, keep=False)
+        self.repaired: list[Damage] = list(check.damaged)
+        self.ignored: list[str] = list(check.ignored)
+        for damage in check.damaged:
+            self._set_aside(damage.batch)
+        self._clean_leftovers()
+        every = set(_committed_parts(out)) | set(part_files(out / "solitons"))
         self._next = (max(every) + 1) if every else 0
-        self._done, self._failed = self._scan_done(committed.values())
+        self._done: set[int] = set(check.kept)
+        self._failed: set[int] = set(check.failed)
 
     # -- opening -------------------------------------------------------------------------------
     @classmethod
     def open(cls, out: str | os.PathLike[str], sweep: Sweep) -> Store:
         """Open ``out`` for ``sweep``: create it, or resume it if it holds the same sweep.
+
+        The lock is taken first, then the manifest is checked or written (last, when the store
+        is new), so two processes starting at once cannot mix two sweeps. Damaged batches are
+        set aside (:attr:`repaired`) and their runs are pending again.
 
         Raises
         ------
@@ -243,6 +616,8 @@ class Store:
             sweep (digest differs) or of another format version. Nothing is written then.
         StoreBusyError
             Another process is writing to it.
+        KdvsweepError
+            The folder cannot be created or written (no permission, full disk).
         """
         out = Path(out)
         check_parameter_names(sweep)
@@ -250,7 +625,30 @@ class Store:
             raise ConfigError(
                 f"{out}: exists and is not a folder; expected a folder for the results"
             )
-        if out.is_dir() and (out / MANIFEST).exists():
+        created = not out.exists()
+        try:
+            out.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            raise io_error(out, exc, "create the folder") from None
+        had_lock = (out / LOCK).exists()
+        lock = _take_lock(out)
+        try:
+            manifest = cls._claim(out, sweep)
+            for table in (*TABLES, "frames"):
+                (out / table).mkdir(exist_ok=True)
+            return cls(out, manifest, lock)
+        except BaseException as exc:
+            if not (out / MANIFEST).exists():  # never became a store: leave what was there
+                _undo_new(out, created, had_lock)
+            lock.close()
+            if isinstance(exc, OSError):
+                raise io_error(out, exc) from None
+            raise
+
+    @staticmethod
+    def _claim(out: Path, sweep: Sweep) -> dict[str, Any]:
+        """Under the lock: the manifest of the store for ``sweep``, written if the store is new."""
+        if (out / MANIFEST).exists():
             manifest = read_manifest(out)
             if manifest.get("digest") != sweep.digest:
                 raise ConfigError(
@@ -258,21 +656,23 @@ class Store:
                     f"(digest {str(manifest.get('digest'))[:12]}), not of {sweep.path} "
                     f"(digest {sweep.digest[:12]}); choose another output folder or remove this one"
                 )
-        elif out.is_dir() and any(out.iterdir()):
+            return manifest
+        foreign = sorted(e.name for e in out.iterdir() if not _is_leftover(e))
+        if foreign:
             raise ConfigError(
-                f"{out}: folder is not empty and is not a kdvsweep store (no {MANIFEST}); "
-                "expected a new or empty folder"
+                f"{out}: folder is not empty and is not a kdvsweep store (no {MANIFEST}; holds "
+                f"{', '.join(foreign[:3])}{'...' if len(foreign) > 3 else ''}); expected a new or "
+                "empty folder"
             )
-        else:
-            out.mkdir(parents=True, exist_ok=True)
-            manifest = new_manifest(sweep)
-            write_atomic(out / MANIFEST, (json.dumps(manifest, indent=2) + "\n").encode())
-        lock = _take_lock(out)
+        # Leftovers of an attempt that failed before its manifest: temporary files go.
+        for entry in out.iterdir():
+            if entry.name.startswith(_TMP_PREFIX):
+                entry.unlink(missing_ok=True)
         for table in (*TABLES, "frames"):
             (out / table).mkdir(exist_ok=True)
-        store = cls(out, manifest, lock)
-        store._clean_leftovers()
-        return store
+        manifest = new_manifest(sweep)
+        write_atomic(out / MANIFEST, (json.dumps(manifest, indent=2) + "\n").encode())
+        return manifest
 
     def close(self) -> None:
         """Release the writer's lock."""
@@ -306,7 +706,12 @@ class Store:
         """Store a batch of results atomically; runs already stored are dropped. Returns the count.
 
         Order matters for crash safety: frames, then the solitons part, then the runs part, which
-        commits the batch.
+        commits the batch and records the solitons part's row count, size and checksum.
+
+        Raises
+        ------
+        KdvsweepError
+            A file could not be written (full disk...): nothing of the batch is committed.
         """
         fresh: dict[int, RunResult] = {}
         for res in results:
@@ -315,40 +720,45 @@ class Store:
         if not fresh:
             return 0
         seq = self._next
+        self._next = seq + 1  # never reused in this session, even if this batch fails
+        name = f"part-{seq:06d}.parquet"
         for res in fresh.values():
             if res.frames is not None and res.frame_times is not None:
                 buf = io.BytesIO()
                 np.savez(buf, t=res.frame_times, u=res.frames)
                 write_atomic(frames_path(self.out, res.run_id), buf.getvalue(), sync_dir=False)
         soliton_rows = [row for res in fresh.values() for row in res.soliton_rows]
-        name = f"part-{seq:06d}.parquet"
         runs = _arrow_table([res.run_row for res in fresh.values()], self.layout.schema("runs"))
+        data = b""
         if soliton_rows:
             data = _parquet_bytes(_arrow_table(soliton_rows, self.layout.schema("solitons")))
             write_atomic(self.out / "solitons" / name, data, sync_dir=False)
+        record = {
+            "rows": len(soliton_rows),
+            "bytes": len(data),
+            "sha256": hashlib.sha256(data).hexdigest(),
+        }
+        runs = runs.replace_schema_metadata({_RECORD_KEY: json.dumps(record).encode()})
         # Everything of the batch is durable before the runs part that commits it.
         _fsync_dir(self.out / "frames")
         _fsync_dir(self.out / "solitons")
         write_atomic(self.out / "runs" / name, _parquet_bytes(runs))
-        self._next = seq + 1
         self._done.update(fresh)
         self._failed.update(rid for rid, res in fresh.items() if not res.ok)
         return len(fresh)
 
     # -- helpers -------------------------------------------------------------------------------
-    @staticmethod
-    def _scan_done(paths: Iterable[Path]) -> tuple[set[int], set[int]]:
-        done: set[int] = set()
-        failed: set[int] = set()
-        for path in paths:
-            part = pq.read_table(path, columns=["run_id", "status"])
-            for rid, status in zip(
-                part.column("run_id").to_pylist(), part.column("status").to_pylist(), strict=True
-            ):
-                if rid not in done and status != "ok":
-                    failed.add(int(rid))
-                done.add(int(rid))
-        return done, failed
+    def _set_aside(self, seq: int) -> None:
+        """Uncommit a damaged batch: rename its runs part, then its solitons part."""
+        name = f"part-{seq:06d}.parquet"
+        for table in TABLES:  # runs first: once it is gone the batch is not committed
+            path = self.out / table / name
+            if path.exists():
+                try:
+                    os.replace(path, path.with_name(name + DAMAGED_SUFFIX))
+                except OSError as exc:
+                    raise io_error(path, exc, "set aside the damaged part") from None
+                _fsync_dir(path.parent)
 
     def _clean_leftovers(self) -> None:
         """Remove temporary files and the solitons parts of batches that never committed."""
@@ -360,6 +770,31 @@ class Store:
         for seq, path in part_files(self.out / "solitons").items():
             if seq not in committed:
                 path.unlink(missing_ok=True)
+
+
+def _is_leftover(entry: Path) -> bool:
+    """A file a store attempt leaves before its manifest: the lock, temporary files, empty
+    table folders."""
+    if entry.name == LOCK or entry.name.startswith(_TMP_PREFIX):
+        return True
+    if entry.name in (*TABLES, "frames") and entry.is_dir():
+        return not any(entry.iterdir())
+    return False
+
+
+def _undo_new(out: Path, created: bool, had_lock: bool) -> None:
+    """Remove what a failed first open left in ``out``: temporary files, empty table folders, the
+    lock file if this open made it, the folder if this open made it (best effort)."""
+    with contextlib.suppress(OSError):
+        for entry in out.iterdir():
+            if entry.name.startswith(_TMP_PREFIX):
+                entry.unlink(missing_ok=True)
+            elif entry.name in (*TABLES, "frames") and entry.is_dir() and not any(entry.iterdir()):
+                entry.rmdir()
+        if not had_lock:
+            (out / LOCK).unlink(missing_ok=True)
+        if created:
+            out.rmdir()
 
 
 def check_parameter_names(sweep: Sweep) -> None:
@@ -392,19 +827,44 @@ def new_manifest(sweep: Sweep) -> dict[str, Any]:
 
 
 class _Lock:
-    """An exclusive advisory lock on ``OUT/.lock``; the kernel drops it if the process dies."""
+    """An exclusive advisory lock on ``OUT/.lock``; the kernel drops it if the process dies.
+
+    A busy lock is retried for :data:`LOCK_WAIT` seconds (a process that only checks the folder
+    holds it for a moment). A lock file removed by a failed first open while this process waited
+    is not the store's lock any more: the lock is taken again on the file now at the path.
+    """
 
     def __init__(self, path: Path) -> None:
-        self._fh = open(path, "a+b")  # held open for the lifetime of the store
-        if fcntl is not None:
+        deadline = time.monotonic() + LOCK_WAIT
+        while True:
             try:
-                fcntl.flock(self._fh.fileno(), fcntl.LOCK_EX | fcntl.LOCK_NB)
+                self._fh = open(path, "a+b")  # held open for the lifetime of the store
             except OSError as exc:
-                self._fh.close()
+                raise io_error(path.parent, exc, "take the store's lock") from None
+            if fcntl is not None:
+                try:
+                    fcntl.flock(self._fh.fileno(), fcntl.LOCK_EX | fcntl.LOCK_NB)
+                except OSError as exc:
+                    self._fh.close()
+                    if time.monotonic() < deadline:
+                        time.sleep(0.05)
+                        continue
+                    raise StoreBusyError(
+                        f"{path.parent}: another kdvsweep process is writing to this store; "
+                        "expected it to be idle (wait for it or stop it)"
+                    ) from exc
+            try:
+                same = os.stat(path).st_ino == os.fstat(self._fh.fileno()).st_ino
+            except OSError:
+                same = False
+            if same:
+                return
+            self._fh.close()
+            if time.monotonic() >= deadline:
                 raise StoreBusyError(
-                    f"{path.parent}: another kdvsweep process is writing to this store; "
-                    "expected it to be idle (wait for it or stop it)"
-                ) from exc
+                    f"{path.parent}: another kdvsweep process is creating this store; "
+                    "expected it to be idle (try again)"
+                )
 
     def close(self) -> None:
         with contextlib.suppress(OSError):
@@ -412,7 +872,7 @@ class _Lock:
 
 
 def _take_lock(out: Path) -> _Lock:
-    return _Lock(out / ".lock")
+    return _Lock(out / LOCK)
 
 
 def iter_parts(out: str | os.PathLike[str], table: str) -> Iterator[Path]:
@@ -425,16 +885,24 @@ def iter_parts(out: str | os.PathLike[str], table: str) -> Iterator[Path]:
 
 
 __all__ = [
+    "DAMAGED_SUFFIX",
     "MANIFEST",
+    "REPAIR_ADVICE",
     "STORE_FORMAT",
     "STORE_VERSION",
+    "Damage",
     "Store",
     "StoreBusyError",
+    "StoreCheck",
+    "StoreContents",
     "check_parameter_names",
+    "check_store",
     "frames_path",
+    "io_error",
     "iter_parts",
     "layout",
     "new_manifest",
     "read_manifest",
+    "read_store",
     "read_table",
 ]
