@@ -328,15 +328,28 @@ def test_wrong_shapes_and_dtypes_are_shape_errors(u0: np.ndarray) -> None:
         bound_states(u0, Grid(64, 20.0))
 
 
-def test_profile_not_decayed_on_the_domain_warns() -> None:
-    # 6 sech^2 x on L = 12: |u0| at the edges is 6 sech^2(6) ~ 3.7e-5 of the peak.
+def test_profile_not_decayed_on_the_domain_is_refused() -> None:
+    # 6 sech^2 x on L = 12: |u0| at the edges is 6 sech^2(6) ~ 3.7e-5 of the peak, above the
+    # 1e-6 edge level: the line's spectrum does not describe it (common practice, no source).
     grid = Grid(128, 12.0)
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
+    with pytest.raises(ConfigError, match=r"not decayed at the domain edges.*longer domain"):
         bound_states(poschl_teller(grid, 2.0), grid)
-    kinds = {type(w.message) for w in caught}
-    assert DomainWarning in kinds
-    assert any("not decayed" in str(w.message) for w in caught)
+
+
+@pytest.mark.parametrize("shift", [0.0, 1.3, 2.9, 4.4])
+@pytest.mark.parametrize("equation", ["kdv", "mkdv"])
+def test_periodic_data_are_refused_whatever_the_shift(shift: float, equation: str) -> None:
+    # A cosine filling the box is periodic data: the line's discrete spectrum (Gardner, Greene,
+    # Kruskal & Miura 1967) does not apply, and the collocated count would depend on the shift.
+    # The error says why and what to do, on one line.
+    grid = Grid(256, 40.0)
+    u0 = 1.5 * np.cos(2.0 * np.pi * 3.0 * (grid.x - shift) / grid.length)
+    with pytest.raises(ConfigError) as err:
+        bound_states(u0, grid, equation)
+    message = str(err.value)
+    assert "\n" not in message
+    for phrase in ("periodic data", "shifted", "longer domain", "decay to zero"):
+        assert phrase in message
 
 
 @pytest.mark.parametrize(

@@ -48,10 +48,12 @@ each other but differ from the sharp profile by ``O(dx^2)``, which the two-resol
 cannot see. A :class:`ResolutionWarning` says so when the profile's Fourier coefficients in the
 top eighth of the band exceed ``tol`` relative to the largest.
 
-Bad input: non-finite values raise :class:`~kdvsweep.exceptions.ConfigError`. A profile that has
-not decayed at the domain edges (``|u0|`` there above ``1e-6`` of ``max |u0|``) gives a
-:class:`DomainWarning`, not an error: the periodic problem is still solved, but its eigenvalues
-are those of the periodic box, not of the line.
+Bad input: non-finite values raise :class:`~kdvsweep.exceptions.ConfigError`, and so does a
+profile that has not decayed at the domain edges (``|u0|`` there above ``1e-6`` of ``max |u0|``):
+the discrete spectrum of the line describes data that decay, and for data that fill the periodic
+box (a cosine, say) the collocated problem returns counts that change when the same data are
+shifted. Such data are periodic-problem data (the band edges of Hill's equation), which this
+module does not solve.
 
 Cost: one dense solve of the coarse size ``m`` (Schrödinger ``m``, ZS ``2m``) and one LU of twice
 that size per state; ``m`` of a few hundred takes well under a second on one core. Multithreaded
@@ -97,19 +99,35 @@ MAX_DIMENSION = 8192
 
 
 class DomainWarning(UserWarning):
-    """The domain is too small for the data: undecayed edges, or a periodic-box error above tol."""
+    """The domain is too small for the data: a state's periodic-box error is above tol."""
 
 
 class ResolutionWarning(UserWarning):
     """An eigenvalue is not converged to tol in resolution, or the profile is not resolved."""
 
 
+def breather_speeds(kappa: float, xi: float, d: float = 1.0) -> tuple[float, float, float]:
+    """Envelope speed, carrier speed and internal frequency of the breather ``+-xi + i kappa``.
+
+    The canonical breather of ``u_t + 6 u^2 u_x + u_xxx = 0`` is
+    ``u = 2 d/dx arctan[(a/b) cos(theta) / cosh(R)]``, ``a = 2 kappa``, ``b = 2 xi``,
+    ``theta = b (x - (3a^2 - b^2) t)``, ``R = a (x - (a^2 - 3b^2) t)`` (the Hirota 2-soliton with
+    complex conjugate wavenumbers: Wadati 1973; Lamb 1980, from memory). So the envelope moves at
+    ``4 (kappa^2 - 3 xi^2)``, the carrier at ``4 (3 kappa^2 - xi^2)``, and seen from the envelope
+    the phase turns at ``b (v_carrier - v_envelope) = 16 xi (kappa^2 + xi^2)``; all three scale
+    with ``d`` (``t' = d t``).
+    """
+    envelope = 4.0 * d * (kappa * kappa - 3.0 * xi * xi)
+    carrier = 4.0 * d * (3.0 * kappa * kappa - xi * xi)
+    return envelope, carrier, 2.0 * xi * (carrier - envelope)
+
+
 @dataclass(frozen=True)
 class Breather:
     """A complex Zakharov-Shabat pair ``zeta = +-xi + i kappa`` (focusing mKdV), physical units.
 
-    ``envelope_speed = 4 d (kappa^2 - 3 xi^2)`` and ``carrier_speed = 4 d (3 kappa^2 - xi^2)``
-    (the Hirota 2-soliton with complex conjugate wavenumbers: Wadati 1973; Lamb 1980, from memory).
+    ``envelope_speed``, ``carrier_speed`` and ``frequency`` (the internal frequency in the
+    envelope's frame) are :func:`breather_speeds`.
     """
 
     kappa: float
@@ -118,6 +136,7 @@ class Breather:
     carrier_speed: float
     resolution_error: float
     box_error: float
+    frequency: float = float("nan")
 
 
 @dataclass(frozen=True)
@@ -274,15 +293,16 @@ def _profile(u0: object, grid: Grid) -> np.ndarray:
 
 
 def _check_decay(u: np.ndarray) -> None:
+    """Refuse data that have not decayed at the domain edges (periodic data: module notes)."""
     peak = float(np.max(np.abs(u)))
     edge = float(max(abs(u[0]), abs(u[-1]), abs(u[1]), abs(u[-2])))
     if edge > EDGE_LEVEL * peak:
-        warnings.warn(
+        raise ConfigError(
             f"bound_states: u0 has not decayed at the domain edges (|u0| = {edge:.3g} there, "
             f"{edge / peak:.2g} of max |u0| = {peak:.3g}; expected below {EDGE_LEVEL:g} of it): "
-            "the eigenvalues are those of the periodic box, not of the line",
-            DomainWarning,
-            stacklevel=3,
+            "the spectrum of the line does not describe periodic data (its soliton count changes "
+            "when the same data are shifted); use a longer domain or data that decay to zero "
+            "before the edges"
         )
 
 
@@ -458,7 +478,8 @@ def bound_states(
     Parameters
     ----------
     u0
-        The profile on ``grid.x`` (length ``grid.n``, finite, decayed at the domain edges).
+        The profile on ``grid.x`` (length ``grid.n``, finite, decayed at the domain edges to
+        ``EDGE_LEVEL`` of its peak).
     grid
         The periodic grid of ``u0``.
     equation
@@ -475,14 +496,15 @@ def bound_states(
     Raises
     ------
     ConfigError
-        Non-finite ``u0``, a bad ``tol``, or an equation without a spectral problem here.
+        Non-finite ``u0``, ``u0`` not decayed at the domain edges (periodic data), a bad ``tol``,
+        or an equation without a spectral problem here.
     ShapeError
         ``u0`` is not a real 1-D array of length ``grid.n``.
 
     Warns
     -----
     DomainWarning
-        ``u0`` has not decayed at the edges, or a kept state's periodic-box error exceeds ``tol``.
+        A kept state's periodic-box error exceeds ``tol``.
     ResolutionWarning
         The profile is not resolved on the grid, a state's resolution error exceeds ``tol``, or a
         state was dropped as unresolved.
@@ -605,13 +627,15 @@ def _solve(
 
 def _breather(lam: complex, err: float, box: complex, d: float) -> Breather:
     kappa, xi = float(lam.real), float(-lam.imag)
+    envelope, carrier, frequency = breather_speeds(kappa, xi, d)
     return Breather(
         kappa=kappa,
         xi=xi,
-        envelope_speed=4.0 * d * (kappa**2 - 3.0 * xi**2),
-        carrier_speed=4.0 * d * (3.0 * kappa**2 - xi**2),
+        envelope_speed=envelope,
+        carrier_speed=carrier,
         resolution_error=float(err),
         box_error=float(np.real(box)),
+        frequency=frequency,
     )
 
 
@@ -644,4 +668,5 @@ __all__ = [
     "ResolutionWarning",
     "SolitonContent",
     "bound_states",
+    "breather_speeds",
 ]
