@@ -278,26 +278,69 @@ InitialData = Solitons | Profile | Box | FileData
 
 
 def file_digest(path: str | Path) -> str:
-    """sha256 hex digest of a file's bytes."""
-    return hashlib.sha256(Path(path).read_bytes()).hexdigest()
+    """sha256 hex digest of a file's bytes (read in blocks)."""
+    digest = hashlib.sha256()
+    with Path(path).open("rb") as fh:
+        for block in iter(lambda: fh.read(1 << 20), b""):
+            digest.update(block)
+    return digest.hexdigest()
+
+
+#: Most values the ``.npy`` file of an initial profile may hold (1 GiB of float64), checked in the
+#: file's header before its data are read.
+MAX_FILE_VALUES = 2**27
+
+
+def _npy_header(path: Path) -> tuple[tuple[int, ...], np.dtype[Any]]:
+    """Shape and dtype declared in the header of a ``.npy`` file, checked against the file's size
+    (nothing of the data is read, so a header declaring 10**12 values costs nothing)."""
+    fmt = np.lib.format
+    with path.open("rb") as fh:
+        version = fmt.read_magic(fh)
+        if version == (1, 0):
+            shape, _, dtype = fmt.read_array_header_1_0(fh)
+        elif version == (2, 0):
+            shape, _, dtype = fmt.read_array_header_2_0(fh)
+        else:
+            raise ValueError(f"format version {version[0]}.{version[1]}; expected 1.0 or 2.0")
+        offset = fh.tell()
+    if dtype.hasobject:
+        raise ValueError("it holds Python objects, which are never loaded")
+    size = math.prod(shape)
+    if offset + size * dtype.itemsize != path.stat().st_size:
+        raise ValueError(f"the file's length is not that of the {size} values its header declares")
+    return tuple(shape), dtype
 
 
 def load_array(path: str | Path, n: int | None = None) -> np.ndarray:
-    """A finite 1-D float64 array from a ``.npy`` file (no pickles), of length ``n`` if given."""
+    """A finite 1-D float64 array from a ``.npy`` file (no pickles), of length ``n`` if given.
+
+    The header is read and checked first (dtype, shape, at most :data:`MAX_FILE_VALUES` values,
+    a file as long as its header says), then the data.
+    """
+    file = Path(path)
     try:
-        arr = np.load(Path(path), allow_pickle=False)
+        shape, dtype = _npy_header(file)
     except FileNotFoundError:
         raise ConfigError(f"initial: no such file {str(path)!r}") from None
     except (OSError, ValueError) as err:
         raise ConfigError(f"initial: {str(path)!r} is not a readable .npy array ({err})") from None
-    if arr.dtype.kind not in "fiu":
-        raise ShapeError(f"initial: {str(path)!r} holds dtype {arr.dtype}; expected real numbers")
-    if arr.ndim != 1:
-        raise ShapeError(f"initial: {str(path)!r} has shape {arr.shape}; expected a 1-D array")
-    if n is not None and arr.shape[0] != n:
+    if dtype.kind not in "fiu":
+        raise ShapeError(f"initial: {str(path)!r} holds dtype {dtype}; expected real numbers")
+    if len(shape) != 1:
+        raise ShapeError(f"initial: {str(path)!r} has shape {shape}; expected a 1-D array")
+    if n is not None and shape[0] != n:
         raise ShapeError(
-            f"initial: {str(path)!r} has {arr.shape[0]} values; expected n = {n} (the grid's n)"
+            f"initial: {str(path)!r} has {shape[0]} values; expected n = {n} (the grid's n)"
         )
+    if shape[0] > MAX_FILE_VALUES:
+        raise ShapeError(
+            f"initial: {str(path)!r} has {shape[0]} values; expected at most {MAX_FILE_VALUES}"
+        )
+    try:
+        arr = np.load(file, allow_pickle=False)
+    except (OSError, ValueError, MemoryError) as err:
+        raise ConfigError(f"initial: {str(path)!r} is not a readable .npy array ({err})") from None
     arr = np.ascontiguousarray(arr, dtype=np.float64)
     if not np.all(np.isfinite(arr)):
         raise ConfigError(f"initial: {str(path)!r} holds non-finite values")
@@ -323,6 +366,7 @@ def input_solitons(initial: InitialData) -> list[dict[str, Any]]:
 
 __all__ = [
     "KINDS",
+    "MAX_FILE_VALUES",
     "Box",
     "FileData",
     "InitialData",

@@ -6,6 +6,7 @@ The model is ``u_t + (a u + b u^2) u_x + d u_xxx + f u_xxxxx = -g u + v u_xx`` o
 from __future__ import annotations
 
 import math
+import sys
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any, TypedDict
@@ -53,7 +54,10 @@ class Grid:
             raise ConfigError(f"Grid: n must be an integer, got {self.n!r}")
         if self.n < MIN_POINTS or self.n % 2:
             raise ConfigError(f"Grid: n must be even and at least {MIN_POINTS}, got {self.n}")
-        if not (isinstance(self.length, int | float) and math.isfinite(self.length)):
+        if isinstance(self.length, bool) or not (
+            isinstance(self.length, int | float | np.integer | np.floating)
+            and math.isfinite(self.length)
+        ):
             raise ConfigError(f"Grid: length must be a finite number, got {self.length!r}")
         if self.length <= 0:
             raise ConfigError(f"Grid: length must be positive, got {self.length}")
@@ -109,13 +113,22 @@ class Equation:
                 raise ConfigError(f"Equation: {key} must be a number, got {value!r}")
             if not math.isfinite(value):
                 raise ConfigError(f"Equation: {key} must be finite, got {value}")
+            if 0 < abs(value) < sys.float_info.min:
+                raise ConfigError(
+                    f"Equation: {key} must be 0 or at least {sys.float_info.min:.3g} in magnitude "
+                    f"(a subnormal number has lost its precision), got {value:.3g}"
+                )
             object.__setattr__(self, key, float(value))
         if self.v < 0:
             raise ConfigError(
                 f"Equation: v (viscosity) must be >= 0 (ill-posed otherwise), got {self.v}"
             )
-        if self.dealias is not None and not (0.0 < float(self.dealias) <= 1.0):
-            raise ConfigError(f"Equation: dealias must be in (0, 1], got {self.dealias}")
+        if self.dealias is not None and (
+            isinstance(self.dealias, bool)
+            or not isinstance(self.dealias, int | float | np.integer | np.floating)
+            or not (0.0 < float(self.dealias) <= 1.0)
+        ):
+            raise ConfigError(f"Equation: dealias must be in (0, 1], got {self.dealias!r}")
 
     @classmethod
     def kdv(cls, sign: int = 1, **perturbation: float) -> Equation:

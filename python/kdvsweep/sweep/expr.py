@@ -37,8 +37,8 @@ FUNCTIONS: dict[str, tuple[int | None, Callable[..., float]]] = {
     "sin": (1, math.sin),
     "cos": (1, math.cos),
     "abs": (1, abs),
-    "min": (None, min),
-    "max": (None, max),
+    "min": (None, lambda *args: min(args)),  # min(x) = x: one argument is a plain value
+    "max": (None, lambda *args: max(args)),
 }
 
 RESERVED = frozenset(CONSTANTS) | frozenset(FUNCTIONS)
@@ -48,8 +48,12 @@ _TOKEN = re.compile(
     r"(?P<num>(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)"
     r"|(?P<name>[A-Za-z_][A-Za-z0-9_]*)"
     r"|(?P<op>\*\*|[-+*/^(),])"
-    r")"
+    r")",
+    re.ASCII,  # ASCII digits only: float() would read other scripts' digits ("\u0663" is 3)
 )
+
+
+_SPACE = " \t\r\n\f\v"  # ASCII white space; other spaces are unexpected characters
 
 
 class ExpressionError(ConfigError):
@@ -107,7 +111,7 @@ def _tokenize(text: str) -> list[_Token]:
     tokens: list[_Token] = []
     i = 0
     while i < len(text):
-        if text[i].isspace():
+        if text[i] in _SPACE:
             i += 1
             continue
         m = _TOKEN.match(text, i)
@@ -304,7 +308,7 @@ def _evaluate(node: _Node, env: Mapping[str, object]) -> float:
         _, func = FUNCTIONS[node.func]
         try:
             return _finite(float(func(*args)), node.pos)
-        except (ValueError, OverflowError):
+        except (ValueError, OverflowError, TypeError):
             shown = ", ".join(f"{a:.6g}" for a in args)
             raise ExpressionError(
                 f"{node.func}({shown}) at position {node.pos} is undefined or too large", node.pos

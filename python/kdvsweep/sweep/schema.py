@@ -18,21 +18,34 @@ from . import expr
 _MISSING: Any = object()
 
 
-def describe(value: object) -> str:
-    """A short one-line rendering of a TOML value for error messages, in TOML spelling."""
+def describe(value: object, _depth: int = 0) -> str:
+    """A short one-line rendering of a TOML value for error messages, in TOML spelling.
+
+    Long lists are cut after about 80 characters and nesting after a few levels, so a hostile
+    value (a list of a million items, arrays nested thousands deep) renders quickly.
+    """
     if value is _MISSING:
         return "nothing"
     if isinstance(value, bool):
         text = "true" if value else "false"
     elif isinstance(value, str):
-        text = repr(value)
+        text = repr(value[:100])
     elif isinstance(value, int | float):
         text = repr(value)
     elif isinstance(value, dict):
         keys = ", ".join(map(str, value))
         text = f"a table {{{keys}}}" if keys else "an empty table"
     elif isinstance(value, list):
-        text = "[" + ", ".join(describe(v) for v in value) + "]"
+        if _depth >= 4:
+            text = "[...]" if value else "[]"
+        else:
+            parts: list[str] = []
+            for v in value:
+                parts.append(describe(v, _depth + 1))
+                if sum(map(len, parts)) > 80:
+                    parts.append("...")
+                    break
+            text = "[" + ", ".join(parts) + "]"
     else:
         text = f"a {type(value).__name__}"
     text = " ".join(text.split())
@@ -74,6 +87,17 @@ def suggestion(word: str, choices: Iterable[str]) -> str:
 def is_number(value: object) -> bool:
     """True for TOML integers and floats (not booleans)."""
     return isinstance(value, int | float) and not isinstance(value, bool)
+
+
+def is_finite(value: object) -> bool:
+    """True for TOML integers and floats that are finite as floats (TOML integers have no size
+    limit in Python's reader: ``10**400`` is not a finite float)."""
+    if not is_number(value):
+        return False
+    try:
+        return math.isfinite(float(value))  # type: ignore[arg-type]
+    except OverflowError:
+        return False
 
 
 class Table:
@@ -135,7 +159,7 @@ class Table:
         if value is default and key not in self.data:
             return value
         expected = "a positive number" if positive else "a finite number"
-        if not is_number(value) or not math.isfinite(value) or (positive and value <= 0):
+        if not is_finite(value) or (positive and value <= 0):
             raise self.fail(key, value, expected)
         return value
 
@@ -159,4 +183,4 @@ class Table:
         return value
 
 
-__all__ = ["Source", "Table", "describe", "is_number", "join", "suggestion"]
+__all__ = ["Source", "Table", "describe", "is_finite", "is_number", "join", "suggestion"]

@@ -13,6 +13,7 @@ from __future__ import annotations
 import itertools
 import math
 import re
+import unicodedata
 from dataclasses import dataclass
 from typing import Any
 
@@ -21,7 +22,7 @@ from scipy.stats import qmc
 
 from ..columns import MODEL_COLUMNS, reserved_names
 from .expr import RESERVED
-from .schema import Source, Table, describe, is_number
+from .schema import Source, Table, describe, is_finite
 
 MAX_RUNS = 1_000_000
 SIGNIFICANT_DIGITS = 12
@@ -31,6 +32,9 @@ _RANGE_KEYS = ("from", "to", "count", "spacing")
 _SPACINGS = ("linear", "log")
 _DRAW_KEYS = ("method", "count", "seed")
 _METHODS = ("latin", "uniform")
+#: Unicode categories refused in text: control, format (bidirectional overrides, zero-width),
+#: surrogates, private use, unassigned, and line and paragraph separators.
+_HIDDEN = frozenset({"Cc", "Cf", "Cs", "Co", "Cn", "Zl", "Zp"})
 
 Value = float | int | str
 
@@ -59,7 +63,11 @@ class Axis:
 def check_name(src: Source, key: str, name: str) -> None:
     """Reject names that are not identifiers or that shadow a function or constant."""
     if not _NAME.match(name):
-        raise src.error(key, repr(name), "a parameter name made of letters, digits and _")
+        raise src.error(
+            key,
+            repr(name),
+            "a parameter name made of ASCII letters, digits and _ (not a digit first)",
+        )
     if name in RESERVED or name == "draw":
         raise src.error(
             key,
@@ -74,14 +82,39 @@ def _bounds(tab: Table, spacing: str) -> tuple[float, float]:
     if spacing == "log" and (lo <= 0 or hi <= 0):
         bad = "from" if lo <= 0 else "to"
         raise tab.fail(bad, tab.raw(bad), "a positive number (log spacing)")
+    if not math.isfinite(float(hi) - float(lo)):  # Python floats: inf, no NumPy warning
+        raise tab.fail(
+            "to", tab.raw("to"), f"a range whose width to - from is a finite number (from = {lo!r})"
+        )
     return float(lo), float(hi)
+
+
+def _count(tab: Table) -> int:
+    """The ``count`` of a range or a draw, at most :data:`MAX_RUNS` (checked before building)."""
+    count: int = tab.integer("count", minimum=1)
+    if count > MAX_RUNS:
+        raise tab.fail("count", count, f"an integer from 1 to {MAX_RUNS} (runs in one sweep)")
+    return count
+
+
+def check_text(src: Source, key: str, value: str, allow: str = "") -> None:
+    """Reject text holding control or invisible formatting characters (a right-to-left override
+    U+202E, zero-width spaces...), which could make a value display as something it is not;
+    ``allow`` lists characters accepted anyway (a note may hold line breaks)."""
+    for i, ch in enumerate(value):
+        if ch not in allow and unicodedata.category(ch) in _HIDDEN:
+            raise src.error(
+                key,
+                describe(value),
+                f"text without control or formatting characters ({ch!r} at position {i + 1})",
+            )
 
 
 def _range(src: Source, key: str, data: dict[str, Any]) -> tuple[float, ...]:
     tab = Table(src, data, key, _RANGE_KEYS)
     spacing = tab.text("spacing", _SPACINGS, default="linear")
     lo, hi = _bounds(tab, spacing)
-    count = tab.integer("count", minimum=1)
+    count = _count(tab)
     if count > 1 and lo == hi:
         raise tab.fail(
             "to",
@@ -103,9 +136,11 @@ def _list(src: Source, key: str, values: list[Any]) -> tuple[Value, ...]:
     if not values:
         raise src.error(key, "an empty list", "a non-empty list of numbers or of text values")
     if all(isinstance(v, str) for v in values):
+        for i, v in enumerate(values):
+            check_text(src, f"{key}[{i}]", v)
         return tuple(values)
     for i, v in enumerate(values):
-        if not is_number(v) or not math.isfinite(v):
+        if not is_finite(v):
             raise src.error(
                 f"{key}[{i}]",
                 describe(v),
@@ -117,7 +152,7 @@ def _list(src: Source, key: str, values: list[Any]) -> tuple[Value, ...]:
 def _draw(src: Source, tab: Table, names: list[str]) -> tuple[tuple[float, ...], ...]:
     spec = Table(src, tab.raw("draw"), tab.key("draw"), _DRAW_KEYS)
     method = spec.text("method", _METHODS)
-    count = spec.integer("count", minimum=1)
+    count = _count(spec)
     seed = spec.integer("seed", minimum=0)
     if not names:
         raise src.error(tab.path, "only draw", "at least one range {from, to} to sample")
@@ -222,4 +257,12 @@ def expand(axes: list[Axis]) -> list[dict[str, Value]]:
     return runs
 
 
-__all__ = ["MAX_RUNS", "Axis", "canonical", "check_name", "expand", "read_space"]
+__all__ = [
+    "MAX_RUNS",
+    "Axis",
+    "canonical",
+    "check_name",
+    "check_text",
+    "expand",
+    "read_space",
+]
