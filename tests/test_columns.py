@@ -15,7 +15,13 @@ from kdvsweep.analysis.table import TABLE_COLUMNS, analyse_run
 from kdvsweep.sweep.runner import base_row, execute
 
 README = Path(__file__).resolve().parent.parent / "README.md"
-TYPES = {"double": "float64", "int64": "int64", "string": "string"}
+TYPES = {
+    "double": "float64",
+    "int64": "int64",
+    "string": "string",
+    "bool": "bool",
+    "list<item: double>": "list[float64]",
+}
 
 
 def _table(cols: tuple[columns.Column, ...]) -> str:
@@ -33,11 +39,12 @@ def readme_tables() -> dict[str, str]:
         "runs": _table((columns.RUN_ID, *columns.RUN_COLUMNS)),
         "analysis": _table(columns.ANALYSIS_COLUMNS),
         "content": _table(columns.CONTENT_COLUMNS),
-        "solitons": _table((*columns.SOLITON_COLUMNS, columns.KAPPA_IST)),
+        "solitons": _table(columns.SOLITON_COLUMNS),
+        "content_solitons": _table(columns.CONTENT_SOLITON_COLUMNS),
     }
 
 
-@pytest.mark.parametrize("name", ["runs", "analysis", "content", "solitons"])
+@pytest.mark.parametrize("name", ["runs", "analysis", "content", "solitons", "content_solitons"])
 def test_readme_lists_every_column_with_its_type_and_meaning(name: str) -> None:
     text = README.read_text(encoding="utf-8")
     assert readme_tables()[name] in text, f"README: the {name} column table differs from the schema"
@@ -49,7 +56,7 @@ def test_readme_names_no_column_the_schema_does_not_have() -> None:
     section = section[: section.index("\n## ")]
     listed = set(re.findall(r"^\| `([a-z_0-9]+)` \|", section, flags=re.MULTILINE))
     declared = {c.name for c in columns.all_columns()}
-    declared |= {c.name for c in (*columns.SOLITON_COLUMNS, columns.KAPPA_IST)}
+    declared |= {c.name for c in (*columns.SOLITON_COLUMNS, *columns.CONTENT_SOLITON_COLUMNS)}
     assert listed == declared
 
 

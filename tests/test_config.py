@@ -298,9 +298,9 @@ MALFORMED = [
         ["model.length: given 20.0 in run 0", "periodic image"],
     ),
     (
-        "auto-not-solitons",
-        edit("end = 10.0", 'end = "auto"', SECH2),
-        ["run.end: given 'auto'", "automatic sizing needs initial.kind"],
+        "auto-not-predicted",
+        edit("end = 10.0", 'end = "auto"\npredict_content = false', SECH2),
+        ["run.end: given 'auto' with run.predict_content = false", "needs the predicted"],
     ),
     (
         "nothing-overtakes",

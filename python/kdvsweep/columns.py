@@ -8,9 +8,16 @@ against it by the tests.
 The runs table has, in this order: ``run_id``; the swept parameters (numbers ``double``, or
 ``int64`` when every value of the parameter is written as an integer; text ``string``); the fixed
 :data:`RUN_COLUMNS`; for sweeps whose initial data are solitons the collision analysis'
-:data:`ANALYSIS_COLUMNS`; and with ``run.predict_content`` the :data:`CONTENT_COLUMNS`. A swept
-parameter named like one of :data:`MODEL_COLUMNS` takes that column's place (its values are what
-the file says); any other parameter name of a column is refused (:func:`reserved_names`).
+:data:`ANALYSIS_COLUMNS`; and for sweeps of any other initial data (profiles, files), or with
+``run.predict_content``, the soliton content's :data:`CONTENT_COLUMNS`. A swept parameter named
+like one of :data:`MODEL_COLUMNS` takes that column's place (its values are what the file says);
+any other parameter name of a column is refused (:func:`reserved_names`).
+
+The solitons table has the :data:`SOLITON_COLUMNS` (filled by the collision analysis; the content
+fills those it shares: ``soliton``, ``sign``, ``kappa``, ``kappa_measured``, ``speed``,
+``amplitude``) and, with the content, the :data:`CONTENT_SOLITON_COLUMNS`. Whatever cannot be
+computed for a run (no spectral problem for its equation, data that do not decay, a soliton left
+out) is null, and a status column says why in one line.
 """
 
 from __future__ import annotations
@@ -32,7 +39,8 @@ class Column:
     meaning: str
 
 
-_F, _I, _S = pa.float64(), pa.int64(), pa.string()
+_F, _I, _S, _B = pa.float64(), pa.int64(), pa.string(), pa.bool_()
+_LIST = pa.list_(pa.float64())
 
 #: Arrow type of a swept parameter by the kind of its values.
 PARAMETER_TYPES: dict[str, pa.DataType] = {"float": _F, "int": _I, "text": _S}
@@ -65,7 +73,11 @@ RUN_COLUMNS: tuple[Column, ...] = (
     Column("wall_time", _F, "seconds of wall time for the whole run"),
     Column("cpu_time", _F, "seconds of CPU time of the run's thread"),
     Column("step_time", _F, "seconds of wall time spent stepping"),
-    Column("analysis_time", _F, "seconds of wall time spent in the collision analysis"),
+    Column(
+        "analysis_time",
+        _F,
+        "seconds of wall time spent in the collision analysis or the content measurement",
+    ),
     Column("mass_drift", _F, "relative change of int u from start to end"),
     Column("momentum_drift", _F, "relative change of int u^2 (checked for conservative equations)"),
     Column("energy_drift", _F, "relative change of the Hamiltonian of the conservative part"),
@@ -96,29 +108,79 @@ ANALYSIS_COLUMNS: tuple[Column, ...] = (
     Column("separation", _F, "tail lengths apart that the solitons must be in a fit window"),
 )
 
-#: Runs columns of ``run.predict_content`` (the inverse scattering transform of u0).
+#: Runs columns of the soliton content: the inverse scattering transform (IST) of the initial data
+#: (``ist_*``, the ``*_ist`` radiation) and the solitons measured in the record. Sweeps of profile
+#: or file data have them, sweeps of solitons with ``run.predict_content`` too (their content is
+#: then not measured: the collision analysis follows them).
 CONTENT_COLUMNS: tuple[Column, ...] = (
-    Column("ist_count", _I, "number of solitons the IST of the initial data predicts"),
-    Column("ist_kappas", _S, "their kappas, largest first, separated by spaces"),
+    Column(
+        "ist_status",
+        _S,
+        '"ok", or why no content was predicted (perturbed equation, data not decaying, switched off)',
+    ),
+    Column("ist_count", _I, "solitons the IST of the initial data predicts (null unless ist ok)"),
+    Column("ist_breathers", _I, "breathers the IST predicts (mKdV complex eigenvalue pairs)"),
+    Column("ist_kappas", _LIST, "the predicted solitons' kappas, largest first"),
+    Column("content_status", _S, '"ok", or why the emerging solitons were not measured'),
+    Column("measured_count", _I, "solitons measured in the record"),
+    Column("measured_breathers", _I, "breathers measured in the record"),
+    Column(
+        "left_out",
+        _I,
+        "predicted solitons and breathers left out of the comparison (the reason in solitons.note)",
+    ),
+    Column("all_found", _B, "every predicted soliton and breather not left out was measured"),
+    Column(
+        "radiation_mass", _F, "int u of the last frame minus the fitted solitons' and breathers'"
+    ),
+    Column(
+        "radiation_mass_ist", _F, "int u of the data minus the predicted solitons' (trace formula)"
+    ),
+    Column("radiation_momentum", _F, "int u^2 of the last frame minus the fitted shapes'"),
+    Column("radiation_momentum_ist", _F, "int u^2 of the data minus the predicted solitons'"),
+    Column("radiation_hamiltonian", _F, "Hamiltonian of the last frame minus the fitted shapes'"),
+    Column(
+        "radiation_hamiltonian_ist", _F, "Hamiltonian of the data minus the predicted solitons'"
+    ),
+    Column("radiation_l2", _F, "int r^2 of the last frame r after subtracting the fitted shapes"),
 )
 
 #: Columns of the runs table that measure the machine, not the physics: they differ between two
 #: runs of the same sweep; every other column is reproducible bit for bit.
 TIMING_COLUMNS = ("wall_time", "cpu_time", "step_time", "analysis_time")
 
-#: The solitons table, in order (``kappa_ist`` follows with ``run.predict_content``).
+#: The solitons table, in order (the :data:`CONTENT_SOLITON_COLUMNS` follow with the content).
 SOLITON_COLUMNS: tuple[Column, ...] = (
     RUN_ID,
-    Column("soliton", _I, "the soliton's number, from 0 left to right at the start"),
-    Column("sign", _I, "polarity: +1 elevation, -1 depression"),
+    Column(
+        "soliton",
+        _I,
+        "the soliton's number: from 0 left to right at the start (content: solitons largest "
+        "first, then breathers, then predicted ones not found)",
+    ),
+    Column("sign", _I, "polarity: +1 elevation, -1 depression (0 for a breather)"),
     Column("kappa", _F, "the soliton's kappa as given (measured when not given)"),
     Column("x0", _F, "its centre at t = 0 as given or sized (NaN when not known)"),
-    Column("kappa_measured", _F, "kappa from the measured asymptotic speed"),
+    Column(
+        "kappa_measured",
+        _F,
+        "kappa from the measured asymptotic speed (content: of the fitted shape; breather: eta)",
+    ),
     Column("kappa_from_height", _F, "kappa from the mean peak height in the fit windows"),
-    Column("speed", _F, "speed of the shared-speed fit to both windows"),
+    Column(
+        "speed",
+        _F,
+        "speed of the shared-speed fit to both windows (content: asymptotic speed of the fitted "
+        "centre; breather: envelope velocity)",
+    ),
     Column("speed_before", _F, "speed fitted before the collisions"),
     Column("speed_after", _F, "speed fitted after the collisions"),
-    Column("amplitude", _F, "mean peak height |u| in the fit windows"),
+    Column(
+        "amplitude",
+        _F,
+        "mean peak height |u| in the fit windows (content: of the fitted shape; breather: of "
+        "its envelope)",
+    ),
     Column("collisions", _I, "collisions the soliton took part in"),
     Column("offset_before", _F, "x^-: position at t = 0 of the asymptote before the collisions"),
     Column("offset_after", _F, "x^+: position at t = 0 of the asymptote after the collisions"),
@@ -136,7 +198,28 @@ SOLITON_COLUMNS: tuple[Column, ...] = (
     Column("frames_after", _I, "frames used in the fit after the collisions"),
 )
 
-KAPPA_IST = Column("kappa_ist", _F, "predicted kappa matched by rank to kappa_measured")
+#: Solitons columns of the content (see :data:`CONTENT_COLUMNS`): measured beside predicted, the
+#: i-th largest measured against the i-th largest predicted, solitons and breathers apart.
+CONTENT_SOLITON_COLUMNS: tuple[Column, ...] = (
+    Column("kind", _S, '"soliton" or "breather"'),
+    Column("found", _B, "measured and matched to a predicted one (null when none was predicted)"),
+    Column("note", _S, "why a predicted soliton was left out or not found (empty otherwise)"),
+    Column("kappa_uncertainty", _F, "error estimate of kappa_measured"),
+    Column("amplitude_uncertainty", _F, "error estimate of amplitude"),
+    Column("speed_uncertainty", _F, "error estimate of speed"),
+    Column("t_separated", _F, "time from which it stands clear of the others and the radiation"),
+    Column("kappa_ist", _F, "predicted kappa (breather: eta), matched largest to largest"),
+    Column("amplitude_ist", _F, "predicted amplitude |u| (breather: of the envelope)"),
+    Column("speed_ist", _F, "predicted speed 4 d kappa^2 (breather: envelope velocity)"),
+    Column("xi_measured", _F, "breather: measured real part xi of its eigenvalue xi + i eta"),
+    Column("xi_ist", _F, "breather: predicted xi"),
+    Column("frequency", _F, "breather: measured internal frequency in the envelope frame"),
+    Column("frequency_uncertainty", _F, "breather: error estimate of frequency"),
+    Column("frequency_ist", _F, "breather: the frequency its predicted eigenvalue gives"),
+)
+
+#: ``kappa_ist`` (one of :data:`CONTENT_SOLITON_COLUMNS`).
+KAPPA_IST = CONTENT_SOLITON_COLUMNS[7]
 
 
 @dataclass(frozen=True)
@@ -150,6 +233,7 @@ class Layout:
     analysis
         The initial data are solitons, so the collision analysis fills its columns.
     content
+        The soliton content's columns: the initial data are not solitons, or
         ``run.predict_content`` is on.
     """
 
@@ -173,7 +257,7 @@ class Layout:
 
     def solitons(self) -> tuple[Column, ...]:
         """The columns of the solitons table, in order."""
-        return (*SOLITON_COLUMNS, KAPPA_IST) if self.content else SOLITON_COLUMNS
+        return (*SOLITON_COLUMNS, *CONTENT_SOLITON_COLUMNS) if self.content else SOLITON_COLUMNS
 
     def schema(self, table: str) -> pa.Schema:
         """The Arrow schema of ``"runs"`` or ``"solitons"``."""
@@ -199,6 +283,12 @@ class Layout:
         )
 
 
+def has_content(predict_content: bool, soliton_data: bool) -> bool:
+    """Whether a sweep's tables have the content columns (:attr:`Layout.content`): its data are
+    not solitons, or it asks for the predicted content."""
+    return predict_content or not soliton_data
+
+
 def all_columns() -> tuple[Column, ...]:
     """Every declared column of either table (each name once), for documentation."""
     seen: dict[str, Column] = {}
@@ -210,13 +300,16 @@ def all_columns() -> tuple[Column, ...]:
 def reserved_names() -> frozenset[str]:
     """Names a swept parameter may not take: every column of either table except
     :data:`MODEL_COLUMNS` (a parameter of such a name takes the column)."""
-    names: Iterable[str] = (c.name for c in (*all_columns(), *SOLITON_COLUMNS, KAPPA_IST))
+    names: Iterable[str] = (
+        c.name for c in (*all_columns(), *SOLITON_COLUMNS, *CONTENT_SOLITON_COLUMNS)
+    )
     return frozenset(names) - frozenset(MODEL_COLUMNS)
 
 
 __all__ = [
     "ANALYSIS_COLUMNS",
     "CONTENT_COLUMNS",
+    "CONTENT_SOLITON_COLUMNS",
     "KAPPA_IST",
     "MODEL_COLUMNS",
     "PARAMETER_TYPES",
@@ -227,5 +320,6 @@ __all__ = [
     "Column",
     "Layout",
     "all_columns",
+    "has_content",
     "reserved_names",
 ]

@@ -18,14 +18,15 @@ import json
 import math
 import re
 import tomllib
-from dataclasses import dataclass
+import warnings
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 
 from .. import initial as init
-from ..columns import Layout
+from ..columns import Layout, has_content
 from ..exceptions import ConfigError, ShapeError
 from ..model import COEFFICIENTS, Equation, Grid, SolitonForm
 from ..simulation import ADAPTIVE, DEFAULT_SCHEME, SCHEMES, step_options
@@ -37,6 +38,8 @@ from .space import Axis, Value, canonical, check_name, expand, read_space
 FORMAT = 1
 MAX_FRAMES = 100_000
 MAX_AUTO_POINTS = 2**18
+#: Most points of the provisional grid on which ``length = 'auto'`` finds the predicted solitons.
+PROVISIONAL_POINTS = 2048
 DEFAULT_TAIL = 1e-8
 PRESETS = ("kdv", "kdv-", "mkdv", "mkdv-", "gardner")
 
@@ -45,7 +48,12 @@ _SWEEP = ("name", "note")
 _MODEL = ("equation", "points", "length", "scheme", "dt", "tol")
 _EQUATION = ("preset", *COEFFICIENTS, "dealias")
 _RUN = ("end", "frame_every", "keep_frames", "keep_stride", "predict_content")
-_SIZING = ("tail",)
+_SIZING = ("tail", "min_amplitude", "max_end", "radiation")
+#: Default ``sizing.max_end``: the latest automatic end of a content run (time units of the run).
+DEFAULT_MAX_END = 100.0
+#: Default ``sizing.radiation``: the Fourier level of the data (relative to its peak) whose
+#: radiation is budgeted in an automatic length (:mod:`kdvsweep.sweep.sizing`, content runs).
+DEFAULT_RADIATION = 1e-3
 _SOLITON_SIZES = ("kappa", "amplitude", "speed")
 _INITIAL = {
     "solitons": ("kind", *_SOLITON_SIZES, "position", "polarity"),
@@ -99,9 +107,16 @@ class RunSettings:
     store_frames, frame_stride
         Keep every ``frame_stride``-th recorded frame in the store.
     predict_content
-        Also store the soliton content the inverse scattering transform predicts from ``u0``.
+        Also store the soliton content the inverse scattering transform predicts from ``u0``
+        (default on for data that are not solitons).
     drift_limit
         Relative momentum drift at which a conservative run fails (``None``: no check).
+    min_amplitude
+        Content runs: predicted solitons below this fraction of ``max |u0|`` are left out of the
+        comparison (``None``: the measurement's default,
+        :data:`kdvsweep.analysis.content.DEFAULT_MIN_AMPLITUDE`).
+    tail
+        Content runs: the relative level at which solitons count as apart (``sizing.tail``).
     """
 
     t_end: float
@@ -110,6 +125,8 @@ class RunSettings:
     frame_stride: int = 1
     predict_content: bool = False
     drift_limit: float | None = DEFAULT_DRIFT_LIMIT
+    min_amplitude: float | None = None
+    tail: float = DEFAULT_TAIL
 
     def plain(self) -> dict[str, Any]:
         """As plain JSON data; options at their defaults are left out, so adding an option
@@ -124,6 +141,10 @@ class RunSettings:
             out["predict_content"] = True
         if self.drift_limit != DEFAULT_DRIFT_LIMIT:
             out["drift_limit"] = self.drift_limit
+        if self.min_amplitude is not None:
+            out["min_amplitude"] = self.min_amplitude
+        if self.tail != DEFAULT_TAIL:
+            out["tail"] = self.tail
         return out
 
 
@@ -288,6 +309,11 @@ class _Template:
     tail: float
     sizing_given: bool
     base: Path
+    min_amplitude: float | None = None
+    max_end: float = DEFAULT_MAX_END
+    radiation: float = DEFAULT_RADIATION
+    #: Predicted content of each distinct profile (sizing), by the profile's plain form.
+    content_cache: dict[str, Any] = field(default_factory=dict)
 
 
 def _read_template(src: Source, doc: dict[str, Any], base: Path, stem: str) -> _Template:
@@ -351,24 +377,44 @@ def _read_template(src: Source, doc: dict[str, Any], base: Path, stem: str) -> _
     frame_every = run.number("frame_every", positive=True)
     keep_frames = run.flag("keep_frames", default=False)
     keep_stride = run.integer("keep_stride", default=1, minimum=1)
-    predict_content = run.flag("predict_content", default=False)
+    soliton_data = kind in ("solitons", "multisoliton")
+    predict_content = run.flag("predict_content", default=not soliton_data)
 
     stab = Table(src, top.raw("sizing", {}), "sizing", _SIZING)
     tail = stab.number("tail", default=DEFAULT_TAIL, positive=True)
     if not tail < 1:
         raise stab.fail("tail", tail, "a number between 0 and 1 (a relative tail height)")
+    min_amplitude = stab.number("min_amplitude", default=None, positive=True)
+    if min_amplitude is not None and not min_amplitude < 1:
+        raise stab.fail("min_amplitude", min_amplitude, "a number between 0 and 1 (of max |u0|)")
+    max_end = stab.number("max_end", default=DEFAULT_MAX_END, positive=True)
+    radiation = stab.number("radiation", default=DEFAULT_RADIATION, positive=True)
+    if not radiation < 1:
+        raise stab.fail("radiation", radiation, "a number between 0 and 1 (a relative level)")
 
     autos = {
         "model.length": length is None,
         "run.end": end is None,
         "initial.position": initial.get("position") == "auto",
     }
-    if any(autos.values()) and kind not in ("solitons", "multisoliton"):
-        key = next(k for k, v in autos.items() if v)
+    if autos["initial.position"] and not soliton_data:
+        raise src.error(
+            "initial.position",
+            "'auto'",
+            "a number: automatic positions need initial.kind = 'solitons' or 'multisoliton'",
+        )
+    if autos["model.length"] and kind == "npy":
+        raise src.error(
+            "model.length",
+            "'auto'",
+            "a number: the samples of an npy file are the data on the length given",
+        )
+    if (autos["model.length"] or autos["run.end"]) and not soliton_data and not predict_content:
+        key = "model.length" if autos["model.length"] else "run.end"
         raise src.error(
             key,
-            "'auto'",
-            "a number: automatic sizing needs initial.kind = 'solitons' or 'multisoliton'",
+            "'auto' with run.predict_content = false",
+            "a number: automatic sizing of profile data needs the predicted solitons",
         )
     if points is None and kind not in ("solitons", "multisoliton"):
         raise src.error(
@@ -399,6 +445,9 @@ def _read_template(src: Source, doc: dict[str, Any], base: Path, stem: str) -> _
         tail=float(tail),
         sizing_given=top.has("sizing"),
         base=base,
+        min_amplitude=None if min_amplitude is None else float(min_amplitude),
+        max_end=float(max_end),
+        radiation=float(radiation),
     )
 
 
@@ -748,11 +797,10 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
                 )
         initial = init.Solitons(tuple(kappas), tuple(x0), tuple(signs), tpl.kind == "multisoliton")
     else:
-        # both are numbers: 'auto' needs soliton initial data (checked when the file was read)
-        assert tpl.length is not None
-        assert tpl.end is not None
-        length = ctx.num(tpl.length, "positive")
-        t_end = ctx.num(tpl.end, "positive")
+        # 'auto' length or end: sized from the predicted content below (checked when read)
+        given_length = None if tpl.length is None else ctx.num(tpl.length, "positive")
+        given_end = None if tpl.end is None else ctx.num(tpl.end, "positive")
+        length = given_length if given_length is not None else math.inf
         if tpl.kind == "npy":
             initial = init.FileData(tpl.initial["path"], tpl.initial["sha256"])
             max_u = tpl.initial["max_abs"]
@@ -778,6 +826,19 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
             form_or_none = eq.soliton_form_or_none()
             if tpl.kind == "sech2" and form_or_none is not None and form_or_none.family == "kdv":
                 narrowest = _sech2_narrowest(values["height"], values["scale"], form_or_none)
+        if given_length is None or given_end is None:
+            length, t_end, predicted_narrowest = _content_sizing(
+                tpl, ctx, warn, eq, initial, given_length, given_end
+            )
+            narrowest = min(narrowest, predicted_narrowest)
+            if isinstance(initial, init.Box) and not initial.half_width < 0.5 * length:
+                raise ctx.fail(
+                    "initial.half_width",
+                    initial.half_width,
+                    f"less than half the automatic length ({0.5 * length:g})",
+                )
+        else:
+            length, t_end = given_length, given_end
 
     dealias = eq.dealias_fraction
     if tpl.points is None:
@@ -827,8 +888,145 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
         store_frames=tpl.keep_frames,
         frame_stride=tpl.keep_stride,
         predict_content=tpl.predict_content,
+        min_amplitude=tpl.min_amplitude if not soliton else None,
+        tail=tpl.tail if not soliton else DEFAULT_TAIL,
     )
     return RunSpec(ctx.run_id, dict(ctx.params), model, initial, run)
+
+
+def _provisional_grid(initial: init.InitialData, n: int) -> Grid:
+    """A grid holding the whole profile (``length = 'auto'``): four times its reach from 0."""
+    assert isinstance(initial, init.Profile | init.Box)  # npy data need their length
+    if isinstance(initial, init.Box):
+        reach = initial.half_width + 20.0 * initial.edge
+    else:  # sech^2 falls to 1e-18 within 21.4 scales, a Gaussian within 6.5
+        reach = (21.4 if initial.shape == "sech2" else 6.5) * initial.scale
+    length = 4.0 * (abs(initial.center) + reach)
+    return Grid(min(n, PROVISIONAL_POINTS), length)
+
+
+def _predicted(
+    tpl: _Template, ctx: _Run, key: str, eq: Equation, initial: init.InitialData, grid: Grid
+) -> tuple[Any, np.ndarray]:
+    """The predicted content of the initial data on ``grid`` (cached per distinct profile)."""
+    from .. import spectrum  # scipy's dense eigensolvers: loaded only by sweeps that size content
+
+    u0 = init.build_profile(initial, grid, eq)
+    cache_key = json.dumps(
+        [initial.plain(), grid.n, grid.length, dict(eq.core_fields())], sort_keys=True
+    )
+    if cache_key not in tpl.content_cache:
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")  # accuracy notes: sizing needs the speeds only
+                tpl.content_cache[cache_key] = spectrum.bound_states(u0, grid, eq)
+        except (ConfigError, ShapeError) as err:
+            raise ctx.fail(
+                key, "auto", f"a number: sizing needs the predicted solitons ({err})"
+            ) from None
+    return tpl.content_cache[cache_key], u0
+
+
+def _content_sizing(
+    tpl: _Template,
+    ctx: _Run,
+    warn: _Warnings,
+    eq: Equation,
+    initial: init.InitialData,
+    length: float | None,
+    t_end: float | None,
+) -> tuple[float, float, float]:
+    """``length`` and ``t_end`` of profile data from their predicted solitons
+    (:mod:`kdvsweep.sweep.sizing`, content runs); also the narrowest predicted width."""
+    key = "model.length" if length is None else "run.end"
+    if eq.d <= 0:
+        raise ctx.src.error(
+            "model.equation", f"d = {eq.d} in {ctx.label}", "d > 0 for automatic sizing"
+        )
+    sized = eq
+    if eq.perturbed:  # sizing uses the unperturbed speeds, and says so
+        sized = Equation(a=eq.a, b=eq.b, d=eq.d)
+        warn.note(
+            "sizing",
+            "automatic sizing uses the solitons the unperturbed equation predicts; "
+            "the f, g, v terms change them",
+        )
+    form = sized.soliton_form_or_none()
+    if form is None:
+        raise ctx.fail(
+            key,
+            "auto",
+            f"a number: equation {eq.name!r} ({eq.describe()}) has no solitons to size from",
+        )
+    assert tpl.points is not None  # profile data give their points (checked when read)
+    n = int(ctx.num(tpl.points, "integer"))
+    try:
+        grid = Grid(n, length) if length is not None else _provisional_grid(initial, n)
+    except ConfigError as err:
+        raise ctx.fail("model.points", n, f"an even integer >= 16 ({err})") from None
+    content, u0 = _predicted(tpl, ctx, key, sized, initial, grid)
+    items = [
+        sizing.Emerging("soliton", i, float(k), float(c), abs(float(a)))
+        for i, (k, c, a) in enumerate(
+            zip(content.kappas, content.speeds, content.amplitudes, strict=True)
+        )
+    ]
+    items += [
+        sizing.Emerging(
+            "breather", j, b.kappa, b.envelope_speed, sizing.breather_amplitude(form, b.kappa)
+        )
+        for j, b in enumerate(content.breathers)
+    ]
+    width = sizing.extent(u0, grid.dx, tpl.tail)
+    fraction = tpl.min_amplitude
+    if fraction is None:
+        from ..analysis.content import DEFAULT_MIN_AMPLITUDE
+
+        fraction = DEFAULT_MIN_AMPLITUDE
+    floor = fraction * float(np.max(np.abs(u0)))
+    # the radiation's share of int u^2 (trace formula): the data's minus the predicted solitons'
+    line = np.linspace(-40.0, 40.0, 8001)
+    carried = sum(
+        float(np.trapezoid(form.profile(line * form.width(k), k) ** 2, line)) * form.width(k)
+        for k in content.kappas
+    )
+    total = float(np.sum(u0**2) * grid.dx)
+    share = max(0.0, 1.0 - carried / total) if total > 0 else 0.0
+    limit = tpl.max_end if t_end is None else t_end
+    sep = sizing.separation(items, width, form, tpl.tail, floor, limit, share)
+    if sep.left_out:
+        worst = max(sep.times[i] for i, _ in sep.left_out)
+        detail = "; ".join(f"{items[i].label}: {why}" for i, why in sep.left_out)
+        warn.add(
+            "sizing",
+            "leave predicted solitons out of the comparison",
+            ctx.run_id,
+            worst if math.isfinite(worst) else 1e300,
+            detail,
+        )
+    if t_end is None:
+        if sep.end <= 0:
+            raise ctx.fail(
+                "run.end",
+                "auto",
+                f"a number: no predicted soliton separates by sizing.max_end = {tpl.max_end:g} "
+                f"({len(items)} predicted, {len(sep.left_out)} left out)",
+            )
+        t_end = canonical(math.ceil(sep.end / tpl.frame_every - 1e-9) * tpl.frame_every)
+    v_rad = sizing.radiation_speed(u0, grid.length, form.d, tpl.radiation, share)
+    need = sizing.content_length(items, width, form, tpl.tail, v_rad, t_end, share)
+    if length is None:
+        length = sizing.nice_ceil(need)
+    elif length < need:
+        assert tpl.length is not None
+        raise ctx.fail(
+            "model.length",
+            tpl.length.given,
+            f"at least {need:.4g} (or 'auto') so neither solitons nor radiation wrap around "
+            f"into the solitons by t = {t_end:g}",
+        )
+    widths = [form.width(it.kappa) for it in items if it.kind == "soliton"]
+    return length, t_end, min(widths, default=math.inf)
 
 
 def _sech2_narrowest(height: float, scale: float, form: SolitonForm) -> float:
@@ -921,7 +1119,8 @@ def load_sweep(path: str | Path) -> Sweep:
         tpl.sizing_given
         and tpl.length is not None
         and tpl.end is not None
-        and (tpl.kind not in ("solitons", "multisoliton") or tpl.initial.get("position") != "auto")
+        and tpl.kind in ("solitons", "multisoliton")
+        and tpl.initial.get("position") != "auto"
     ):
         warn.note("sizing", "unused: no 'auto' length, end or position")
     runs = [_expand_run(tpl, _Run(src, i, params), warn) for i, params in enumerate(combos)]
@@ -943,7 +1142,7 @@ def load_sweep(path: str | Path) -> Sweep:
         layout=Layout(
             parameters=tpl.kinds,
             analysis=tpl.kind in ("solitons", "multisoliton"),
-            content=tpl.predict_content,
+            content=has_content(tpl.predict_content, tpl.kind in ("solitons", "multisoliton")),
         ),
     )
 

@@ -18,10 +18,12 @@ from typing import Any
 import numpy as np
 
 from .. import analysis, initial, theory
-from ..columns import TIMING_COLUMNS
+from ..columns import TIMING_COLUMNS, has_content
 from ..exceptions import ConfigError, NumericalError
 from ..model import Equation, Grid
 from ..simulation import Simulation, invariants
+from ..spectrum import SolitonContent
+from . import sizing
 from .config import RunSpec
 
 
@@ -153,14 +155,193 @@ def _collision_rows(
     return rows, extra
 
 
-def _predicted_content(u0: np.ndarray, grid: Grid, equation: Equation) -> list[float]:
-    """Soliton kappas the inverse scattering transform predicts from the initial data."""
+def _predicted_content(
+    u0: np.ndarray, grid: Grid, equation: Equation, wanted: bool
+) -> tuple[SolitonContent | None, str, str]:
+    """The content the inverse scattering transform predicts from the initial data.
+
+    Returns the content (``None`` when not predicted), the ``ist_status`` (``"ok"`` or why not)
+    and a one-line note of the solve's accuracy warnings (empty when none).
+    """
+    if not wanted:
+        return None, "off: run.predict_content = false", ""
     from .. import spectrum  # scipy's dense eigensolvers: loaded only by sweeps that ask
 
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")  # resolution notes of the solve are not run failures
-        content = spectrum.bound_states(u0, grid, equation=equation)
-    return [float(k) for k in content.kappas]
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            content = spectrum.bound_states(u0, grid, equation=equation)
+        except ConfigError as exc:  # perturbed equation, data that do not decay, ...
+            return None, f"no IST: {exc}", ""
+    notes = [" ".join(str(w.message).split()) for w in caught]
+    if not notes:
+        return content, "ok", ""
+    more = f" (and {len(notes) - 1} more)" if len(notes) > 1 else ""
+    return content, "ok", f"IST: {notes[0]}{more}"
+
+
+def _ist_columns(content: SolitonContent | None, status: str) -> dict[str, Any]:
+    """The ``ist_*`` columns of a run's row (nulls when nothing was predicted)."""
+    if content is None:
+        return {"ist_status": status}
+    return {
+        "ist_status": status,
+        "ist_count": len(content),
+        "ist_breathers": len(content.breathers),
+        "ist_kappas": [float(k) for k in content.kappas],
+    }
+
+
+def _sizing_reasons(
+    spec: RunSpec,
+    u0: np.ndarray,
+    grid: Grid,
+    equation: Equation,
+    content: SolitonContent,
+    floor: float,
+) -> dict[tuple[str, int], str]:
+    """Predicted solitons the sizing rules expect not to separate by the run's end, and why."""
+    form = equation.soliton_form_or_none()
+    if form is None:
+        return {}
+    items = [
+        sizing.Emerging("soliton", i, float(k), float(c), abs(float(a)))
+        for i, (k, c, a) in enumerate(
+            zip(content.kappas, content.speeds, content.amplitudes, strict=True)
+        )
+    ]
+    items += [
+        sizing.Emerging(
+            "breather", j, b.kappa, b.envelope_speed, sizing.breather_amplitude(form, b.kappa)
+        )
+        for j, b in enumerate(content.breathers)
+    ]
+    width = sizing.extent(u0, grid.dx, spec.run.tail)
+    sep = sizing.separation(items, width, form, spec.run.tail, floor, spec.run.t_end)
+    return {(items[i].kind, items[i].index): why for i, why in sep.left_out}
+
+
+def _content_rows(
+    spec: RunSpec,
+    frames: np.ndarray,
+    times: np.ndarray,
+    grid: Grid,
+    equation: Equation,
+    content: SolitonContent | None,
+    u0: np.ndarray,
+) -> tuple[list[dict[str, Any]], dict[str, Any]]:
+    """Rows of the solitons table and the content columns of the run's row, measured by
+    :func:`kdvsweep.analysis.content.measure_content` (profile and file data).
+
+    One row per emerging soliton or breather, measured beside predicted; then one row per
+    predicted one that was not found, with the reason (left out by the measurement's amplitude
+    floor, by the sizing rules, or not found).
+    """
+    from ..analysis.content import DEFAULT_MIN_AMPLITUDE, measure_content
+
+    fraction = spec.run.min_amplitude
+    floor = (DEFAULT_MIN_AMPLITUDE if fraction is None else fraction) * float(np.max(np.abs(u0)))
+    try:
+        found = measure_content(frames, times, grid, equation, content, min_amplitude=floor)
+    except Exception as exc:  # a measurement error is recorded; the run's numbers are still valid
+        return [], {"content_status": f"failed: {type(exc).__name__}: {exc}"}
+    run_id = int(spec.run_id)
+    rows: list[dict[str, Any]] = []
+    matched: set[tuple[str, int]] = set()
+    for i, e in enumerate(found.emerging):
+        row: dict[str, Any] = {
+            "run_id": run_id,
+            "soliton": i,
+            "kind": e.kind,
+            "sign": int(e.sign),
+            "kappa": e.kappa_measured,
+            "kappa_measured": e.kappa_measured,
+            "kappa_uncertainty": e.kappa_uncertainty,
+            "amplitude": e.amplitude,
+            "amplitude_uncertainty": e.amplitude_uncertainty,
+            "speed": e.speed,
+            "speed_uncertainty": e.speed_uncertainty,
+            "t_separated": e.t_separated,
+            "xi_measured": e.xi_measured,
+            "frequency": e.frequency,
+            "frequency_uncertainty": e.frequency_uncertainty,
+            "note": "",
+        }
+        if content is not None:
+            row["found"] = e.predicted_index >= 0
+            if e.predicted_index >= 0:
+                matched.add((e.kind, int(e.predicted_index)))
+                row.update(
+                    kappa_ist=e.kappa_predicted,
+                    amplitude_ist=abs(e.amplitude_predicted),
+                    speed_ist=e.speed_predicted,
+                    frequency_ist=e.frequency_predicted,
+                )
+                if e.kind == "breather":
+                    row["xi_ist"] = content.breathers[e.predicted_index].xi
+            else:
+                row["note"] = "not predicted: no unmatched predicted soliton of its kind is near it"
+        rows.append({k: _plain(v) for k, v in row.items()})
+    extra: dict[str, Any] = {
+        "content_status": "ok" if found.status == "ok" else f"{found.status}: {found.reason}",
+        "measured_count": sum(e.kind == "soliton" for e in found.emerging),
+        "measured_breathers": sum(e.kind == "breather" for e in found.emerging),
+        "radiation_mass": found.radiation.get("mass"),
+        "radiation_momentum": found.radiation.get("momentum"),
+        "radiation_hamiltonian": found.radiation.get("energy"),
+        "radiation_l2": found.radiation_l2,
+    }
+    if content is None:
+        return rows, extra
+    extra.update(
+        radiation_mass_ist=found.radiation_predicted.get("mass"),
+        radiation_momentum_ist=found.radiation_predicted.get("momentum"),
+        radiation_hamiltonian_ist=found.radiation_predicted.get("energy"),
+    )
+    left = {(kind, int(index)): why for kind, index, why in found.left_out}
+    sized = _sizing_reasons(spec, u0, grid, equation, content, floor)
+    form = equation.soliton_form_or_none()
+    expected = [
+        {
+            "kind": "soliton",
+            "index": i,
+            "sign": int(content.polarity[i]),
+            "kappa_ist": float(content.kappas[i]),
+            "amplitude_ist": abs(float(content.amplitudes[i])),
+            "speed_ist": float(content.speeds[i]),
+        }
+        for i in range(len(content))
+    ]
+    expected += [
+        {
+            "kind": "breather",
+            "index": j,
+            "sign": 0,
+            "kappa_ist": b.kappa,
+            "xi_ist": b.xi,
+            "amplitude_ist": math.nan if form is None else sizing.breather_amplitude(form, b.kappa),
+            "speed_ist": b.envelope_speed,
+        }
+        for j, b in enumerate(content.breathers)
+    ]
+    left_out = 0
+    all_found = True
+    for pred in expected:
+        kind, index = str(pred.pop("kind")), int(pred.pop("index"))
+        if (kind, index) in matched:
+            continue
+        why = left.get((kind, index)) or sized.get((kind, index))
+        if why:
+            left_out += 1
+        else:
+            all_found = False
+        note = f"left out: {why}" if why else "not found in the record"
+        rows.append(
+            {"run_id": run_id, "soliton": len(rows), "kind": kind, "found": False, "note": note}
+            | pred
+        )
+    extra.update(left_out=left_out, all_found=all_found)
+    return rows, extra
 
 
 def _attach_predicted(rows: list[dict[str, Any]], predicted: list[float]) -> None:
@@ -213,15 +394,15 @@ def execute(spec: RunSpec, simulation: SimulationFactory | None = None) -> RunRe
         sim = make(grid, equation, model.scheme, model.dt, model.tol)
         u0 = initial.build_profile(spec.initial, grid, equation)
         sim.set_state(u0)
-        predicted = None
-        if run.predict_content:
-            try:
-                predicted = _predicted_content(u0, grid, equation)
-            except ConfigError as exc:  # e.g. a perturbed equation: no IST; the run goes on
-                row["reason"] = f"no predicted content: {exc}"
-        if predicted is not None:
-            row["ist_count"] = len(predicted)
-            row["ist_kappas"] = " ".join(f"{k:.10g}" for k in predicted)
+        soliton_data = isinstance(spec.initial, initial.Solitons)
+        predicted: SolitonContent | None = None
+        if has_content(run.predict_content, soliton_data):
+            predicted, ist_status, note = _predicted_content(
+                u0, grid, equation, run.predict_content
+            )
+            row.update(_ist_columns(predicted, ist_status))
+            if note:
+                row["reason"] = note
         before = invariants(sim.state, grid, equation)
         times = np.asarray(run.record_times, dtype=np.float64)
         stepping = time.perf_counter()
@@ -244,9 +425,16 @@ def execute(spec: RunSpec, simulation: SimulationFactory | None = None) -> RunRe
                 " (steps too coarse for this run?)"
             )
         analysing = time.perf_counter()
-        solitons, extra = _collision_rows(spec, frames, times, grid, equation)
-        if predicted is not None:
-            _attach_predicted(solitons, predicted)
+        if soliton_data:
+            solitons, extra = _collision_rows(spec, frames, times, grid, equation)
+            if predicted is not None:
+                _attach_predicted(solitons, [float(k) for k in predicted.kappas])
+            if run.predict_content:
+                extra["content_status"] = (
+                    "not measured: the data are solitons (the collision analysis follows them)"
+                )
+        else:
+            solitons, extra = _content_rows(spec, frames, times, grid, equation, predicted, u0)
         row["analysis_time"] = time.perf_counter() - analysing
         row.update(extra)
         kept, kept_times = None, None

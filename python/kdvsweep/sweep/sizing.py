@@ -41,6 +41,9 @@ from __future__ import annotations
 import itertools
 import math
 from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
 
 from ..model import SolitonForm
 from ..theory import pair_shift
@@ -159,16 +162,205 @@ def dt_limit(max_u: float, a: float, b: float, dealias: float, dx: float) -> flo
     return math.inf if rate == 0 else DT_RULE / rate
 
 
+# ----------------------------------------------------------------------------- content runs
+#
+# Profile data (sech2, gaussian, box, npy) shed solitons whose speeds the inverse scattering
+# transform predicts (kdvsweep.spectrum.bound_states). All of them start inside the data's extent
+# W (where |u0| exceeds ``tail`` of its maximum) with unknown phases, so soliton i's centre is at
+# ``x_c + c_i t + delta_i`` with ``|delta_i| <= W/2 + B_i``, ``B_i`` the sum of its pairwise shift
+# bounds (as for collisions above). It has *separated* when it is one gap from every other soliton
+# and from the radiation. KdV and mKdV radiation is linear waves of group velocity ``-3 d k^2``
+# (to the left for d > 0), which stay behind ``x_c + W/2`` up to the Airy front of the slowest
+# waves, whose tail ``Ai(z) ~ exp(-2/3 z^{3/2})`` (Abramowitz & Stegun 1964, 10.4.59) falls to
+# ``tail`` at ``z_tail = (1.5 ln(1/tail))^{2/3}`` of the length ``(3 |d| t)^{1/3}``. The record
+# must run ``FOLLOW`` times the last separation time (the late frames are fitted), and the box must
+# hold the solitons and the radiation budget without either wrapping into the solitons:
+# ``L >= W + 2 B + s + (c_max + v_rad) T``, with ``v_rad = 3 |d| k_rad^2`` the group speed of the
+# fastest radiation budgeted: waves of wavenumber ``k`` come from the data's Fourier transform at
+# ``2k`` (first Born approximation of the reflection coefficient), so ``k_rad`` is half the largest
+# wavenumber at which ``|u0_hat|`` exceeds ``radiation`` of its peak.
+
+#: The record runs this many times the last separation time, so the fit has late frames (our
+#: choice: a third of the record is separated).
+FOLLOW = 1.5
+
+
+@dataclass(frozen=True)
+class Emerging:
+    """A predicted soliton (or breather) as the sizing sees it.
+
+    ``kind`` is ``"soliton"`` or ``"breather"``, ``index`` its place in the prediction,
+    ``kappa`` (a breather's ``eta``), ``speed`` (a breather's envelope speed), ``amplitude``
+    (peak ``|u|``).
+    """
+
+    kind: str
+    index: int
+    kappa: float
+    speed: float
+    amplitude: float
+
+    @property
+    def label(self) -> str:
+        """``soliton 2 (kappa = 0.31, amplitude 0.19, speed 0.38)``."""
+        return (
+            f"{self.kind} {self.index} (kappa = {self.kappa:.4g}, amplitude {self.amplitude:.4g}, "
+            f"speed {self.speed:.4g})"
+        )
+
+
+@dataclass(frozen=True)
+class Separation:
+    """When each predicted soliton separates, and which are left out of the comparison (why)."""
+
+    times: tuple[float, ...]  # per item: separation time (inf when never)
+    left_out: tuple[tuple[int, str], ...]  # (item position, one-line reason)
+    end: float  # FOLLOW times the latest separation of the items followed (0 when none)
+
+
+def breather_amplitude(form: SolitonForm, eta: float) -> float:
+    """Peak ``|u|`` of a focusing-mKdV breather's envelope, ``|alpha| 4 eta`` (the sum of the
+    two complex-conjugate solitons' ``2 eta``; Wadati 1973, from memory)."""
+    return abs(form.alpha) * 4.0 * eta
+
+
+def extent(u: np.ndarray, dx: float, tail: float) -> float:
+    """Length of the shortest periodic arc holding every point where ``|u| > tail max|u|``."""
+    mag = np.abs(np.asarray(u, dtype=np.float64))
+    top = float(mag.max()) if mag.size else 0.0
+    inside = np.flatnonzero(mag > tail * top) if top > 0 else np.zeros(0, dtype=int)
+    if inside.size == 0:
+        return 0.0
+    gaps = np.diff(np.concatenate([inside, [inside[0] + mag.size]]))
+    return float((mag.size - (gaps.max() - 1)) * dx)
+
+
+def radiation_speed(
+    u: np.ndarray, length: float, d: float, level: float, fraction: float = 1.0
+) -> float:
+    """``3 |d| k_rad^2``: ``k_rad`` half the largest wavenumber where the radiation's spectrum
+    exceeds ``level`` of the data's peak (module notes).
+
+    The radiation carries ``fraction`` of ``int u0^2`` (the data's minus the predicted solitons',
+    the trace formula); its spectrum is taken as the data's at ``2k`` scaled by
+    ``sqrt(fraction)``, so reflectionless data (``fraction`` ~ 0) budget no radiation at all.
+    """
+    mag = np.abs(np.fft.rfft(np.asarray(u, dtype=np.float64)))
+    top = float(mag.max()) if mag.size else 0.0
+    if top == 0 or not fraction > 0:
+        return 0.0
+    live = np.flatnonzero(mag * math.sqrt(fraction) > level * top)
+    if live.size == 0:
+        return 0.0
+    k_rad = 0.5 * (2.0 * math.pi / length) * float(live[-1])
+    return 3.0 * abs(d) * k_rad**2
+
+
+def _airy_reach(d: float, t: float, tail: float, share: float) -> float:
+    """How far right of the data the radiation's Airy front reaches ``tail`` (of a radiation
+    whose level is ``sqrt(share)`` of the data's: nothing when it is below ``tail``)."""
+    level = math.sqrt(max(share, 0.0))
+    if not level > tail:
+        return 0.0
+    return (1.5 * math.log(level / tail)) ** (2.0 / 3.0) * (3.0 * abs(d) * t) ** (1.0 / 3.0)
+
+
+def _bounds(items: Sequence[Emerging]) -> list[float]:
+    """``B_i``: the sum of item i's pairwise shift bounds (equal kappas never meet)."""
+    return [
+        sum(shift_bound(a.kappa, b.kappa) for b in items if b is not a and b.kappa != a.kappa)
+        for a in items
+    ]
+
+
+def separation(
+    items: Sequence[Emerging],
+    width: float,
+    form: SolitonForm,
+    tail: float,
+    min_amplitude: float,
+    max_end: float,
+    share: float = 1.0,
+) -> Separation:
+    """Separation time of each item (module notes), and those left out with the reason.
+
+    ``width`` is the data's :func:`extent`; ``min_amplitude`` an absolute ``|u|``; items needing
+    more than ``max_end`` are left out; ``share`` is the radiation's part of ``int u0^2``.
+    """
+    bounds = _bounds(items)
+    times: list[float] = []
+    for i, it in enumerate(items):
+        if not it.speed > 0:
+            times.append(math.inf)
+            continue
+        own = width + bounds[i] + math.log(TAIL_CONSTANT[form.family] / tail) / (2.0 * it.kappa)
+        t = own / it.speed
+        for _ in range(60):  # t = (own + airy(t)) / c: a contraction (airy grows like t^(1/3))
+            t = (own + _airy_reach(form.d, t, tail, share)) / it.speed
+        for j, other in enumerate(items):
+            if j == i or other.speed == it.speed:
+                if j != i and other.kappa == it.kappa:
+                    t = math.inf  # equal speeds: they never part
+                continue
+            dist = width + bounds[i] + bounds[j] + gap(it.kappa, other.kappa, form, tail)
+            t = max(t, dist / abs(it.speed - other.speed))
+        times.append(t)
+    left: list[tuple[int, str]] = []
+    for i, it in enumerate(items):
+        if it.amplitude < min_amplitude:
+            left.append((i, f"amplitude {it.amplitude:.3g} below sizing.min_amplitude"))
+        elif not it.speed > 0:
+            left.append((i, f"speed {it.speed:.3g}: it stays in the radiation"))
+        elif not times[i] <= max_end:
+            left.append(
+                (i, f"separates only at t = {times[i]:.4g}, after the end allowed ({max_end:g})")
+            )
+    gone = {i for i, _ in left}
+    followed = [times[i] for i in range(len(items)) if i not in gone]
+    end = FOLLOW * max(followed) if followed else 0.0
+    return Separation(tuple(float(t) for t in times), tuple(left), float(end))
+
+
+def content_length(
+    items: Sequence[Emerging],
+    width: float,
+    form: SolitonForm,
+    tail: float,
+    v_rad: float,
+    t_end: float,
+    share: float = 1.0,
+) -> float:
+    """Shortest period holding the solitons and the radiation budget until ``t_end`` unwrapped."""
+    moving = [it for it in items if it.speed > 0]
+    bounds = _bounds(items)
+    b = 2.0 * max(bounds, default=0.0)
+    c_max = max((it.speed for it in moving), default=0.0)
+    v_left = max([v_rad, *(-it.speed for it in items if it.speed < 0)])
+    front = max(
+        (math.log(TAIL_CONSTANT[form.family] / tail) / (2.0 * it.kappa) for it in moving),
+        default=0.0,
+    )
+    return width + b + front + (c_max + v_left) * t_end + _airy_reach(form.d, t_end, tail, share)
+
+
 __all__ = [
+    "FOLLOW",
     "REFUSE_DECADES",
     "WARN_DECADES",
+    "Emerging",
+    "Separation",
     "auto_points",
     "auto_positions",
+    "breather_amplitude",
+    "content_length",
     "dt_limit",
     "end_time",
+    "extent",
     "gap",
     "min_length",
     "min_points_per_width",
     "nice_ceil",
+    "radiation_speed",
+    "separation",
     "shift_bound",
 ]

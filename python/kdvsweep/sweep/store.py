@@ -67,7 +67,8 @@ MANIFEST = "manifest.json"
 LOCK = ".lock"
 STORE_FORMAT = "kdvsweep-store"
 #: Version 2: typed Parquet schema in every part, the model's coefficients in the runs table.
-STORE_VERSION = 2
+#: Version 3: the soliton content (profile data): ist_kappas a list column, content columns.
+STORE_VERSION = 3
 TABLES = ("runs", "solitons")
 _PART = re.compile(r"^part-(\d+)\.parquet$")
 _TMP_PREFIX = ".tmp-"
