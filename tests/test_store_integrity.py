@@ -305,8 +305,9 @@ def test_bad_manifest_is_one_line_everywhere(
     assert "\n" not in str(err.value)
     with pytest.raises(ConfigError):
         Store.open(out, sweep)
-    for command in ("status", "table"):
-        assert cli.main([command, str(out)]) == 2
+    run = ["run", str(sweep.path), "--out", str(out), "--workers", "1", "--no-progress"]
+    for command in (["status", str(out)], ["table", str(out)], run):
+        assert cli.main(command) == 2
         got = capsys.readouterr()
         assert one_line(got.err).startswith("kdvsweep: error: ")
         assert got.out == ""
