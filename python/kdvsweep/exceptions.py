@@ -1,7 +1,8 @@
 """Exception classes of kdvsweep.
 
 Pure Python so they import without the compiled module; the Rust shell raises these same classes.
-Each also derives from the built-in that a caller would naturally catch (ValueError, ArithmeticError).
+Each also derives from the built-in that a caller would naturally catch (ValueError, ArithmeticError,
+TimeoutError, MemoryError).
 """
 
 
@@ -21,8 +22,25 @@ class NumericalError(KdvsweepError, ArithmeticError):
     """A run went unstable: non-finite values or growth past the blow-up bound."""
 
 
+class TimeLimitError(KdvsweepError, TimeoutError):
+    """A run used up its wall-clock time limit (the message names the limit and the time reached)."""
+
+
+class OutOfMemoryError(KdvsweepError, MemoryError):
+    """A buffer could not be allocated; the message starts with "out of memory" and names the
+    memory needed."""
+
+
 class StoreBusyError(KdvsweepError, RuntimeError):
     """Another process is writing to the store (it holds the store's lock)."""
 
 
-__all__ = ["ConfigError", "KdvsweepError", "NumericalError", "ShapeError", "StoreBusyError"]
+__all__ = [
+    "ConfigError",
+    "KdvsweepError",
+    "NumericalError",
+    "OutOfMemoryError",
+    "ShapeError",
+    "StoreBusyError",
+    "TimeLimitError",
+]

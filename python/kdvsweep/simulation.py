@@ -118,11 +118,20 @@ class Simulation:
         Adaptive scheme only: relative L2 error allowed per step (default :data:`DEFAULT_TOL`).
     max_amplitude
         Blow-up bound on ``max|u|``; default ``1e3 * max(1, max|u0|)`` set with the state.
+    time_limit
+        Wall-clock seconds that stepping (:meth:`advance` and :meth:`record` together) may take
+        since the state was set; checked every 256 steps. When it runs out the call raises
+        :class:`~kdvsweep.exceptions.TimeLimitError` naming the limit and the time reached (the
+        state stays valid there). ``None`` (default): no limit.
 
     Raises
     ------
     ConfigError
-        For bad options (see :func:`step_options`) or an equation the core rejects.
+        For bad options (see :func:`step_options`), a ``time_limit`` that is not a finite positive
+        number, or an equation the core rejects.
+    OutOfMemoryError
+        If the simulation's buffers cannot be allocated (checked before anything is built; the
+        message names the memory needed).
     """
 
     def __init__(
@@ -133,6 +142,7 @@ class Simulation:
         dt: float = DEFAULT_DT,
         tol: float | None = None,
         max_amplitude: float | None = None,
+        time_limit: float | None = None,
     ) -> None:
         if not isinstance(grid, Grid):
             raise ConfigError(
@@ -143,6 +153,7 @@ class Simulation:
                 f"Simulation: equation must be a kdvsweep.Equation, got {type(equation).__name__}"
             )
         dt, tol = step_options(scheme, dt, tol)
+        limit = None if time_limit is None else _positive("time_limit", time_limit)
         self.grid = grid
         self.equation = equation
         self.scheme = scheme
@@ -155,6 +166,7 @@ class Simulation:
             # A fixed-step scheme ignores the tolerance; the core takes one for every scheme.
             tol=DEFAULT_TOL if tol is None else tol,
             max_amplitude=None if max_amplitude is None else float(max_amplitude),
+            time_limit=limit,
         )
 
     def set_state(self, u0: object, time: float = 0.0) -> None:
@@ -164,13 +176,21 @@ class Simulation:
         self._core.set_state(as_profile(u0, self.grid.n, "u0"), float(time))
 
     def advance(self, duration: float) -> None:
-        """Step forward by ``duration`` (not to it); releases the GIL while stepping."""
+        """Step forward by ``duration`` (not to it); releases the GIL while stepping.
+
+        Raises :class:`~kdvsweep.exceptions.NumericalError` when the run goes unstable or when
+        float64 times near the current time are too coarse for the step (a step must be at least
+        1000 times the spacing of float64 numbers there), and
+        :class:`~kdvsweep.exceptions.TimeLimitError` when the time limit runs out.
+        """
         self._core.advance(float(duration))
 
     def record(self, times: object) -> np.ndarray:
         """Advance through the increasing ``times`` (all >= ``time``) and return the states there.
 
         Returns an array of shape ``(len(times), n)``; each row is the state exactly at that time.
+        Raises :class:`~kdvsweep.exceptions.OutOfMemoryError` before any step if the frames cannot
+        be allocated, and the errors of :meth:`advance`.
         """
         arr = np.ascontiguousarray(np.asarray(times, dtype=np.float64))
         if arr.ndim != 1 or arr.size == 0:
@@ -181,6 +201,11 @@ class Simulation:
     def time(self) -> float:
         """The current time."""
         return self._core.time
+
+    @property
+    def time_limit(self) -> float | None:
+        """The wall-clock limit on stepping since the state was set, seconds (``None``: none)."""
+        return self._core.time_limit
 
     @property
     def state(self) -> np.ndarray:

@@ -63,6 +63,37 @@ pub enum CoreError {
         /// Time reached.
         time: f64,
     },
+    /// The wall-clock time limit of the stepping ran out.
+    #[error("time limit: {limit} s of wall-clock time used up at t = {time} (step {step}); raise time_limit or shorten the run")]
+    TimeLimit {
+        /// The limit, seconds.
+        limit: f64,
+        /// Time reached (the state is valid there).
+        time: f64,
+        /// Steps taken since the state was set.
+        step: u64,
+    },
+    /// The spacing of floating-point times near `time` is too coarse for the step: the steps
+    /// would not advance the time by what they integrate.
+    #[error("time resolution: at t = {time} float64 times are {spacing:.3e} apart, too coarse for the step {step:.3e} (at most {max_ratio:e} of a step); start from a smaller time or take longer steps")]
+    TimeResolution {
+        /// The time reached.
+        time: f64,
+        /// The step size.
+        step: f64,
+        /// Spacing of float64 numbers near `time`.
+        spacing: f64,
+        /// The largest spacing accepted, as a fraction of the step.
+        max_ratio: f64,
+    },
+    /// A buffer could not be allocated (or its size does not fit in memory at all).
+    #[error("out of memory: cannot allocate {} ({bytes} bytes) for {what}; use fewer points or frames", human_bytes(*.bytes))]
+    OutOfMemory {
+        /// What needed the memory.
+        what: &'static str,
+        /// Bytes needed (saturated at `u128::MAX`).
+        bytes: u128,
+    },
     /// An FFT failed (a bug: lengths are checked before any transform).
     #[error("internal FFT error: {0}")]
     Fft(String),
@@ -82,6 +113,22 @@ impl CoreError {
             value: value.to_string(),
             expected: expected.to_string(),
         }
+    }
+}
+
+/// `bytes` with a binary unit, e.g. `2.00 TiB`.
+pub fn human_bytes(bytes: u128) -> String {
+    const UNITS: [&str; 7] = ["bytes", "KiB", "MiB", "GiB", "TiB", "PiB", "EiB"];
+    let mut value = bytes as f64;
+    let mut unit = 0;
+    while value >= 1024.0 && unit + 1 < UNITS.len() {
+        value /= 1024.0;
+        unit += 1;
+    }
+    if unit == 0 {
+        format!("{bytes} bytes")
+    } else {
+        format!("{value:.2} {}", UNITS[unit])
     }
 }
 

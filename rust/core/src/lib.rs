@@ -32,6 +32,7 @@ pub mod error;
 pub mod exact;
 pub mod grid;
 pub mod invariants;
+pub mod memory;
 pub mod schemes;
 pub mod simulation;
 pub mod spectral;

@@ -5,12 +5,15 @@
 //! step to land on the time. Every step checks the field it transformed anyway for non-finite
 //! values and for growth past the blow-up bound.
 
+use std::time::{Duration, Instant};
+
 use num_complex::Complex64;
 use realfft::RealFftPlanner;
 
 use crate::equation::Equation;
 use crate::error::{CoreError, Result};
 use crate::grid::Grid;
+use crate::memory::{bytes_of, ensure_available, try_filled};
 use crate::schemes::{stepper, IfRk43, Scheme, Stepper};
 use crate::spectral::{probe, Probe, Transforms};
 
@@ -19,6 +22,41 @@ pub const HOOK_STEPS: u64 = 256;
 
 /// Default blow-up bound as a multiple of `max(1, max|u0|)`.
 pub const DEFAULT_BOUND_FACTOR: f64 = 1e3;
+
+/// The coarsest spacing of float64 times accepted near the current time, as a fraction of the
+/// step: a step shorter than `1000` spacings would not move the time by what it integrates.
+pub const MAX_TIME_SPACING: f64 = 1e-3;
+
+/// Spectrum-sized (`n/2 + 1` complex values) buffers of a simulation, an upper bound over the
+/// schemes: ETDRK4's symbol, 5 stage buffers and up to 3 cached sets of 6 coefficients, the
+/// nonlinear term's argument and wavenumbers, the driver's spectrum and scratch (28), rounded up.
+const SPECTRUM_BUFFERS: u128 = 30;
+
+/// Complex values per grid point held by the FFT plans and their scratch (two directions, twice:
+/// the driver's and the nonlinear term's), allowing for the padded transforms of sizes with large
+/// prime factors.
+const PLAN_VALUES_PER_POINT: u128 = 8;
+
+/// Real `n`-point buffers (the nonlinear term's and the driver's field, and slack).
+const REAL_BUFFERS: u128 = 4;
+
+/// An upper bound of the bytes a simulation of `n` points allocates (all schemes).
+pub fn memory_bound(n: usize) -> u128 {
+    let points = n as u128;
+    let modes = points / 2 + 1;
+    bytes_of::<Complex64>(SPECTRUM_BUFFERS * modes + PLAN_VALUES_PER_POINT * points)
+        .saturating_add(bytes_of::<f64>(REAL_BUFFERS * points))
+}
+
+/// Spacing of the float64 numbers near `x` (its unit in the last place).
+fn spacing(x: f64) -> f64 {
+    let exponent = x.abs().to_bits() & 0x7ff0_0000_0000_0000;
+    if exponent == 0 {
+        f64::from_bits(1)
+    } else {
+        f64::from_bits(exponent) * f64::EPSILON
+    }
+}
 
 enum Driver {
     Fixed(Box<dyn Stepper>),
@@ -42,6 +80,11 @@ pub struct Simulation {
     h_next: f64,
     max_amplitude: Option<f64>,
     bound: f64,
+    time_limit: Option<f64>,
+    /// Wall-clock time spent stepping since the state was set.
+    used: Duration,
+    /// When the current call must stop (set while stepping under a time limit).
+    deadline: Option<Instant>,
 }
 
 /// Checks a step size, tolerance or bound: finite and positive.
@@ -62,7 +105,8 @@ impl Simulation {
     ///
     /// # Errors
     /// [`CoreError::InvalidParameter`] for `dt`, `tol` or `max_amplitude` not finite and positive,
-    /// or `tol >= 1`.
+    /// or `tol >= 1`; [`CoreError::OutOfMemory`] if [`memory_bound`] bytes cannot be reserved
+    /// (checked before anything is built).
     pub fn new(
         grid: Grid,
         eq: &Equation,
@@ -83,6 +127,12 @@ impl Simulation {
         if let Some(b) = max_amplitude {
             positive("max_amplitude", b)?;
         }
+        // The FFT plans allocate infallibly: reserve (and release) the whole bound first.
+        ensure_available("a simulation on this grid", memory_bound(grid.n()))?;
+        let m = grid.modes();
+        let spectrum = try_filled("the spectrum", m, Complex64::new(0.0, 0.0))?;
+        let spec_tmp = try_filled("the spectrum", m, Complex64::new(0.0, 0.0))?;
+        let phys = try_filled("the field", grid.n(), 0.0)?;
         // One planner: the stepper's plans and the driver's own transforms share its cache.
         let mut planner = RealFftPlanner::new();
         let driver = match scheme {
@@ -91,12 +141,11 @@ impl Simulation {
                 Driver::Fixed(stepper(&mut planner, scheme, &grid, eq))
             }
         };
-        let m = grid.modes();
         Ok(Simulation {
             transforms: Transforms::new(&mut planner, grid.n()),
-            spectrum: vec![Complex64::new(0.0, 0.0); m],
-            spec_tmp: vec![Complex64::new(0.0, 0.0); m],
-            phys: vec![0.0; grid.n()],
+            spectrum,
+            spec_tmp,
+            phys,
             grid,
             scheme,
             driver,
@@ -108,7 +157,30 @@ impl Simulation {
             h_next: dt,
             max_amplitude,
             bound: max_amplitude.unwrap_or(DEFAULT_BOUND_FACTOR),
+            time_limit: None,
+            used: Duration::ZERO,
+            deadline: None,
         })
+    }
+
+    /// Limits the wall-clock time spent stepping (advance and record together) since the state
+    /// was set to `seconds`; `None` removes the limit. The limit is checked every [`HOOK_STEPS`]
+    /// steps; when it has run out the call stops with [`CoreError::TimeLimit`], leaving a valid
+    /// state at the time reached.
+    ///
+    /// # Errors
+    /// [`CoreError::InvalidParameter`] for a limit that is not finite and positive.
+    pub fn set_time_limit(&mut self, seconds: Option<f64>) -> Result<()> {
+        if let Some(s) = seconds {
+            positive("time_limit", s)?;
+        }
+        self.time_limit = seconds;
+        Ok(())
+    }
+
+    /// The wall-clock limit on stepping, seconds (`None`: no limit).
+    pub fn time_limit(&self) -> Option<f64> {
+        self.time_limit
     }
 
     /// The grid.
@@ -172,6 +244,7 @@ impl Simulation {
         self.time = time;
         self.steps = 0;
         self.rejected = 0;
+        self.used = Duration::ZERO;
         self.h_next = self.dt;
         self.bound = self
             .max_amplitude
@@ -279,24 +352,79 @@ impl Simulation {
     /// # Errors
     /// [`CoreError::InvalidParameter`] for a target before the current time,
     /// [`CoreError::NonFinite`] / [`CoreError::BlowUp`] when the run goes unstable,
-    /// [`CoreError::StepSizeUnderflow`] if the adaptive scheme cannot meet its tolerance.
+    /// [`CoreError::StepSizeUnderflow`] if the adaptive scheme cannot meet its tolerance,
+    /// [`CoreError::TimeResolution`] if float64 times near the current time are too coarse for the
+    /// step (see [`MAX_TIME_SPACING`]), [`CoreError::TimeLimit`] when the time limit runs out.
     pub fn advance_to(&mut self, target: f64, hook: &mut dyn FnMut() -> bool) -> Result<()> {
         let span = target - self.time;
-        let slack = 1e-12 * self.time.abs().max(target.abs()).max(1.0);
-        if !target.is_finite() || span < -slack {
+        // Round-off between equal times computed differently: a target this far behind is taken
+        // as the current time, and one this far ahead as reached (a millionth of a step at most,
+        // so a large time never swallows whole steps).
+        let behind = 1e-12 * self.time.abs().max(target.abs()).max(1.0);
+        let ahead = behind.min(1e-6 * self.dt);
+        if !target.is_finite() || span < -behind {
             return Err(CoreError::invalid(
                 "time",
                 target,
                 format!("a finite time >= the current time {}", self.time),
             ));
         }
-        if span <= slack {
+        if span <= ahead {
             self.time = self.time.max(target);
             return Ok(());
         }
-        match &mut self.driver {
+        let started = Instant::now();
+        self.deadline = self
+            .time_limit
+            .and_then(|l| Duration::try_from_secs_f64(l).ok())
+            .and_then(|l| started.checked_add(l.saturating_sub(self.used)));
+        let result = self.check_deadline().and_then(|()| match &mut self.driver {
             Driver::Fixed(_) => self.advance_fixed(target, span, hook),
-            Driver::Adaptive(_) => self.advance_adaptive(target, slack, hook),
+            Driver::Adaptive(_) => self.advance_adaptive(target, ahead, hook),
+        });
+        self.used = self.used.saturating_add(started.elapsed());
+        self.deadline = None;
+        result
+    }
+
+    /// [`CoreError::TimeResolution`] if float64 times near `self.time` and `target` are too coarse
+    /// for the step `h`.
+    fn check_resolution(&self, h: f64, target: f64) -> Result<()> {
+        let gap = spacing(self.time.abs().max(target.abs()));
+        if gap > MAX_TIME_SPACING * h {
+            return Err(CoreError::TimeResolution {
+                time: self.time,
+                step: h,
+                spacing: gap,
+                max_ratio: MAX_TIME_SPACING,
+            });
+        }
+        Ok(())
+    }
+
+    fn check_deadline(&self) -> Result<()> {
+        match (self.time_limit, self.deadline) {
+            (Some(limit), Some(deadline)) if Instant::now() >= deadline => {
+                Err(CoreError::TimeLimit {
+                    limit,
+                    time: self.time,
+                    step: self.steps,
+                })
+            }
+            _ => Ok(()),
+        }
+    }
+
+    /// Every [`HOOK_STEPS`] steps: the time limit, then the caller's hook.
+    fn pause(&mut self, hook: &mut dyn FnMut() -> bool) -> Result<()> {
+        if self.steps % HOOK_STEPS != 0 {
+            return Ok(());
+        }
+        self.check_deadline()?;
+        if hook() {
+            Ok(())
+        } else {
+            Err(CoreError::Interrupted { time: self.time })
         }
     }
 
@@ -315,6 +443,7 @@ impl Simulation {
         }
         .max(1.0) as u64;
         let h = span / count as f64;
+        self.check_resolution(h, target)?;
         let start = self.time;
         for i in 0..count {
             let t = start + i as f64 * h;
@@ -325,10 +454,8 @@ impl Simulation {
             self.time = t;
             self.check(probe, t)?;
             self.steps += 1;
-            if self.steps % HOOK_STEPS == 0 && !hook() {
-                self.time = start + (i + 1) as f64 * h;
-                return Err(CoreError::Interrupted { time: self.time });
-            }
+            self.time = start + (i + 1) as f64 * h;
+            self.pause(hook)?;
         }
         self.time = target;
         Ok(())
@@ -340,6 +467,7 @@ impl Simulation {
         slack: f64,
         hook: &mut dyn FnMut() -> bool,
     ) -> Result<()> {
+        self.check_resolution(self.h_next.min(target - self.time), target)?;
         while target - self.time > slack {
             let remaining = target - self.time;
             let landing = self.h_next >= remaining;
@@ -349,16 +477,24 @@ impl Simulation {
             };
             let attempt = scheme.attempt(&mut self.spectrum, h, self.tol)?;
             if attempt.accepted {
+                let before = self.time;
                 self.time = if landing { target } else { self.time + h };
                 self.steps += 1;
                 self.check(attempt.probe, self.time)?;
+                if self.time == before {
+                    // A step that does not move the time: the time resolution is too coarse.
+                    return Err(CoreError::TimeResolution {
+                        time: before,
+                        step: h,
+                        spacing: spacing(before),
+                        max_ratio: MAX_TIME_SPACING,
+                    });
+                }
                 // A step shortened to land on the target says nothing about the next one.
                 if !landing || attempt.h_next < self.h_next {
                     self.h_next = attempt.h_next;
                 }
-                if self.steps % HOOK_STEPS == 0 && !hook() {
-                    return Err(CoreError::Interrupted { time: self.time });
-                }
+                self.pause(hook)?;
             } else {
                 self.rejected += 1;
                 self.h_next = attempt.h_next;

@@ -32,7 +32,9 @@ fn equation(
 ///
 /// The public wrapper is ``kdvsweep.Simulation``, which checks and coerces its inputs; this class
 /// checks its own arguments too and raises ``kdvsweep.ConfigError`` (bad value),
-/// ``kdvsweep.ShapeError`` (bad length) or ``kdvsweep.NumericalError`` (unstable run).
+/// ``kdvsweep.ShapeError`` (bad length), ``kdvsweep.NumericalError`` (unstable run, or float64
+/// times too coarse for the step), ``kdvsweep.exceptions.TimeLimitError`` (the time limit ran
+/// out) or ``kdvsweep.exceptions.OutOfMemoryError`` (a buffer that cannot be allocated).
 ///
 /// Parameters
 /// ----------
@@ -53,6 +55,9 @@ fn equation(
 ///     alias-free fraction (see ``dealias_fraction``).
 /// max_amplitude : float or None
 ///     Blow-up bound on ``max|u|``; ``None`` means ``1e3 * max(1, max|u0|)``, set with each state.
+/// time_limit : float or None
+///     Wall-clock seconds that stepping (``advance`` and ``record`` together) may take since the
+///     state was set, checked every 256 steps; ``None``: no limit.
 #[pyclass(module = "kdvsweep._core")]
 struct Simulation {
     inner: kc::Simulation,
@@ -62,7 +67,8 @@ struct Simulation {
 impl Simulation {
     #[new]
     #[pyo3(signature = (
-        n, length, *, a, b, d, f, g, v, scheme, dt, tol, dealias=None, max_amplitude=None
+        n, length, *, a, b, d, f, g, v, scheme, dt, tol, dealias=None, max_amplitude=None,
+        time_limit=None
     ))]
     #[allow(clippy::too_many_arguments)] // mirrors the Python constructor one to one
     fn new(
@@ -79,12 +85,14 @@ impl Simulation {
         tol: f64,
         dealias: Option<f64>,
         max_amplitude: Option<f64>,
+        time_limit: Option<f64>,
     ) -> PyResult<Self> {
         let grid = kc::Grid::new(n, length).map_err(to_py)?;
         let eq = equation(a, b, d, f, g, v, dealias)?;
         let scheme: kc::Scheme = scheme.parse().map_err(to_py)?;
-        let inner =
+        let mut inner =
             kc::Simulation::new(grid, &eq, scheme, dt, tol, max_amplitude).map_err(to_py)?;
+        inner.set_time_limit(time_limit).map_err(to_py)?;
         Ok(Simulation { inner })
     }
 
@@ -98,9 +106,10 @@ impl Simulation {
 
     /// Step forward by ``duration`` (at least 0), not to it, with the GIL released.
     ///
-    /// Ctrl-C is honoured every few hundred steps (the state is then valid at the time reached).
-    /// Raises ``ConfigError`` for a negative or non-finite duration and ``NumericalError`` when
-    /// the run goes unstable.
+    /// Ctrl-C and the time limit are honoured every 256 steps (the state is then valid at the time
+    /// reached). Raises ``ConfigError`` for a negative or non-finite duration, ``NumericalError``
+    /// when the run goes unstable or float64 times are too coarse for the step, and
+    /// ``TimeLimitError`` when the time limit runs out.
     fn advance(&mut self, py: Python<'_>, duration: f64) -> PyResult<()> {
         let sim = &mut self.inner;
         run_detached(py, move |hook| sim.advance_with(duration, hook))
@@ -111,15 +120,19 @@ impl Simulation {
     ///
     /// Fixed-step schemes cross each interval with the largest equal steps of at most ``dt``, so
     /// every row is the state exactly at its time. Raises ``ConfigError`` for decreasing,
-    /// non-finite or past times and ``NumericalError`` when the run goes unstable.
+    /// non-finite or past times, ``OutOfMemoryError`` if the frames cannot be allocated (checked
+    /// before any step), and the errors of ``advance``.
     fn record<'py>(
         &mut self,
         py: Python<'py>,
         times: PyReadonlyArray1<'py, f64>,
     ) -> PyResult<Bound<'py, PyArray2<f64>>> {
-        let times = times.as_slice()?.to_vec();
+        let times = times.as_slice()?;
         let n = self.inner.grid().n();
-        let mut out = vec![0.0; times.len() * n];
+        // The frames first: a table that cannot exist is refused before the times are copied.
+        let mut out =
+            kc::memory::try_table("the recorded frames", times.len(), n).map_err(to_py)?;
+        let times = kc::memory::try_copy("the record times", times).map_err(to_py)?;
         let sim = &mut self.inner;
         let frames = &mut out;
         run_detached(py, move |hook| sim.record(&times, frames, hook))?;
@@ -143,6 +156,12 @@ impl Simulation {
     #[getter]
     fn rejected(&self) -> u64 {
         self.inner.rejected()
+    }
+
+    /// The wall-clock limit on stepping since the state was set, seconds (``None``: no limit).
+    #[getter]
+    fn time_limit(&self) -> Option<f64> {
+        self.inner.time_limit()
     }
 
     /// The blow-up bound on ``max|u|`` in force.
