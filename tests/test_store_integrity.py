@@ -434,3 +434,16 @@ def test_leftovers_of_a_killed_creation_are_recognised(tmp_path: Path) -> None:
     with pytest.raises(ConfigError, match=r"not empty and is not a kdvsweep store.*holds runs"):
         Store.open(other, sweep)
     assert sorted(p.name for p in other.rglob("*")) == ["mine.txt", "runs"]
+
+
+def test_damaged_frames_file_is_one_line(tmp_path: Path) -> None:
+    sweep = make_sweep(tmp_path)
+    out = tmp_path / "out"
+    with Store.open(out, sweep) as store:
+        store.write([result(s, frames=True) for s in sweep.runs[:2]])
+    _truncate(out / "frames" / "run_000001.npz")
+    res = load(out)
+    assert res.frames(0).u.shape[0] == 3
+    with pytest.raises(ConfigError, match=r"run_000001.npz: damaged frames file") as err:
+        res.frames(1)
+    assert "\n" not in str(err.value)

@@ -90,7 +90,7 @@ class Results:
             )
         row = self.runs.loc[self.runs["run_id"] == int(run_id)].iloc[0]
         try:
-            with np.load(path) as data:
+            with open(path, "rb") as fh, np.load(fh) as data:  # the file closes on any error
                 times, u = data["t"], data["u"]
         except (OSError, ValueError, KeyError, zipfile.BadZipFile) as exc:
             raise ConfigError(
