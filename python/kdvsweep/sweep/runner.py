@@ -445,6 +445,9 @@ def execute(spec: RunSpec, simulation: SimulationFactory | None = None) -> RunRe
     except Exception as exc:  # failures are data: the sweep must go on past one bad run
         row["status"] = "failed"
         row["reason"] = f"{type(exc).__name__}: {exc}"
+        if isinstance(exc, MemoryError):  # the core's message already starts "out of memory: "
+            text = str(exc) or "no memory left"
+            row["reason"] = text if text.startswith("out of memory") else f"out of memory: {text}"
         if sim is not None:
             row["steps"] = int(getattr(sim, "steps", 0))
         row["wall_time"] = time.perf_counter() - start
