@@ -4,12 +4,15 @@ exact solutions that would not be finite, and long exact evaluations that let Py
 from __future__ import annotations
 
 import time
+from pathlib import Path
 
 import numpy as np
 import pytest
+from conftest import pair_sweep
 
 import kdvsweep as kv
 from kdvsweep.exceptions import KdvsweepError, OutOfMemoryError, TimeLimitError
+from kdvsweep.sweep.runner import execute
 
 GRID = kv.Grid(256, 40.0)
 KDV = kv.Equation.kdv()
@@ -88,3 +91,20 @@ def test_frames_that_cannot_be_allocated_are_a_memory_error() -> None:
     ):
         sim.record(np.zeros(10**9))
     assert (sim.time, sim.steps) == (0.0, 0)
+
+
+def test_a_run_out_of_memory_is_stored_as_failed_with_that_reason(tmp_path: Path) -> None:
+    # The runner stores failures as data; a memory failure's reason starts "out of memory: ".
+    (spec,) = pair_sweep(tmp_path, "memory", [0.5], frame_every=0.5).runs
+
+    def huge(*_: object) -> kv.Simulation:  # the core refuses a grid it cannot allocate
+        return kv.Simulation(kv.Grid(2**40, 10.0), KDV)
+
+    def plain(*_: object) -> kv.Simulation:  # any other MemoryError (NumPy's, say)
+        raise MemoryError("Unable to allocate 7.45 GiB for an array")
+
+    result = execute(spec, simulation=huge)
+    assert result.run_row["status"] == "failed"
+    assert result.run_row["reason"].startswith("out of memory: cannot allocate 400.00 TiB")
+    result = execute(spec, simulation=plain)
+    assert result.run_row["reason"] == "out of memory: Unable to allocate 7.45 GiB for an array"
