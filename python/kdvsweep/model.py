@@ -61,6 +61,11 @@ class Grid:
             raise ConfigError(f"Grid: length must be a finite number, got {self.length!r}")
         if self.length <= 0:
             raise ConfigError(f"Grid: length must be positive, got {self.length}")
+        if not (self.length / self.n > 0 and math.isfinite(math.pi * self.n / self.length)):
+            raise ConfigError(
+                f"Grid: length {float(self.length):.3g} over n = {self.n} points is too small for "
+                "float64 (the largest wavenumber pi n / length must be finite)"
+            )
         object.__setattr__(self, "n", int(self.n))
         object.__setattr__(self, "length", float(self.length))
 

@@ -19,7 +19,7 @@ import pandas as pd
 
 from .. import theory
 from ..columns import SOLITON_COLUMNS
-from ..exceptions import ConfigError
+from ..exceptions import ConfigError, ShapeError
 from ..model import Equation, Grid
 from .fits import MIN_FRAMES, AsymptoticFit, fit_asymptotes
 from .peaks import count_peaks
@@ -416,8 +416,37 @@ def collision_table(
     ------
     ConfigError
         With the reason, when the record is too short for an asymptotic fit or the solitons
-        cannot be tracked (``analysis_status`` ``"too_short"`` or ``"failed"``).
+        cannot be tracked (``analysis_status`` ``"too_short"`` or ``"failed"``), or for
+        ``kappas`` that are not a non-empty list of positive numbers.
+    ShapeError
+        For a record without frames, or frames of another shape than ``(m, grid.n)``.
     """
+    try:
+        shape = np.shape(frames)
+    except ValueError:  # ragged nested lists
+        shape = ()
+    if len(shape) != 2 or shape[0] == 0:
+        raise ShapeError(
+            f"collision_table: frames must be a record of shape (m, n) with m >= 1 frames, "
+            f"got {f'shape {shape}' if shape else 'no array of frames'}"
+        )
+    if kappas is not None:
+        try:
+            given = np.asarray(kappas, dtype=np.float64)
+        except (TypeError, ValueError):
+            given = np.zeros((0, 0))
+        if (
+            given.ndim != 1
+            or given.size == 0
+            or not np.all(np.isfinite(given))
+            or not np.all(given > 0)
+        ):
+            shown = " ".join(repr(kappas).split())
+            shown = shown if len(shown) <= 60 else shown[:57] + "..."
+            raise ConfigError(
+                "collision_table: kappas must be a non-empty list of positive finite numbers "
+                f"(or None to measure them), got {shown}"
+            )
     result = analyse_run(frames, times, grid, equation, kappas, **options)
     if not result.ok:
         raise ConfigError(

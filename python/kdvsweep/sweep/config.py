@@ -25,6 +25,7 @@ from typing import Any
 
 import numpy as np
 
+from .. import exact, reference
 from .. import initial as init
 from ..columns import Layout, has_content
 from ..exceptions import ConfigError, ShapeError
@@ -32,8 +33,8 @@ from ..model import COEFFICIENTS, Equation, Grid, SolitonForm
 from ..simulation import ADAPTIVE, DEFAULT_SCHEME, SCHEMES, step_options
 from . import sizing
 from .expr import Expression, ExpressionError
-from .schema import Source, Table, describe, is_number, join, suggestion
-from .space import Axis, Value, canonical, check_name, expand, read_space
+from .schema import Source, Table, describe, is_finite, is_number, join, suggestion
+from .space import Axis, Value, canonical, check_name, check_text, expand, read_space
 
 FORMAT = 1
 MAX_FRAMES = 100_000
@@ -47,7 +48,7 @@ _TOP = ("sweep", "model", "initial", "run", "vary", "derive", "sizing")
 _SWEEP = ("name", "note")
 _MODEL = ("equation", "points", "length", "scheme", "dt", "tol")
 _EQUATION = ("preset", *COEFFICIENTS, "dealias")
-_RUN = ("end", "frame_every", "keep_frames", "keep_stride", "predict_content")
+_RUN = ("end", "frame_every", "keep_frames", "keep_stride", "predict_content", "time_limit")
 _SIZING = ("tail", "min_amplitude", "max_end", "radiation")
 #: Default ``sizing.max_end``: the latest automatic end of a content run (time units of the run).
 DEFAULT_MAX_END = 100.0
@@ -64,12 +65,37 @@ _INITIAL = {
     "npy": ("kind", "file"),
 }
 _REF = re.compile(r"\{([A-Za-z_][A-Za-z0-9_]*)\}\Z")
+#: A sweep name is a folder name under results/: ASCII letters, digits, ``-``, ``_`` and ``.``,
+#: not starting with a dot, at most 100 characters (no path separators, no ``..``).
+_SAFE_NAME = re.compile(r"[A-Za-z0-9_-][A-Za-z0-9_.-]{0,99}\Z", re.ASCII)
+_SAFE_NAME_RULE = (
+    "a name of at most 100 ASCII letters, digits, '-', '_' and '.', not starting with '.' "
+    "(it names the folder results/NAME)"
+)
+
+
+def safe_name(stem: str) -> str:
+    """The default sweep name from a file's stem: each run of characters outside the safe form
+    becomes ``_``, leading dots are dropped (``my sweep.v2`` -> ``my_sweep.v2``)."""
+    name = re.sub(r"[^A-Za-z0-9_.-]+", "_", stem, flags=re.ASCII).lstrip(".")[:100]
+    return name or "sweep"
 
 
 #: Relative drift of ``int u^2`` beyond which a conservative run is declared failed (a resolved
 #: pseudo-spectral run keeps it near 1e-8; 1e-3 means far too coarse steps - common practice, no
 #: source). ``RunSettings.drift_limit = None`` switches the check off.
 DEFAULT_DRIFT_LIMIT = 1e-3
+
+#: Default ``run.time_limit``: wall-clock seconds one run may step before it is stored as failed
+#: (six hours: far above any run of the example sweeps, short of a run that never ends).
+DEFAULT_TIME_LIMIT = 6 * 3600.0
+#: Most time steps one run may take (``t_end / dt`` of a fixed-step scheme): beyond it a run would
+#: not end in days, and a step this small is a mistake (``dt = 5e-324``).
+MAX_STEPS = 10**9
+#: Most memory one run may need (frames, the analysis of the frames, the stepper's buffers;
+#: :func:`kdvsweep.sweep.sizing.run_memory`), bytes. A fixed cap, not a share of this machine's
+#: memory, so that a sweep file is accepted or refused alike where it is loaded and where it runs.
+MAX_RUN_BYTES = 8 * 2**30
 
 
 @dataclass(frozen=True)
@@ -117,6 +143,9 @@ class RunSettings:
         :data:`kdvsweep.analysis.content.DEFAULT_MIN_AMPLITUDE`).
     tail
         Content runs: the relative level at which solitons count as apart (``sizing.tail``).
+    time_limit
+        Wall-clock seconds the run may step (``run.time_limit``); a run over it is stored as
+        failed with that reason.
     """
 
     t_end: float
@@ -127,10 +156,12 @@ class RunSettings:
     drift_limit: float | None = DEFAULT_DRIFT_LIMIT
     min_amplitude: float | None = None
     tail: float = DEFAULT_TAIL
+    time_limit: float = DEFAULT_TIME_LIMIT
 
     def plain(self) -> dict[str, Any]:
         """As plain JSON data; options at their defaults are left out, so adding an option
-        leaves the digests of the sweeps that do not use it as they were."""
+        leaves the digests of the sweeps that do not use it as they were. ``time_limit`` is
+        left out always: how long a run may take does not change what it computes."""
         out: dict[str, Any] = {
             "t_end": self.t_end,
             "record_times": list(self.record_times),
@@ -243,7 +274,7 @@ class _Names:
 
 def _num(src: Source, key: str, value: object, names: _Names) -> _Num:
     if is_number(value):
-        if not math.isfinite(value):  # type: ignore[arg-type]
+        if not is_finite(value):
             raise src.error(key, describe(value), "a finite number")
         return _Num(key, value, float(value), None)  # type: ignore[arg-type]
     if isinstance(value, str):
@@ -307,6 +338,7 @@ class _Template:
     keep_stride: int
     predict_content: bool
     tail: float
+    time_limit: float
     sizing_given: bool
     base: Path
     min_amplitude: float | None = None
@@ -319,10 +351,12 @@ class _Template:
 def _read_template(src: Source, doc: dict[str, Any], base: Path, stem: str) -> _Template:
     top = Table(src, doc, "", _TOP, "a TOML document")
     head = Table(src, top.raw("sweep", {}), "sweep", _SWEEP)
-    name = head.text("name", default=stem)
-    if not name.strip():
-        raise head.fail("name", name, "a non-empty name")
-    head.text("note", default="")
+    name = head.text("name", default=None)
+    if name is None:
+        name = safe_name(stem)
+    elif not _SAFE_NAME.match(name):
+        raise head.fail("name", name, _SAFE_NAME_RULE)
+    check_text(src, head.key("note"), head.text("note", default=""), allow="\n\t")
 
     axes = read_space(src, top.raw("vary", None))
     numbers = {
@@ -377,6 +411,9 @@ def _read_template(src: Source, doc: dict[str, Any], base: Path, stem: str) -> _
     frame_every = run.number("frame_every", positive=True)
     keep_frames = run.flag("keep_frames", default=False)
     keep_stride = run.integer("keep_stride", default=1, minimum=1)
+    if keep_stride > MAX_FRAMES:
+        raise run.fail("keep_stride", keep_stride, f"an integer from 1 to {MAX_FRAMES}")
+    time_limit = run.number("time_limit", default=DEFAULT_TIME_LIMIT, positive=True)
     soliton_data = kind in ("solitons", "multisoliton")
     predict_content = run.flag("predict_content", default=not soliton_data)
 
@@ -443,6 +480,7 @@ def _read_template(src: Source, doc: dict[str, Any], base: Path, stem: str) -> _
         keep_stride=keep_stride,
         predict_content=predict_content,
         tail=float(tail),
+        time_limit=float(time_limit),
         sizing_given=top.has("sizing"),
         base=base,
         min_amplitude=None if min_amplitude is None else float(min_amplitude),
@@ -504,13 +542,8 @@ def _read_initial(src: Source, tab: Table, kind: str, names: _Names, base: Path)
         return out
     if kind == "npy":
         file = tab.text("file")
-        path = (base / file).resolve()
-        if not path.is_file():
-            raise tab.fail(
-                "file",
-                file,
-                f"an existing .npy file (relative to the sweep file: {path} does not exist)",
-            )
+        check_text(src, tab.key("file"), file)  # also a NUL byte, which no path may hold
+        path = _npy_path(tab, file, base)
         try:
             arr = init.load_array(path)
         except (ConfigError, ShapeError) as err:
@@ -532,6 +565,34 @@ def _read_initial(src: Source, tab: Table, kind: str, names: _Names, base: Path)
     else:
         out["scale"] = _num(src, tab.key("scale"), tab.raw("scale"), names)
     return out
+
+
+def _npy_path(tab: Table, file: str, base: Path) -> Path:
+    """The ``.npy`` file named relative to the sweep file's folder ``base``, which must lie in that
+    folder or below it once links are followed: a sweep file received from someone else cannot
+    make a sweep copy other files of its user into the results."""
+    try:
+        path = (base / file).resolve()
+        found = path.is_file()
+    except RuntimeError:  # Python < 3.13 reports a loop of symbolic links so
+        raise tab.fail("file", file, "a path without a loop of symbolic links") from None
+    except (OSError, ValueError) as err:
+        reason = err.strerror if isinstance(err, OSError) and err.strerror else str(err)
+        raise tab.fail("file", file, f"a path that can be followed to a file ({reason})") from None
+    if not found:
+        raise tab.fail(
+            "file",
+            file,
+            f"an existing .npy file (relative to the sweep file: {path} does not exist)",
+        )
+    if not path.is_relative_to(base):
+        raise tab.fail(
+            "file",
+            file,
+            f"a .npy file in the sweep file's folder {base} or below it ({path} is outside; "
+            "copy the file there)",
+        )
+    return path
 
 
 # ----------------------------------------------------------------------------- one run
@@ -630,10 +691,105 @@ def _equation(tpl: _Template, ctx: _Run) -> Equation:
     try:
         return Equation.preset(preset, **coefs) if preset else Equation(**coefs)  # type: ignore[arg-type]
     except ConfigError as err:
-        shown = ", ".join(f"{k} = {v:g}" for k, v in coefs.items()) or repr(preset)
+        shown = ", ".join(
+            f"{k} = {min(f'{v:g}', repr(v), key=len)}" for k, v in coefs.items()
+        ) or repr(preset)
         raise ctx.src.error(
             "model.equation", f"{shown} in {ctx.label}", f"a valid equation ({err})"
         ) from None
+
+
+def _count(value: float) -> str:
+    """A count for a message: in full up to 10^12, else in three digits (not 300 of them)."""
+    return str(math.ceil(value)) if value <= 1e12 else f"{value:.3g}"
+
+
+def _fixed(value: float) -> str:
+    """One decimal for a message, or three digits for a huge value (``1e300``, not 300 digits)."""
+    return f"{value:.1f}" if value < 1e6 else f"{value:.3g}"
+
+
+def _frame_count(end: float, every: float) -> float:
+    """Frames :func:`_record_times` gives, without building them (``end / every`` when that is
+    inf or huge)."""
+    if not end / every < 1e15:
+        return end / every
+    count = math.floor(end / every + 1e-9)
+    return count + 1.0 + (1.0 if end - canonical(count * every) > 1e-9 * every else 0.0)
+
+
+def _given_points(ctx: _Run, tpl: _Template, scheme: str = "") -> int:
+    """``model.points`` as written, refused before anything is built when no run could hold it:
+    beyond 2^62, or one frame and the stepper's buffers beyond :data:`MAX_RUN_BYTES`."""
+    assert tpl.points is not None
+    points = ctx.num(tpl.points, "integer")
+    if not abs(points) <= 2**62:  # no grid is this large: refused here in a short line
+        raise ctx.fail("model.points", points, "an even integer >= 16 (at most 2^62)")
+    n = int(points)
+    need = sizing.run_memory(n, 1, scheme)
+    if need > MAX_RUN_BYTES:
+        raise ctx.fail(
+            "model.points",
+            n,
+            f"a run that fits in {MAX_RUN_BYTES / 2**30:g} GiB: n = {n} needs about "
+            f"{need / 2**30:.3g} GiB for the stepper's buffers and one frame",
+        )
+    return n
+
+
+def _check_steps(ctx: _Run, scheme: str, dt: float, t_end: float) -> None:
+    """Refuse a fixed step that would take more than :data:`MAX_STEPS` steps up to ``t_end``."""
+    if scheme != ADAPTIVE and not t_end / dt <= MAX_STEPS:
+        raise ctx.fail(
+            "model.dt",
+            dt,
+            f"a step giving at most {MAX_STEPS:.0e} steps up to t = {t_end:g} "
+            f"(t / dt = {t_end / dt:.3g})",
+        )
+
+
+def _check_effort(
+    ctx: _Run, tpl: _Template, grid: Grid, scheme: str, dt: float, t_end: float, frames: int
+) -> None:
+    """Refuse a run whose step count or memory is out of reach (:data:`MAX_STEPS`,
+    :data:`MAX_RUN_BYTES`), naming what it would take."""
+    _check_steps(ctx, scheme, dt, t_end)
+    need = sizing.run_memory(grid.n, frames, scheme)
+    if need > MAX_RUN_BYTES:
+        key = "model.points" if grid.n * 64 > frames else "run.frame_every"
+        given = tpl.frame_every if key == "run.frame_every" else grid.n
+        raise ctx.fail(
+            key,
+            given,
+            f"a run that fits in {MAX_RUN_BYTES / 2**30:g} GiB: n = {grid.n} with {frames} "
+            f"frames needs about {need / 2**30:.3g} GiB (frames, their analysis and the "
+            f"{scheme} stepper's buffers)",
+        )
+
+
+def _check_scales(
+    ctx: _Run, tpl: _Template, eq: Equation, grid: Grid, dt: float, max_u: float, dealias: float
+) -> None:
+    """Refuse a run whose terms overflow float64 from the start: the linear symbol at the largest
+    wavenumber times ``dt``, or the nonlinear term at ``max |u|``."""
+    # the symbol at the largest wavenumbers pi / dx, on a 16-point grid of the same spacing
+    with np.errstate(all="ignore"):
+        top = reference.linear_symbol(Grid(16, 16 * grid.dx), eq) * dt
+    if not np.all(np.isfinite(top)):
+        raise ctx.src.error(
+            "model.equation",
+            f"d = {eq.d:.3g}, f = {eq.f:.3g}, v = {eq.v:.3g} in {ctx.label}",
+            f"coefficients whose linear term times dt is finite at the largest wavenumber "
+            f"pi/dx = {math.pi / grid.dx:.4g}",
+        )
+    if not math.isfinite(sizing.nonlinear_rate(max_u, eq.a, eq.b, dealias, grid.dx) * max_u):
+        key = "initial.file" if tpl.kind == "npy" else "model.equation"
+        raise ctx.src.error(
+            key,
+            f"max |u| = {max_u:.3g} with a = {eq.a:.3g}, b = {eq.b:.3g} in {ctx.label}",
+            "data and coefficients whose nonlinear term (|a| max|u| + |b| max u^2) max|u| "
+            "k_cut is a finite number",
+        )
 
 
 def _record_times(end: float, every: float) -> list[float]:
@@ -669,7 +825,17 @@ def _solitons(
             if eq.d < 0:
                 raise ctx.fail(slot.key, slot.given, "speeds only for d > 0 (solitons move right)")
             value = form.kappa_from_speed(value)
-        kappas.append(canonical(value))
+        value = canonical(value)
+        with np.errstate(all="ignore"):  # overflow is refused below, not printed
+            scales = (form.amplitude(value), form.speed(value), form.width(value))
+        if not (value > 0 and all(math.isfinite(v) for v in scales)):
+            raise ctx.fail(
+                slot.key,
+                slot.given,
+                f"a soliton of finite amplitude, speed and width (kappa = {value:.3g} gives "
+                f"{scales[0]:.3g}, {scales[1]:.3g}, {scales[2]:.3g})",
+            )
+        kappas.append(value)
     own = form.sign
     signs = [own] * len(kappas)
     if "polarity" in spec:
@@ -683,6 +849,22 @@ def _solitons(
                         f"{own:+d}: KdV solitons of this "
                         "equation have one sign (polarity is for mKdV)",
                     )
+    if tpl.kind == "multisoliton":  # the core's own rules (how many, distinct), on no points
+        bare = Equation(a=eq.a, b=eq.b, d=eq.d)  # the exact solution is the unperturbed one's
+        try:
+            exact.multisoliton(
+                np.zeros(0),
+                0.0,
+                kappas,
+                [0.0] * len(kappas),
+                bare,
+                signs=None if form.family == "kdv" else signs,
+            )
+        except ConfigError as err:
+            given = [slot.given for slot in spec["sizes"]]
+            raise ctx.fail(
+                f"initial.{size}", given, f"solitons of an exact N-soliton ({err})"
+            ) from None
     return form, kappas, signs
 
 
@@ -758,10 +940,24 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
                     "a number: no soliton overtakes another (list the faster "
                     "soliton first, on the left)",
                 )
+            if not t_end / tpl.frame_every <= MAX_FRAMES:
+                raise ctx.src.error(
+                    "run.end",
+                    f"'auto' in {ctx.label} (t = {t_end:.3g})",
+                    f"an end time of at most {MAX_FRAMES} frames of run.frame_every = "
+                    f"{tpl.frame_every:g} (slow solitons take long to overtake)",
+                )
             t_end = canonical(math.ceil(t_end / tpl.frame_every - 1e-9) * tpl.frame_every)
         else:
             t_end = ctx.num(tpl.end, "positive")
+        _check_steps(ctx, scheme, dt, t_end)
         need = sizing.min_length(x0, kappas, speeds, form, tpl.tail, t_end)
+        if not math.isfinite(need):
+            raise ctx.fail(
+                f"initial.{tpl.initial['size']}",
+                kappas,
+                f"solitons whose travel by t = {t_end:g} is a finite distance",
+            )
         if tpl.length is None:
             length = sizing.nice_ceil(need)
         else:
@@ -842,21 +1038,29 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
 
     dealias = eq.dealias_fraction
     if tpl.points is None:
-        n = sizing.auto_points(narrowest, length, dealias)
-        if n > MAX_AUTO_POINTS:
+        need = sizing.points_needed(narrowest, length, dealias)
+        n = sizing.auto_points(narrowest, length, dealias) if need <= MAX_AUTO_POINTS else 0
+        if not 0 < n <= MAX_AUTO_POINTS:
             raise ctx.src.error(
                 "model.points",
                 f"'auto' in {ctx.label}",
                 f"a grid the automatic "
-                f"choice can make: it needs n = {n} > {MAX_AUTO_POINTS} for "
+                f"choice can make: it needs n = {_count(need)} > {MAX_AUTO_POINTS} for "
                 f"length {length:g} (raise sizing.tail or the smallest kappa)",
             )
     else:
-        n = int(ctx.num(tpl.points, "integer"))
+        n = _given_points(ctx, tpl, scheme)
     try:
         grid = Grid(n, length)
     except ConfigError as err:
         raise ctx.fail("model.points", n, f"an even integer >= 16 ({err})") from None
+    # limits on what a run would take, checked before anything is built or run
+    frames = _frame_count(t_end, tpl.frame_every)
+    if not frames <= MAX_FRAMES:
+        raise ctx.fail(
+            "run.frame_every", tpl.frame_every, f"at most {MAX_FRAMES} frames up to t = {t_end:g}"
+        )
+    _check_effort(ctx, tpl, grid, scheme, dt, t_end, int(frames))
     if tpl.kind == "npy" and tpl.initial["size"] != n:
         raise ctx.fail(
             "initial.file",
@@ -865,6 +1069,7 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
         )
     if math.isfinite(narrowest):
         _check_resolution(ctx, warn, narrowest, grid, dealias, tpl.points is None)
+    _check_scales(ctx, tpl, eq, grid, dt, max_u, dealias)
     if scheme in ("etdrk4", "ifrk4") and max_u > 0:  # the RK4-type steps the rule is made for
         limit = sizing.dt_limit(max_u, eq.a, eq.b, dealias, grid.dx)
         if dt > limit:
@@ -877,10 +1082,6 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
                 f"dt = {dt:g} > {limit:.3g}",
             )
     times = _record_times(t_end, tpl.frame_every)
-    if len(times) > MAX_FRAMES:
-        raise ctx.fail(
-            "run.frame_every", tpl.frame_every, f"at most {MAX_FRAMES} frames up to t = {t_end:g}"
-        )
     model = ModelSpec(eq, grid, scheme, dt, tol)
     run = RunSettings(
         t_end=t_end,
@@ -890,6 +1091,7 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
         predict_content=tpl.predict_content,
         min_amplitude=tpl.min_amplitude if not soliton else None,
         tail=tpl.tail if not soliton else DEFAULT_TAIL,
+        time_limit=tpl.time_limit,
     )
     return RunSpec(ctx.run_id, dict(ctx.params), model, initial, run)
 
@@ -959,7 +1161,7 @@ def _content_sizing(
             f"a number: equation {eq.name!r} ({eq.describe()}) has no solitons to size from",
         )
     assert tpl.points is not None  # profile data give their points (checked when read)
-    n = int(ctx.num(tpl.points, "integer"))
+    n = _given_points(ctx, tpl)
     try:
         grid = Grid(n, length) if length is not None else _provisional_grid(initial, n)
     except ConfigError as err:
@@ -1038,8 +1240,11 @@ def _sech2_narrowest(height: float, scale: float, form: SolitonForm) -> float:
     canonical_height = height / form.alpha
     if canonical_height <= 0:
         return math.inf
-    lam = 0.5 * (math.sqrt(1.0 + 4.0 * canonical_height * scale**2) - 1.0)
-    return scale / lam
+    x = 4.0 * canonical_height * scale * scale  # products, not **: inf rather than OverflowError
+    if not math.isfinite(x):
+        return 0.0  # a soliton too narrow for any grid: the resolution check refuses it
+    lam = 0.5 * x / (math.sqrt(1.0 + x) + 1.0)  # = (sqrt(1 + x) - 1) / 2 without cancellation
+    return scale / lam if lam > 0 else math.inf
 
 
 def _check_resolution(
@@ -1049,18 +1254,24 @@ def _check_resolution(
     refuse = sizing.min_points_per_width(dealias, sizing.REFUSE_DECADES)
     good = sizing.min_points_per_width(dealias, sizing.WARN_DECADES)
     if per_width < refuse:
-        need = sizing.auto_points(narrowest, grid.length, dealias)
+        need = sizing.points_needed(narrowest, grid.length, dealias)
+        shown = str(sizing.auto_points(narrowest, grid.length, dealias)) if need <= 1e12 else None
         raise ctx.fail(
             "model.points",
             grid.n,
-            f"at least {refuse:.1f} points per width of the narrowest soliton "
-            f"(width {narrowest:.4g}, dx {grid.dx:.4g} gives {per_width:.1f}); "
-            f"n = {need} or 'auto' gives {good:.1f}",
+            f"at least {_fixed(refuse)} points per width of the narrowest soliton "
+            f"(width {narrowest:.4g}, dx {grid.dx:.4g} gives {_fixed(per_width)}); "
+            + (
+                f"n = {shown} or 'auto' gives {_fixed(good)}"
+                if shown
+                else f"n = {_count(need)} would: no grid can (a wider soliton, or dealias, "
+                "is out of range)"
+            ),
         )
     if per_width < good and not auto:
         warn.add(
             "model.points",
-            f"resolve the narrowest soliton with fewer than {good:.1f} points "
+            f"resolve the narrowest soliton with fewer than {_fixed(good)} points "
             "per width (double precision)",
             ctx.run_id,
             1 / per_width,
@@ -1111,6 +1322,10 @@ def load_sweep(path: str | Path) -> Sweep:
     except tomllib.TOMLDecodeError as err:
         raise src.error(
             "(syntax)", f"invalid TOML ({' '.join(str(err).split())})", "a TOML document"
+        ) from None
+    except RecursionError:  # the reader recurses once per level of nested arrays or tables
+        raise src.error(
+            "(syntax)", "arrays or tables nested too deeply to read", "a TOML document"
         ) from None
     tpl = _read_template(src, doc, file.resolve().parent, file.stem)
     combos = expand(tpl.axes)

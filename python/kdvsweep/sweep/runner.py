@@ -363,9 +363,14 @@ SimulationFactory = Callable[..., Any]
 
 
 def _core_simulation(
-    grid: Grid, equation: Equation, scheme: str, dt: float, tol: float | None
+    grid: Grid,
+    equation: Equation,
+    scheme: str,
+    dt: float,
+    tol: float | None,
+    time_limit: float | None = None,
 ) -> Any:
-    return Simulation(grid, equation, scheme=scheme, dt=dt, tol=tol)
+    return Simulation(grid, equation, scheme=scheme, dt=dt, tol=tol, time_limit=time_limit)
 
 
 def execute(spec: RunSpec, simulation: SimulationFactory | None = None) -> RunResult:
@@ -377,7 +382,9 @@ def execute(spec: RunSpec, simulation: SimulationFactory | None = None) -> RunRe
         The run.
     simulation
         Builds the stepper from ``(grid, equation, scheme, dt, tol)``; default the Rust core's
-        :class:`kdvsweep.Simulation`. The benchmark passes the NumPy reference here.
+        :class:`kdvsweep.Simulation`, which stops the run at ``spec.run.time_limit`` seconds of
+        stepping (stored as failed, reason ``TimeLimitError: ...``). The benchmark passes the
+        NumPy reference here (no time limit).
 
     Returns
     -------
@@ -391,7 +398,12 @@ def execute(spec: RunSpec, simulation: SimulationFactory | None = None) -> RunRe
     grid, equation = model.grid, model.equation
     sim = None
     try:
-        sim = make(grid, equation, model.scheme, model.dt, model.tol)
+        if simulation is None:  # the core stops at the run's wall-time limit (TimeLimitError)
+            sim = _core_simulation(
+                grid, equation, model.scheme, model.dt, model.tol, time_limit=run.time_limit
+            )
+        else:
+            sim = make(grid, equation, model.scheme, model.dt, model.tol)
         u0 = initial.build_profile(spec.initial, grid, equation)
         sim.set_state(u0)
         soliton_data = isinstance(spec.initial, initial.Solitons)

@@ -147,9 +147,22 @@ def min_points_per_width(dealias: float, decades: float) -> float:
     return 2.0 * decades * math.log(10.0) / (dealias * math.pi**2)
 
 
+def points_needed(narrowest: float, length: float, dealias: float) -> float:
+    """Points that resolve the narrowest width with no warning (a float: may be huge or inf)."""
+    if not narrowest > 0:
+        return math.inf
+    return length / narrowest * min_points_per_width(dealias, WARN_DECADES)
+
+
 def auto_points(narrowest: float, length: float, dealias: float) -> int:
-    """Smallest FFT-friendly even ``n`` (``2^p`` or ``3 2^p``, at least 16) with no warning."""
-    need = length / narrowest * min_points_per_width(dealias, WARN_DECADES)
+    """Smallest FFT-friendly even ``n`` (``2^p`` or ``3 2^p``, at least 16) with no warning.
+
+    Raises ValueError when :func:`points_needed` is not finite (callers compare it with their
+    limit first).
+    """
+    need = points_needed(narrowest, length, dealias)
+    if not math.isfinite(need):
+        raise ValueError(f"automatic points: no grid resolves width {narrowest} on length {length}")
     n = 16
     while n < need:
         n = n // 2 * 3 if n & (n - 1) == 0 else n // 3 * 4  # 16, 24, 32, 48, 64, ...
@@ -158,8 +171,31 @@ def auto_points(narrowest: float, length: float, dealias: float) -> int:
 
 def dt_limit(max_u: float, a: float, b: float, dealias: float, dx: float) -> float:
     """The rule-of-thumb largest stable step (module doc; inf for a linear equation)."""
-    rate = (abs(a) * max_u + abs(b) * max_u**2) * dealias * math.pi / dx
+    rate = nonlinear_rate(max_u, a, b, dealias, dx)
     return math.inf if rate == 0 else DT_RULE / rate
+
+
+def nonlinear_rate(max_u: float, a: float, b: float, dealias: float, dx: float) -> float:
+    """The nonlinear term's largest rate ``(|a| max|u| + |b| max u^2) k_cut`` (module doc), in
+    float arithmetic that gives inf rather than raising when it overflows."""
+    return (abs(a) * max_u + abs(b) * max_u * max_u) * dealias * math.pi / dx
+
+
+#: Arrays of ``n`` float64 (a spectrum of ``n/2 + 1`` complex modes counts as one) that the core's
+#: stepper of each scheme holds: its stage vectors, the step-size coefficients it caches for two
+#: step sizes, the nonlinear term's and the simulation's buffers and the FFT plans (counted from
+#: the structs of rust/core/src/schemes and simulation.rs, rounded up). A scheme missing here
+#: counts as the largest.
+STEPPER_BUFFERS = {"etdrk4": 26, "ifrk4": 18, "strang": 18, "adaptive": 20}
+#: Frames' worth of memory a recorded frame costs in a run: the record itself, the analysis's
+#: spectra of all frames and their filtered copy, and the frames kept for the store.
+FRAME_COPIES = 4
+
+
+def run_memory(n: int, frames: int, scheme: str) -> int:
+    """Estimated peak memory of one run, bytes: ``8 n (FRAME_COPIES frames + buffers)``."""
+    buffers = STEPPER_BUFFERS.get(scheme, max(STEPPER_BUFFERS.values()))
+    return 8 * n * (FRAME_COPIES * frames + buffers)
 
 
 # ----------------------------------------------------------------------------- content runs
@@ -360,7 +396,10 @@ __all__ = [
     "min_length",
     "min_points_per_width",
     "nice_ceil",
+    "nonlinear_rate",
+    "points_needed",
     "radiation_speed",
+    "run_memory",
     "separation",
     "shift_bound",
 ]
