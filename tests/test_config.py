@@ -819,3 +819,50 @@ def test_opposite_polarity_peak_enters_the_step_check(tmp_path: Path) -> None:
     warnings = load_sweep(write(tmp_path, opposite)).warnings
     assert len(warnings) == 1
     assert "model.dt: 2 of 2 runs exceed" in warnings[0]  # limit with max|u| = 3.2: 8.6e-4
+
+
+# ---------------------------------------------------------------- limits and the time limit
+
+
+def test_frame_count_matches_the_record_times() -> None:
+    from kdvsweep.sweep.config import _frame_count, _record_times
+
+    # the frame limit is checked on this count before any list of times is built
+    for end, every in [(10.0, 0.5), (10.2, 0.5), (1.0, 0.3), (7.0, 0.1), (0.05, 0.1)]:
+        assert _frame_count(end, every) == len(_record_times(end, every))
+    assert _frame_count(1e308, 1e-300) == math.inf
+
+
+def test_time_limit_is_a_run_setting_outside_the_digest(tmp_path: Path) -> None:
+    from kdvsweep.sweep.config import DEFAULT_TIME_LIMIT
+
+    plain = load_sweep(write(tmp_path, BASE))
+    assert {r.run.time_limit for r in plain.runs} == {DEFAULT_TIME_LIMIT}
+    limited = load_sweep(
+        write(tmp_path, edit("frame_every = 0.5", "frame_every = 0.5\ntime_limit = 2.5"))
+    )
+    assert {r.run.time_limit for r in limited.runs} == {2.5}
+    # how long a run may take does not change what it computes
+    assert limited.digest == plain.digest
+    assert "time_limit" not in json.dumps(limited.runs[0].plain())
+
+
+def test_run_over_its_time_limit_is_stored_as_failed(tmp_path: Path) -> None:
+    from kdvsweep.sweep.runner import execute
+
+    # 4e6 steps of n = 512 take far longer than the 0.2 s allowed
+    text = edit("frame_every = 0.5", "frame_every = 0.5\ntime_limit = 0.2")
+    spec = load_sweep(write(tmp_path, text.replace("dt = 2.5e-3", "dt = 2.5e-6"))).runs[0]
+    result = execute(spec)
+    assert result.run_row["status"] == "failed"
+    assert result.run_row["reason"].startswith("TimeLimitError: ")
+    assert "0.2 s" in result.run_row["reason"]
+    assert result.run_row["wall_time"] < 10.0  # stopped near the limit, not after the run
+
+
+def test_default_sweep_name_is_the_safe_form_of_the_file_stem(tmp_path: Path) -> None:
+    text = BASE.replace('name = "t"\n', "")
+    assert load_sweep(write(tmp_path, text, "my sweep (v2).toml")).name == "my_sweep_v2_"
+    assert load_sweep(write(tmp_path, text, ".hidden.toml")).name == "hidden"
+    with pytest.raises(ConfigError, match=r"sweep\.name: given 'a/b', expected a name of at most"):
+        load_sweep(write(tmp_path, BASE.replace('name = "t"', 'name = "a/b"')))

@@ -143,3 +143,27 @@ def test_size_limits() -> None:
     with pytest.raises(ExpressionError, match="nested deeper"):
         parse("-" * (MAX_DEPTH + 1) + "1")
     assert value("(" * 10 + "1" + ")" * 10) == 1.0
+
+
+def test_one_argument_min_and_max_are_the_argument() -> None:
+    assert value("max(k2)", k2=0.4) == 0.4
+    assert value("min(-1)") == -1.0
+    assert value("max(1, 3, 2) + min(4, 5)") == 7.0
+    with pytest.raises(ExpressionError, match=r"unexpected '\)' at position 5"):
+        parse("max()")
+
+
+@pytest.mark.parametrize(
+    ("text", "fragment"),
+    [
+        ("2 * \u0663", "unexpected character '\u0663' at position 5"),  # ARABIC-INDIC DIGIT THREE
+        ("\uff11 + 1", "unexpected character '\uff11' at position 1"),  # FULLWIDTH DIGIT ONE
+        ("1\u00a0+ 1", "unexpected character '\\xa0' at position 2"),  # NO-BREAK SPACE
+        ("k2\u202e", "unexpected character '\\u202e' at position 3"),  # RIGHT-TO-LEFT OVERRIDE
+    ],
+)
+def test_only_ascii_digits_and_spaces(text: str, fragment: str) -> None:
+    # float() reads digits of other scripts ("\u0663" is 3): the tokenizer must not pass them on
+    with pytest.raises(ExpressionError) as info:
+        parse(text).evaluate({"k2": 1.0})
+    assert fragment in str(info.value)
