@@ -118,7 +118,7 @@ class Equation:
                 raise ConfigError(f"Equation: {key} must be a number, got {value!r}")
             if not math.isfinite(value):
                 raise ConfigError(f"Equation: {key} must be finite, got {value}")
-            if 0 < abs(value) < sys.float_info.min:
+            if 0 < abs(float(value)) < sys.float_info.min:
                 raise ConfigError(
                     f"Equation: {key} must be 0 or at least {sys.float_info.min:.3g} in magnitude "
                     f"(a subnormal number has lost its precision), got {value:.3g}"

@@ -422,7 +422,7 @@ def collision_table(
         For a record without frames, or frames of another shape than ``(m, grid.n)``.
     """
     try:
-        shape = np.shape(frames)
+        shape = np.shape(frames)  # type: ignore[call-overload]
     except ValueError:  # ragged nested lists
         shape = ()
     if len(shape) != 2 or shape[0] == 0:
