@@ -27,6 +27,8 @@ from conftest import pair_sweep_text
 
 from kdvsweep.exceptions import ConfigError
 from kdvsweep.sweep.cluster import (
+    _KEYS,
+    DEFAULT_DASHBOARD,
     SYSTEMS,
     ClusterProfile,
     ClusterStartError,
@@ -118,6 +120,86 @@ def test_unreadable_profile_file_is_a_config_error(tmp_path: Path) -> None:
     bad.write_text("[batch\n", encoding="utf-8")
     with pytest.raises(ConfigError, match=r"bad\.toml: not valid TOML"):
         load_profile(bad)
+
+
+def test_tls_and_a_loopback_dashboard_by_default() -> None:
+    profile = parse_profile(minimal())
+    assert profile.tls
+    assert (profile.ca_file, profile.cert_file, profile.certificates) == (None, None, None)
+    assert DEFAULT_DASHBOARD.startswith("127.0.0.1:")
+    kwargs = jobqueue_kwargs(profile, logs=Path("/shared/logs"))
+    assert kwargs["scheduler_options"]["dashboard_address"] == DEFAULT_DASHBOARD
+    assert kwargs["security"].require_encryption
+    assert kwargs["protocol"] == "tls://"
+    # A session's certificate goes to the log folder, which the jobs write to: they see it.
+    assert kwargs["shared_temp_directory"] == str(Path("/shared/logs").resolve())
+    script = job_script(profile, logs=Path("/shared/logs"))
+    worker = next(line for line in script.splitlines() if "dask_worker" in line)
+    assert "tls://scheduler-address:8786" in worker
+    assert "--tls-ca-file /shared/logs/" in worker
+    assert "--protocol tls://" in worker
+
+
+def test_own_certificates_and_plain_tcp(tmp_path: Path) -> None:
+    path = tmp_path / "p.toml"
+    path.write_text(
+        '[batch]\nsystem = "slurm"\njobs = 1\ncores = 1\nmemory = "1GiB"\n'
+        '[security]\nca_file = "tls/ca.pem"\ncert_file = "tls/node.pem"\n'
+        'key_file = "/site/node.key"\ncertificates = "certs"\n',
+        encoding="utf-8",
+    )
+    profile = load_profile(path)
+    assert profile.ca_file == tmp_path / "tls" / "ca.pem"  # relative to the profile's folder
+    security = jobqueue_kwargs(profile)["security"]
+    assert security.get_tls_config_for_role("worker") == {
+        "ca_file": str(tmp_path / "tls" / "ca.pem"),
+        "ciphers": None,
+        "cert": str(tmp_path / "tls" / "node.pem"),
+        "key": "/site/node.key",
+    }
+    assert security.get_tls_config_for_role("client")["cert"] == str(tmp_path / "tls/node.pem")
+    worker = job_script(profile).splitlines()[-1]
+    assert f"--tls-ca-file {tmp_path / 'tls' / 'ca.pem'}" in worker
+    assert "--tls-key /site/node.key" in worker
+    plain = parse_profile({**minimal(), "security": {"tls": False}})
+    kwargs = jobqueue_kwargs(plain)
+    assert "security" not in kwargs
+    assert "protocol" not in kwargs
+    assert "--tls" not in job_script(plain)
+    assert "tcp://scheduler-address:8786" in job_script(plain)
+
+
+@pytest.mark.parametrize(
+    ("security", "key", "expected"),
+    [
+        ({"tls": "yes"}, "security.tls", "true or false"),
+        ({"ca_file": "ca.pem"}, "security.cert_file", "ca_file and cert_file are both needed"),
+        ({"cert_file": "c.pem", "key_file": "k"}, "security.ca_file", "both needed"),
+        ({"tls": False, "ca_file": "ca.pem"}, "security.ca_file", "no certificate with tls"),
+        ({"certificate": "c.pem"}, "security.certificate", "did you mean 'certificates'"),
+    ],
+)
+def test_security_errors_name_key_and_expectation(
+    security: dict[str, Any], key: str, expected: str
+) -> None:
+    with pytest.raises(ConfigError) as caught:
+        parse_profile({**minimal(), "security": security}, source="site.toml")
+    message = str(caught.value)
+    assert message.startswith(f"site.toml: {key}: given ")
+    assert expected in message
+
+
+def test_every_profile_key_is_documented() -> None:
+    # The README's cluster section names each key, in its example profile or its table.
+    section = DOCS.read_text(encoding="utf-8").split("## Running a sweep on a batch cluster")[1]
+    section = section.split("\n## ")[0]
+    missing = [
+        f"{table}.{key}"
+        for table, keys in _KEYS.items()
+        for key in keys
+        if f"`{table}.{key}`" not in section and not re.search(rf"^#? ?{key} = ", section, re.M)
+    ]
+    assert missing == []
 
 
 # Header lines each batch system documents for the partition/queue, the accounting string and

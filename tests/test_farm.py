@@ -228,7 +228,13 @@ def test_run_that_kills_its_worker_is_isolated(fragile: Any, tmp_path: Path) -> 
     assert report.stored == 3
     runs = res.runs.set_index("run_id")
     assert runs.loc[1, "status"] == "failed"
-    assert runs.loc[1, "reason"].startswith("task lost: KilledWorker")
+    reason = runs.loc[1, "reason"]
+    assert reason.startswith("worker died running this run, each time it was tried (KilledWorker)")
+    # The estimate names the memory of its frames: 8 bytes a point, at least.
+    spec = small.runs[1]
+    frames = len(spec.run.record_times)
+    assert f"({frames} frames of {spec.model.grid.n} points)" in reason
+    assert "likely out of memory" in reason
     assert (runs.drop(index=1)["status"] == "ok").all()
 
 

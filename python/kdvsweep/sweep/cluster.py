@@ -20,6 +20,11 @@ every job on the way out, whether the body returned, raised or was interrupted w
 runs, a batch job whose workers all vanished (killed, pre-empted, out of walltime) is replaced, so
 a long sweep keeps its strength. Dask reschedules the runs the lost workers held; the client, the
 only writer of the store, receives each result once.
+
+The scheduler, the workers and the client speak TLS and accept only peers holding the session's
+certificate (:func:`cluster_security`): a dask scheduler runs whatever code its clients send, and
+its port is open to every user of the login node and the compute nodes. The dashboard listens on
+the login node's loopback interface unless the profile says otherwise (it has no password).
 """
 
 from __future__ import annotations
@@ -79,6 +84,10 @@ SYSTEMS: dict[str, BatchSystem] = {
     "lsf": BatchSystem("LSFCluster", account_kwarg="project"),
 }
 
+#: Where the dashboard of a batch cluster listens unless the profile says: the loopback interface
+#: of the machine running the client (reach it through an ssh tunnel), not every interface.
+DEFAULT_DASHBOARD = "127.0.0.1:8787"
+
 _WALLTIME = re.compile(r"^(\d+):([0-5]\d):([0-5]\d)$")
 _JOB_NAME = re.compile(r"^[A-Za-z][A-Za-z0-9_.-]{0,63}$")
 
@@ -122,11 +131,20 @@ class ClusterProfile:
     scheduler_host
         Address the scheduler binds to; overrides ``interface`` for the scheduler only.
     dashboard
-        Where the dask dashboard listens (``":8787"``; ``":0"`` for any free port).
+        Where the dask dashboard listens (default :data:`DEFAULT_DASHBOARD`, the loopback
+        interface; ``":8787"`` for every interface, ``":0"`` for any free port).
     start_timeout
         Seconds to wait for the first worker; 0 waits for nothing.
     resubmit_limit
         How many lost jobs may be replaced over one session; 0 never replaces.
+    tls
+        Whether the scheduler, workers and client speak TLS with certificates (default true).
+    ca_file, cert_file, key_file
+        The site's own certificates (paths the compute nodes see); ``None``: a certificate made
+        for this session (:func:`cluster_security`).
+    certificates
+        Folder where a session's certificate is written for the jobs to read; ``None``: the
+        batch log folder.
     """
 
     source: str
@@ -146,9 +164,14 @@ class ClusterProfile:
     scratch: str | None = None
     interface: str | None = None
     scheduler_host: str | None = None
-    dashboard: str = ":8787"
+    dashboard: str = DEFAULT_DASHBOARD
     start_timeout: float = 600.0
     resubmit_limit: int = 10
+    tls: bool = True
+    ca_file: Path | None = None
+    cert_file: Path | None = None
+    key_file: Path | None = None
+    certificates: Path | None = None
 
     @property
     def threads_per_worker(self) -> int:
@@ -173,6 +196,7 @@ _KEYS: dict[str, tuple[str, ...]] = {
     ),
     "worker": ("processes", "python", "setup", "scratch"),
     "network": ("interface", "scheduler_host", "dashboard"),
+    "security": ("tls", "ca_file", "cert_file", "key_file", "certificates"),
 }  # fmt: skip
 
 
@@ -235,7 +259,9 @@ def parse_profile(
     top = Table(src, dict(table), "", _KEYS)
     if not top.has("batch"):
         raise src.error("batch", "nothing", "a [batch] table with system, jobs, cores and memory")
-    batch, worker, network = (Table(src, top.raw(n, {}), n, keys) for n, keys in _KEYS.items())
+    batch, worker, network, security = (
+        Table(src, top.raw(n, {}), n, keys) for n, keys in _KEYS.items()
+    )
 
     system = batch.text("system", choices=tuple(SYSTEMS))
     cores = batch.integer("cores", minimum=1)
@@ -266,8 +292,25 @@ def parse_profile(
         scratch=_word(worker, "scratch"),
         interface=_word(network, "interface"),
         scheduler_host=_word(network, "scheduler_host"),
-        dashboard=_word(network, "dashboard") or ":8787",
+        dashboard=_word(network, "dashboard") or DEFAULT_DASHBOARD,
+        **_security(security, base),
     )
+
+
+def _security(table: Table, base: Path | None) -> dict[str, Any]:
+    """The ``[security]`` table: TLS on or off, the site's certificates or a session's."""
+    tls = table.flag("tls", default=True)
+    files = {key: _path(table, key, base) for key in ("ca_file", "cert_file", "key_file")}
+    given = [key for key, path in files.items() if path is not None]
+    if given and not tls:
+        raise table.fail(given[0], str(files[given[0]]), "no certificate with tls = false")
+    if given and (files["ca_file"] is None or files["cert_file"] is None):
+        missing = "ca_file" if files["ca_file"] is None else "cert_file"
+        raise table.fail(
+            missing, "nothing", f"a file path: with {given[0]} given, ca_file and cert_file are "
+            "both needed (key_file too, unless the key is inside cert_file)",
+        )  # fmt: skip
+    return {"tls": tls, **files, "certificates": _path(table, "certificates", base)}
 
 
 def _word(table: Table, key: str) -> str | None:
@@ -376,7 +419,47 @@ def jobqueue_kwargs(profile: ClusterProfile, logs: Path | None = None) -> dict[s
     }
     if profile.account is not None:
         kwargs[system.account_kwarg] = profile.account
+    if profile.tls:
+        kwargs["security"] = cluster_security(profile)
+        kwargs["protocol"] = "tls://"  # the workers' listeners too, not only their connections
+        # A session's certificate is written here for the jobs (files readable by the user
+        # alone, removed when the cluster closes); it must be a folder the compute nodes see.
+        folder = profile.certificates or log_dir or Path.cwd()
+        kwargs["shared_temp_directory"] = str(Path(folder).expanduser().resolve())
     return kwargs
+
+
+def cluster_security(profile: ClusterProfile) -> Any:
+    """The TLS credentials of a batch cluster: the profile's certificate files, or a new
+    certificate for this session (``Security.temporary``: a fresh key and a self-signed
+    certificate that the scheduler, the workers and the client present and require).
+
+    One certificate serves every role; ``ca_file`` is the authority that signed it (the
+    certificate itself when it is self-signed). Peers without it are refused at the handshake.
+
+    Raises
+    ------
+    KdvsweepError
+        If a session's certificate is wanted and the ``cryptography`` package is missing.
+    """
+    from distributed import security
+
+    Security: Any = security.Security
+
+    if profile.ca_file is None or profile.cert_file is None:
+        try:
+            return Security.temporary()
+        except ImportError as exc:
+            raise KdvsweepError(
+                f"{profile.source}: a TLS certificate for the session needs the cryptography "
+                "package (a dependency of kdvsweep): pip install cryptography, or name your "
+                "own certificates in [security]"
+            ) from exc
+    cert = str(profile.cert_file)
+    key = str(profile.key_file) if profile.key_file is not None else None
+    roles = {f"tls_{role}_{part}": value for role in ("scheduler", "worker", "client")
+             for part, value in (("cert", cert), ("key", key)) if value is not None}  # fmt: skip
+    return Security(tls_ca_file=str(profile.ca_file), require_encryption=True, **roles)
 
 
 def _walltime_for(system: str, walltime: str) -> str:
@@ -423,7 +506,23 @@ def job_script(profile: ClusterProfile, logs: Path | None = None) -> str:
     job_cls = cluster_class(profile).job_cls
     kwargs = jobqueue_kwargs(profile, logs)
     del kwargs["scheduler_options"]  # a job takes everything else the cluster does
-    return job_cls(scheduler="tcp://scheduler-address:8786", name="worker", **kwargs).job_script()
+    folder = kwargs.pop("shared_temp_directory", None)
+    if profile.tls and profile.ca_file is None:
+        # A session's certificate is written when the cluster starts; show where it will be.
+        from distributed import security
+
+        Security: Any = security.Security
+
+        kwargs["security"] = Security(
+            tls_ca_file=f"{folder}/SESSION-ca_file",
+            tls_worker_cert=f"{folder}/SESSION-cert",
+            tls_worker_key=f"{folder}/SESSION-key",
+            require_encryption=True,
+        )
+    protocol = "tls" if profile.tls else "tcp"
+    return job_cls(
+        scheduler=f"{protocol}://scheduler-address:8786", name="worker", **kwargs
+    ).job_script()
 
 
 # --- the managed cluster ---------------------------------------------------------------------
@@ -657,12 +756,14 @@ class _JobKeeper:
 
 
 __all__ = [
+    "DEFAULT_DASHBOARD",
     "SYSTEMS",
     "BatchSystem",
     "ClusterProfile",
     "ClusterStartError",
     "cluster_class",
     "cluster_client",
+    "cluster_security",
     "job_script",
     "jobqueue_kwargs",
     "load_profile",

@@ -21,7 +21,10 @@ Where it runs
 -------------
 * default: an embedded ``LocalCluster`` on this machine, one single-threaded worker process per
   core (a run is single-threaded Rust; processes avoid any contention on the interpreter), bound
-  to the loopback interface, no dashboard;
+  to the loopback interface, no dashboard. Every connection is TLS with certificates made for
+  this one cluster and never written to disk (:func:`local_security`): loopback ports are open
+  to every user of the machine, and a dask scheduler runs whatever code its clients send, so
+  without them any local process could run code in the workers;
 * ``scheduler="tcp://host:8786"`` (CLI ``--scheduler``): an existing dask cluster;
 * ``cluster="mycluster.toml"`` (CLI ``--cluster``): a cluster profile; :func:`run` starts the batch
   jobs it describes (:mod:`.cluster`) and cancels them at the end;
@@ -60,6 +63,7 @@ from typing import TYPE_CHECKING, Any
 
 from ..exceptions import ConfigError, KdvsweepError
 from .runner import RunResult, base_row, cost, execute_chunk
+from .sizing import run_memory
 from .store import Store, SweepLike
 
 if TYPE_CHECKING:
@@ -206,11 +210,34 @@ def _malloc_trim() -> Callable[[int], Any] | None:
         return None
 
 
-def _lost(spec: Any, exc: BaseException) -> RunResult:
-    """The failed row of a run whose task could not complete on any worker."""
+def _size(count: int) -> str:
+    """``1.5 GiB``-style size for messages."""
+    size = float(count)
+    for unit in ("B", "KiB", "MiB", "GiB"):
+        if size < 1024:
+            return f"{size:.3g} {unit}"
+        size /= 1024
+    return f"{size:.3g} TiB"
+
+
+def _killed(spec: Any, exc: BaseException) -> RunResult:
+    """The failed row of a run whose worker died every time it ran (dask's ``KilledWorker``).
+
+    Dask does not say why a worker died; a run that takes its worker down each time, alone, is
+    most often one that needs more memory than the worker has, so the reason says so, with the
+    run's estimated need and what to change.
+    """
     row = base_row(spec)
     row["status"] = "failed"
-    row["reason"] = f"task lost: {type(exc).__name__}: {exc}"
+    n = int(spec.model.grid.n)
+    frames = len(spec.run.record_times)
+    need = run_memory(n, frames, spec.model.scheme)
+    row["reason"] = (
+        f"worker died running this run, each time it was tried ({type(exc).__name__}); likely "
+        f"out of memory: the run needs about {_size(need)} ({frames} frames "
+        f"of {n} points); lower points or record fewer frames (a larger frame_every), or give "
+        "each worker more memory (fewer workers per machine, or more memory per batch job)"
+    )
     return RunResult(row, [], None, None)
 
 
@@ -223,6 +250,54 @@ def _distributed() -> Any:
 
 def _threads(client: Any) -> int:
     return int(sum(client.nthreads().values()))
+
+
+#: Loggers silenced from a Ctrl-C until the sweep's cluster is shut down: the shutdown of a
+#: cluster in the middle of its tasks makes them report lost connections and forgotten keys,
+#: which say nothing to a user who asked it to stop.
+QUIET_LOGGERS = ("distributed", "tornado", "asyncio")
+
+_guards = 0  # depth of nested _interrupt_guard blocks
+_saved_levels: dict[str, int] | None = None  # logger levels to restore, while silenced
+
+
+def _silence(level: int) -> dict[str, int]:
+    """Set :data:`QUIET_LOGGERS` and their existing children to ``level``; the old levels."""
+    names = [
+        name
+        for name in list(logging.root.manager.loggerDict)
+        if any(name == root or name.startswith(root + ".") for root in QUIET_LOGGERS)
+    ]
+    loggers = {name: logging.getLogger(name) for name in {*QUIET_LOGGERS, *names}}
+    saved = {name: logger.level for name, logger in loggers.items()}
+    for logger in loggers.values():
+        logger.setLevel(level)
+    return saved
+
+
+def _hush() -> None:
+    """Silence :data:`QUIET_LOGGERS` (and their children) until the outer guard is left."""
+    global _saved_levels
+    if _saved_levels is None:
+        _saved_levels = _silence(logging.CRITICAL + 1)
+
+
+@contextlib.contextmanager
+def _interrupt_guard() -> Iterator[None]:
+    """On KeyboardInterrupt inside the block, :func:`_hush`; the outermost guard restores."""
+    global _guards, _saved_levels
+    _guards += 1
+    try:
+        yield
+    except KeyboardInterrupt:
+        _hush()
+        raise
+    finally:
+        _guards -= 1
+        if _guards == 0 and _saved_levels is not None:
+            for name, level in _saved_levels.items():
+                logging.getLogger(name).setLevel(level)
+            _saved_levels = None
 
 
 def run_sweep(
@@ -262,7 +337,7 @@ def run_sweep(
     if not chunk_seconds > 0:
         raise ConfigError(f"run_sweep: chunk_seconds must be > 0, got {chunk_seconds}")
     start = time.perf_counter()
-    with Store.open(out, sweep) as store:
+    with _interrupt_guard(), Store.open(out, sweep) as store:
         todo = store.pending(sweep.runs)
         report = SweepReport(Path(out), len(sweep.runs), skipped=len(sweep.runs) - len(todo))
         if on_progress is not None:
@@ -326,7 +401,7 @@ def _drive(
             for spec in chunk:
                 kills[int(spec.run_id)] = kills.get(int(spec.run_id), 0) + 1
             if len(chunk) == 1 and kills[int(chunk[0].run_id)] >= 2:
-                return [_lost(chunk[0], exc)]
+                return [_killed(chunk[0], exc)]
             for spec in chunk:
                 submit([spec])
             return []
@@ -375,6 +450,9 @@ def _drive(
                 report.workers = max(report.workers, threads)
                 checked = time.monotonic()
             fill()
+    except KeyboardInterrupt:
+        _hush()  # before the cancellation below, whose echoes would follow the interrupt
+        raise
     finally:
         # Interrupted or broken: tasks of this sweep must not go on running on a shared
         # cluster after we stop listening.
@@ -383,11 +461,78 @@ def _drive(
                 client.cancel([fut for fut, _ in inflight.values()])
 
 
+def local_security() -> Any:
+    """TLS credentials for one embedded cluster: a fresh key and self-signed certificate.
+
+    The scheduler, the nannies, the workers and the client all present this certificate and
+    accept only peers that present it too, so a process of another user (or any process not
+    started by this sweep) that connects to the loopback ports is refused during the TLS
+    handshake. The key lives in this process's memory and reaches the worker processes through
+    the pipe that starts them; it is never written to disk.
+
+    Returns
+    -------
+    distributed.security.Security
+
+    Raises
+    ------
+    KdvsweepError
+        If the ``cryptography`` package, which makes the certificate, is missing.
+    """
+    from distributed import security
+
+    Security: Any = security.Security
+
+    try:
+        return Security.temporary()
+    except ImportError as exc:
+        raise KdvsweepError(
+            "the embedded cluster needs the cryptography package for its TLS certificates "
+            "(a dependency of kdvsweep); install it: pip install cryptography"
+        ) from exc
+
+
+def _ignore_interrupt() -> None:
+    """Make this process ignore SIGINT (main thread only)."""
+    import signal
+    import threading
+
+    if threading.current_thread() is threading.main_thread():
+        signal.signal(signal.SIGINT, signal.SIG_IGN)
+
+
+def dask_setup(worker: Any) -> None:
+    """Worker preload of the embedded cluster: leave Ctrl-C and the reporting to the client.
+
+    Ctrl-C at a terminal sends SIGINT to every process of the foreground group, the embedded
+    workers included; each would die with a KeyboardInterrupt traceback while the client,
+    which owns the shutdown, stops them anyway. And a worker stopped in the middle of sending
+    results logs the broken connection with a traceback. So the workers ignore SIGINT and log
+    only critical errors: what goes wrong in a worker reaches the client (a run's error is its
+    row, a task's error is raised by the sweep, a dead worker is a lost task), which reports it.
+    Dask runs this in each worker process (also in one a nanny restarts) on its main thread,
+    before the worker takes tasks.
+    """
+    _ignore_interrupt()
+    _silence(logging.CRITICAL)
+
+
+#: Module the embedded workers preload (its :func:`dask_setup` runs in each of them).
+WORKER_PRELOAD = __name__
+
+#: HTTP routes of the embedded scheduler and workers: the health check only. Their HTTP servers
+#: listen on loopback ports without TLS; the default routes (task and log pages, metrics) would
+#: show any local user what the sweep runs.
+HTTP_ROUTES = ["distributed.http.health"]
+
+
 @contextlib.contextmanager
 def local_client(workers: int | None = None) -> Iterator[Any]:
     """A client of an embedded ``LocalCluster``: ``workers`` single-threaded processes.
 
-    The scheduler listens on the loopback interface only and has no dashboard.
+    The scheduler listens on the loopback interface only, has no dashboard, and takes TLS
+    connections from holders of this cluster's own certificate only (:func:`local_security`).
+    The workers ignore Ctrl-C (:func:`dask_setup`): the client stops them.
     """
     import dask
 
@@ -397,22 +542,34 @@ def local_client(workers: int | None = None) -> Iterator[Any]:
     count = workers if workers is not None else (os.cpu_count() or 1)
     if count < 1:
         raise ConfigError(f"workers must be >= 1, got {count}")
+    config = {
+        **WORKER_CONFIG,
+        "distributed.scheduler.http.routes": HTTP_ROUTES,
+        "distributed.worker.http.routes": HTTP_ROUTES,
+    }
     with (
-        dask.config.set(WORKER_CONFIG),
+        _interrupt_guard(),
+        dask.config.set(config),
         LocalCluster(
             n_workers=count,
             threads_per_worker=1,
             processes=True,
             host="127.0.0.1",
+            security=local_security(),
             dashboard_address=None,
-            # The scheduler's HTTP server (health, metrics) would try port 8787 on all interfaces
-            # and warn when it is taken; a random loopback port keeps it private and quiet.
+            # The scheduler's HTTP server (health) would try port 8787 on all interfaces and
+            # warn when it is taken; a random loopback port keeps it private and quiet.
             scheduler_kwargs={"dashboard": False, "dashboard_address": "127.0.0.1:0"},
             silence_logs=logging.ERROR,
+            preload=[WORKER_PRELOAD],
         ) as cluster,
         Client(cluster) as client,
     ):
-        yield client
+        try:
+            yield client
+        except KeyboardInterrupt:
+            _hush()  # before the client and the cluster close
+            raise
 
 
 @contextlib.contextmanager
@@ -515,7 +672,7 @@ def run(
     profile = _profile(cluster) if cluster is not None else None  # a bad profile fails first
     # Refuse a folder of another sweep (or not a store at all) before any cluster starts.
     Store.open(target, loaded).close()
-    with contextlib.ExitStack() as stack:
+    with _interrupt_guard(), contextlib.ExitStack() as stack:
         client = None  # the embedded cluster starts in run_sweep, only if runs are pending
         if scheduler is not None or profile is not None:
             client = stack.enter_context(
