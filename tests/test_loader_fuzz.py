@@ -189,6 +189,11 @@ HOSTILE = [
     ),
     ("npy-values-1e307", NPY.replace("u0.npy", "huge.npy"), ["initial.file: given max |u|"]),
     (
+        "f-1e305",  # f k^5 at k = pi n / L = 26.8 overflows
+        edit('equation = "kdv"', 'equation = { preset = "kdv", f = 1e305 }'),
+        ["model.equation: given d = 1, f = 1e+305", "linear term times dt is finite"],
+    ),
+    (
         "nested-arrays-5000",
         edit("k2 = [0.4, 0.5]", "k2 = " + "[" * 5000 + "]" * 5000),
         ["(syntax): given arrays or tables nested too deeply"],
