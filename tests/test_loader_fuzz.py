@@ -295,6 +295,12 @@ HOSTILE = [
         edit('kappa = [1.0, "k2"]', 'kappa = [1.0, "k2 * \\u0663"]'),
         ["initial.kappa[1]", "unexpected character '\u0663' at position 6"],
     ),
+    ("key-rtl", '"a\\u202eb" = 1\n' + BASE, ["a\\u202eb: given an unknown key"]),
+    (
+        "key-of-100000-characters",
+        '"' + "k" * 100000 + '" = 1\n' + BASE,
+        ["k" * 117 + "...: given an unknown key"],
+    ),
     (
         "npy-outside-by-path",
         NPY.replace('"u0.npy"', '"../{outside}/u0.npy"'),

@@ -59,6 +59,14 @@ def join(path: str, key: str | int) -> str:
     return f"{path}.{key}" if path else key
 
 
+def _printable(text: str) -> str:
+    """``text`` with every character that does not print (controls, a right-to-left override,
+    odd spaces) written as its Python escape, so a message shows what the file holds."""
+    if text.isprintable():
+        return text
+    return "".join(ch if ch.isprintable() or ch == " " else repr(ch)[1:-1] for ch in text)
+
+
 class Source:
     """The sweep file being read: its label for messages and the error factory."""
 
@@ -66,7 +74,11 @@ class Source:
         self.label = label
 
     def error(self, key: str, given: str, expected: str) -> ConfigError:
-        """A one-line ConfigError ``FILE: key: given ..., expected ...``."""
+        """A one-line ConfigError ``FILE: key: given ..., expected ...`` (a key or a given value
+        of hostile length is cut, so the line stays readable)."""
+        key, given = _printable(key), _printable(given)
+        key = key if len(key) <= 120 else key[:117] + "..."
+        given = given if len(given) <= 300 else given[:297] + "..."
         message = f"{self.label}: {key}: given {given}, expected {expected}"
         return ConfigError(" ".join(message.split()))
 
