@@ -3,6 +3,8 @@ exact solutions that would not be finite, and long exact evaluations that let Py
 
 from __future__ import annotations
 
+import _thread
+import threading
 import time
 from pathlib import Path
 
@@ -108,3 +110,73 @@ def test_a_run_out_of_memory_is_stored_as_failed_with_that_reason(tmp_path: Path
     assert result.run_row["reason"].startswith("out of memory: cannot allocate 400.00 TiB")
     result = execute(spec, simulation=plain)
     assert result.run_row["reason"] == "out of memory: Unable to allocate 7.45 GiB for an array"
+
+
+@pytest.mark.parametrize(
+    ("equation", "args", "match"),
+    [
+        # 2 kappa^2 = 2e400 overflows float64 (it used to return NaN at every point).
+        ("kdv", (0.0, 1e200), r"^kappas: expected values whose soliton amplitude is a finite "),
+        ("kdv", (0.0, 1e308), r"^kappas: .* number, got 1e308$"),
+        ("mkdv", (0.0, 1e308), r"^kappas: .* number, got 1e308$"),  # 2 kappa overflows
+        ("kdv", (0.0, 1.0, 1e308), r"^phase: expected a finite 2 kappa \(x - 4 kappa\^2 t - x0\) "),
+        ("mkdv", (0.0, 1.0, -1e308), r"^phase: .* got t = 0, kappa = 1, x0 = -1e308, x from -10 "),
+        ("kdv", (1e308, 10.0), r"^phase: .* got t = 1e308, kappa = 10, x0 = 0, x from -10 to 10$"),
+    ],
+)
+def test_exact_solutions_that_would_not_be_finite_are_errors(
+    equation: str, args: tuple[float, ...], match: str
+) -> None:
+    with pytest.raises(kv.ConfigError, match=match) as info:
+        kv.exact.soliton(np.linspace(-10, 10, 21), *args, equation=equation)  # type: ignore[arg-type]
+    assert "\n" not in str(info.value)
+
+
+def test_a_far_travelled_soliton_is_zero_not_an_error() -> None:
+    # 2 kappa^2 sech^2(kappa (x - 4e300)) underflows to 0 on [-10, 10]: a finite, exact answer.
+    assert np.all(kv.exact.soliton(np.linspace(-10, 10, 21), 1e300, 1.0) == 0.0)
+
+
+def _many_solitons(count: int) -> tuple[np.ndarray, np.ndarray]:
+    return np.linspace(0.5, 1.5, count), np.zeros(count)
+
+
+def test_a_long_multisoliton_lets_other_threads_run() -> None:
+    # 15 solitons on 64 points: 2 million subset terms, a large fraction of a second.
+    kappas, x0s = _many_solitons(15)
+    ticks = 0
+    stop = threading.Event()
+
+    def count() -> None:
+        nonlocal ticks
+        while not stop.is_set():
+            ticks += 1
+            time.sleep(0.001)
+
+    thread = threading.Thread(target=count)
+    thread.start()
+    start = time.perf_counter()
+    u = kv.exact.multisoliton(np.linspace(-5, 5, 64), 0.0, kappas, x0s)
+    elapsed = time.perf_counter() - start
+    stop.set()
+    thread.join()
+    assert np.all(np.isfinite(u))
+    # With the GIL held the counter could not advance at all during the call.
+    assert ticks >= min(5, int(elapsed / 0.01))
+    assert ticks > 0
+
+
+def test_ctrl_c_stops_a_long_multisoliton() -> None:
+    # 18 solitons on 2000 points: minutes of work; Ctrl-C (simulated by interrupt_main, as a
+    # SIGINT) after 0.2 s must stop it within a few seconds.
+    kappas, x0s = _many_solitons(18)
+    timer = threading.Timer(0.2, _thread.interrupt_main)
+    start = time.perf_counter()
+    timer.start()
+    try:
+        with pytest.raises(KeyboardInterrupt):
+            kv.exact.multisoliton(np.linspace(-5, 5, 2000), 0.0, kappas, x0s, equation="mkdv")
+    finally:
+        timer.cancel()
+    # Far less than the full evaluation (which would also end in KeyboardInterrupt, just late).
+    assert time.perf_counter() - start < 20

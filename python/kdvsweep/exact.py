@@ -37,9 +37,20 @@ def multisoliton(
     equation: str | Equation = "kdv",
     signs: ArrayLike | None = None,
 ) -> np.ndarray:
-    """The Hirota N-soliton at time ``t`` on the points ``x`` (any N; cost grows as 2^N).
+    """The Hirota N-soliton at time ``t`` on the points ``x`` (up to 20 solitons).
 
-    ``signs`` (mKdV only) gives each soliton's polarity, +1 or -1 (default all +1).
+    ``signs`` (mKdV only) gives each soliton's polarity, +1 or -1 (default all +1). The cost is
+    ``len(x) * 2^N`` terms: the evaluation runs with the GIL released (other threads go on) and
+    honours Ctrl-C.
+
+    Raises
+    ------
+    ConfigError
+        For an equation without exact solitons, kappas that are not distinct and positive, or
+        parameters whose solution would not be finite (an amplitude, travel ``4 kappa^2 t`` or
+        phase ``2 kappa (x - 4 kappa^2 t - x0)`` that overflows float64).
+    ShapeError
+        For ``x0s`` or ``signs`` of another length than ``kappas``.
     """
     kind, nonlin, disp = _coefficients(equation)
     xs = np.ascontiguousarray(np.asarray(x, dtype=np.float64).ravel())
@@ -68,7 +79,11 @@ def soliton(
     sign: float = 1.0,
 ) -> np.ndarray:
     """One soliton: ``2 kappa^2 sech^2(kappa (x - 4 kappa^2 t - x0))`` for KdV,
-    ``2 kappa sech(2 kappa (x - 4 kappa^2 t - x0))`` for focusing mKdV (canonical forms)."""
+    ``2 kappa sech(2 kappa (x - 4 kappa^2 t - x0))`` for focusing mKdV (canonical forms).
+
+    Raises :class:`ConfigError` as :func:`multisoliton` does, e.g. for ``kappa = 1e200`` (the
+    amplitude overflows).
+    """
     kind, _, _ = _coefficients(equation)
     return multisoliton(x, t, [kappa], [x0], equation, signs=None if kind == "kdv" else [sign])
 

@@ -116,6 +116,17 @@ impl CoreError {
     }
 }
 
+/// `value` for a message: plain digits for ordinary magnitudes, exponent notation (`1e200`) for
+/// very large or very small ones.
+pub fn number(value: f64) -> String {
+    let size = value.abs();
+    if size != 0.0 && size.is_finite() && !(1e-4..1e15).contains(&size) {
+        format!("{value:e}")
+    } else {
+        format!("{value}")
+    }
+}
+
 /// `bytes` with a binary unit, e.g. `2.00 TiB`.
 pub fn human_bytes(bytes: u128) -> String {
     const UNITS: [&str; 7] = ["bytes", "KiB", "MiB", "GiB", "TiB", "PiB", "EiB"];

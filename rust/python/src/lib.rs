@@ -229,7 +229,9 @@ fn dealias_fraction(
 ///
 /// ``kappas`` are the distinct positive wavenumbers and ``x0s`` the positions each soliton would
 /// have alone at ``t = 0``; a single soliton is ``(12 d / a) kappa^2 sech^2(kappa (x - x0 -
-/// 4 d kappa^2 t))``. Raises ``ConfigError`` or ``ShapeError`` for bad parameters.
+/// 4 d kappa^2 t))``. Raises ``ConfigError`` or ``ShapeError`` for bad parameters, including
+/// parameters whose solution would not be finite. Runs with the GIL released and honours Ctrl-C
+/// (the cost is ``len(x) * 2^N``).
 #[pyfunction]
 fn kdv_multisoliton<'py>(
     py: Python<'py>,
@@ -240,10 +242,14 @@ fn kdv_multisoliton<'py>(
     a: f64,
     d: f64,
 ) -> PyResult<Bound<'py, PyArray1<f64>>> {
-    let x = x.as_slice()?;
-    let mut out = vec![0.0; x.len()];
-    kc::exact::kdv_multisoliton(x, t, kappas.as_slice()?, x0s.as_slice()?, a, d, &mut out)
-        .map_err(to_py)?;
+    let x = kc::memory::try_copy("the points", x.as_slice()?).map_err(to_py)?;
+    let kappas = kc::memory::try_copy("the kappas", kappas.as_slice()?).map_err(to_py)?;
+    let x0s = kc::memory::try_copy("the positions", x0s.as_slice()?).map_err(to_py)?;
+    let mut out = kc::memory::try_filled("the solution", x.len(), 0.0).map_err(to_py)?;
+    let values = &mut out;
+    run_detached(py, move |hook| {
+        kc::exact::kdv_multisoliton_with(&x, t, &kappas, &x0s, a, d, values, hook)
+    })?;
     Ok(out.into_pyarray(py))
 }
 
@@ -252,7 +258,8 @@ fn kdv_multisoliton<'py>(
 ///
 /// ``kappas`` are the distinct positive wavenumbers, ``x0s`` the lone-soliton positions at
 /// ``t = 0`` and ``signs`` the polarities (+1 or -1) of the solitons. Raises ``ConfigError`` or
-/// ``ShapeError`` for bad parameters.
+/// ``ShapeError`` for bad parameters, including parameters whose solution would not be finite.
+/// Runs with the GIL released and honours Ctrl-C.
 #[pyfunction]
 #[allow(clippy::too_many_arguments)] // the solution's parameters
 fn mkdv_multisoliton<'py>(
@@ -265,19 +272,15 @@ fn mkdv_multisoliton<'py>(
     b: f64,
     d: f64,
 ) -> PyResult<Bound<'py, PyArray1<f64>>> {
-    let x = x.as_slice()?;
-    let mut out = vec![0.0; x.len()];
-    kc::exact::mkdv_multisoliton(
-        x,
-        t,
-        kappas.as_slice()?,
-        x0s.as_slice()?,
-        signs.as_slice()?,
-        b,
-        d,
-        &mut out,
-    )
-    .map_err(to_py)?;
+    let x = kc::memory::try_copy("the points", x.as_slice()?).map_err(to_py)?;
+    let kappas = kc::memory::try_copy("the kappas", kappas.as_slice()?).map_err(to_py)?;
+    let x0s = kc::memory::try_copy("the positions", x0s.as_slice()?).map_err(to_py)?;
+    let signs = kc::memory::try_copy("the signs", signs.as_slice()?).map_err(to_py)?;
+    let mut out = kc::memory::try_filled("the solution", x.len(), 0.0).map_err(to_py)?;
+    let values = &mut out;
+    run_detached(py, move |hook| {
+        kc::exact::mkdv_multisoliton_with(&x, t, &kappas, &x0s, &signs, b, d, values, hook)
+    })?;
     Ok(out.into_pyarray(py))
 }
 
