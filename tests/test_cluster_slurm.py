@@ -28,10 +28,12 @@ from conftest import pair_sweep_text
 from kdvsweep.exceptions import ConfigError
 from kdvsweep.sweep.cluster import (
     _KEYS,
+    CERTIFICATE_PREFIX,
     DEFAULT_DASHBOARD,
     SYSTEMS,
     ClusterProfile,
     ClusterStartError,
+    certificate_folder,
     cluster_class,
     cluster_client,
     job_script,
@@ -132,11 +134,11 @@ def test_tls_and_a_loopback_dashboard_by_default() -> None:
     assert kwargs["security"].require_encryption
     assert kwargs["protocol"] == "tls://"
     # A session's certificate goes to the log folder, which the jobs write to: they see it.
-    assert kwargs["shared_temp_directory"] == str(Path("/shared/logs").resolve())
+    assert certificate_folder(profile, logs=Path("/shared/logs")) == Path("/shared/logs")
     script = job_script(profile, logs=Path("/shared/logs"))
     worker = next(line for line in script.splitlines() if "dask_worker" in line)
     assert "tls://scheduler-address:8786" in worker
-    assert "--tls-ca-file /shared/logs/" in worker
+    assert f"--tls-ca-file /shared/logs/{CERTIFICATE_PREFIX}ca-" in worker
     assert "--protocol tls://" in worker
 
 
@@ -344,6 +346,8 @@ def job_name(partition: str, request: pytest.FixtureRequest) -> Iterator[str]:
 def test_workers_are_batch_jobs_and_leave_with_the_block(
     partition: str, tmp_path: Path, job_name: str
 ) -> None:
+    import distributed
+
     profile = live_profile(partition, tmp_path, job_name)
     messages: list[str] = []
     with cluster_client(profile, echo=messages.append) as client:
@@ -352,7 +356,14 @@ def test_workers_are_batch_jobs_and_leave_with_the_block(
         assert len(jobs) == 2
         workers = client.scheduler_info()["workers"]
         assert sorted(w["nthreads"] for w in workers.values()) == [1, 1]
-        assert all(address.startswith("tcp://127.0.0.1:") for address in workers)
+        assert all(address.startswith("tls://127.0.0.1:") for address in workers)
+        # The session's certificate reached the jobs as files of the user alone, in the logs
+        # folder; a client without it is refused by the scheduler.
+        certificates = list((tmp_path / "logs").glob(f"{CERTIFICATE_PREFIX}*"))
+        assert len(certificates) == 3  # authority, certificate, key
+        assert {c.stat().st_mode & 0o777 for c in certificates} == {0o600}
+        with pytest.raises(OSError, match=r"Connection reset|Timed out"):
+            distributed.Client(client.scheduler.address.replace("tls://", "tcp://"), timeout="5s")
         # Each worker process lives inside its own batch job.
         inside = client.run(lambda: os.environ.get("SLURM_JOB_ID"))
         assert sorted(inside.values()) == jobs
@@ -360,6 +371,7 @@ def test_workers_are_batch_jobs_and_leave_with_the_block(
         assert squares == [i * i for i in range(50)]
         assert client.dashboard_link.startswith("http://127.0.0.1:")
     assert wait_until_gone(job_name) == {}
+    assert not list((tmp_path / "logs").glob(f"{CERTIFICATE_PREFIX}*"))  # removed at the end
     for job in jobs:  # the jobs' output went where the profile said
         assert (tmp_path / "logs" / f"{job_name}-{job}.err").is_file()
     assert any(m.startswith("dask dashboard: http://127.0.0.1:") for m in messages)

@@ -36,6 +36,7 @@ import re
 import signal
 import subprocess
 import sys
+import tempfile
 import threading
 import time
 import tomllib
@@ -420,13 +421,57 @@ def jobqueue_kwargs(profile: ClusterProfile, logs: Path | None = None) -> dict[s
     if profile.account is not None:
         kwargs[system.account_kwarg] = profile.account
     if profile.tls:
+        # A session's certificate is in memory here: cluster_client writes it for the jobs.
         kwargs["security"] = cluster_security(profile)
         kwargs["protocol"] = "tls://"  # the workers' listeners too, not only their connections
-        # A session's certificate is written here for the jobs (files readable by the user
-        # alone, removed when the cluster closes); it must be a folder the compute nodes see.
-        folder = profile.certificates or log_dir or Path.cwd()
-        kwargs["shared_temp_directory"] = str(Path(folder).expanduser().resolve())
     return kwargs
+
+
+def certificate_folder(profile: ClusterProfile, logs: Path | None = None) -> Path:
+    """Where a session's certificate is written for the jobs: ``security.certificates``, else
+    the batch log folder (the jobs write there, so they see it), else the current folder."""
+    folder = profile.certificates or profile.logs or logs or Path.cwd()
+    return Path(folder).expanduser().resolve()
+
+
+#: Prefix of the files of a session's certificate (authority, certificate, key).
+CERTIFICATE_PREFIX = ".kdvsweep-tls-"
+
+
+@contextlib.contextmanager
+def _session_certificate(security: Any, folder: Path) -> Iterator[Any]:
+    """Write a session's in-memory certificate to files for the jobs; remove them at the end.
+
+    The files are created readable by the user alone (``tempfile.mkstemp``). Yields the same
+    credentials read from those files, which every role of the cluster then uses; credentials
+    that are files already (the site's own) are yielded as they are.
+    """
+    from distributed import security as dsec
+
+    Security: Any = dsec.Security
+    pem = {
+        "ca": security.tls_ca_file,
+        "cert": security.tls_worker_cert,
+        "key": security.tls_worker_key,
+    }
+    if not any(isinstance(text, str) and "\n" in text for text in pem.values()):
+        yield security
+        return
+    folder.mkdir(parents=True, exist_ok=True)
+    paths: dict[str, str] = {}
+    try:
+        for part, text in pem.items():
+            fd, name = tempfile.mkstemp(prefix=f"{CERTIFICATE_PREFIX}{part}-", dir=folder)
+            paths[part] = name
+            with os.fdopen(fd, "w", encoding="ascii") as file:
+                file.write(text)
+        roles = {f"tls_{role}_{part}": paths[part] for role in ("scheduler", "worker", "client")
+                 for part in ("cert", "key")}  # fmt: skip
+        yield Security(tls_ca_file=paths["ca"], require_encryption=True, **roles)
+    finally:
+        for name in paths.values():
+            with contextlib.suppress(OSError):
+                os.unlink(name)
 
 
 def cluster_security(profile: ClusterProfile) -> Any:
@@ -506,7 +551,7 @@ def job_script(profile: ClusterProfile, logs: Path | None = None) -> str:
     job_cls = cluster_class(profile).job_cls
     kwargs = jobqueue_kwargs(profile, logs)
     del kwargs["scheduler_options"]  # a job takes everything else the cluster does
-    folder = kwargs.pop("shared_temp_directory", None)
+    folder = certificate_folder(profile, logs) / CERTIFICATE_PREFIX
     if profile.tls and profile.ca_file is None:
         # A session's certificate is written when the cluster starts; show where it will be.
         from distributed import security
@@ -514,9 +559,9 @@ def job_script(profile: ClusterProfile, logs: Path | None = None) -> str:
         Security: Any = security.Security
 
         kwargs["security"] = Security(
-            tls_ca_file=f"{folder}/SESSION-ca_file",
-            tls_worker_cert=f"{folder}/SESSION-cert",
-            tls_worker_key=f"{folder}/SESSION-key",
+            tls_ca_file=f"{folder}ca-XXXXXXXX",
+            tls_worker_cert=f"{folder}cert-XXXXXXXX",
+            tls_worker_key=f"{folder}key-XXXXXXXX",
             require_encryption=True,
         )
     protocol = "tls" if profile.tls else "tcp"
@@ -563,9 +608,6 @@ def cluster_client(
     ClusterStartError
         If no worker joined within ``profile.start_timeout`` seconds (all jobs are cancelled first).
     """
-    import distributed
-
-    Client: Any = distributed.Client
 
     def say(message: str) -> None:
         log.info(message)
@@ -575,7 +617,24 @@ def cluster_client(
     log_dir = profile.logs or logs
     if log_dir is not None:
         Path(log_dir).mkdir(parents=True, exist_ok=True)
-    cluster = cluster_class(profile)(**jobqueue_kwargs(profile, logs))
+    kwargs = jobqueue_kwargs(profile, logs)
+    with contextlib.ExitStack() as files:
+        if "security" in kwargs:  # the files outlive the cluster: they are removed after it
+            kwargs["security"] = files.enter_context(
+                _session_certificate(kwargs["security"], certificate_folder(profile, logs))
+            )
+        with _managed(cluster_class(profile)(**kwargs), profile, log_dir, say) as client:
+            yield client
+
+
+@contextlib.contextmanager
+def _managed(
+    cluster: Any, profile: ClusterProfile, log_dir: Path | None, say: Callable[[str], None]
+) -> Iterator[Any]:
+    """Submit the jobs of ``cluster``, yield its client, cancel every job on the way out."""
+    import distributed
+
+    Client: Any = distributed.Client
     keeper = _JobKeeper(cluster, profile, say)
     client = None
     try:
@@ -761,6 +820,7 @@ __all__ = [
     "BatchSystem",
     "ClusterProfile",
     "ClusterStartError",
+    "certificate_folder",
     "cluster_class",
     "cluster_client",
     "cluster_security",
