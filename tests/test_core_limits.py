@@ -116,19 +116,28 @@ def test_a_run_out_of_memory_is_stored_as_failed_with_that_reason(tmp_path: Path
     ("equation", "args", "match"),
     [
         # 2 kappa^2 = 2e400 overflows float64 (it used to return NaN at every point).
-        ("kdv", (0.0, 1e200), r"^kappas: expected values whose soliton amplitude is a finite "),
-        ("kdv", (0.0, 1e308), r"^kappas: .* number, got 1e308$"),
-        ("mkdv", (0.0, 1e308), r"^kappas: .* number, got 1e308$"),  # 2 kappa overflows
+        (
+            "kdv",
+            (0.0, 1e200, 0.0),
+            r"^kappas: expected values whose soliton amplitude is a finite ",
+        ),
+        ("kdv", (0.0, 1e308, 0.0), r"^kappas: .* number, got 1e308$"),
+        ("mkdv", (0.0, 1e308, 0.0), r"^kappas: .* number, got 1e308$"),  # 2 kappa overflows
         ("kdv", (0.0, 1.0, 1e308), r"^phase: expected a finite 2 kappa \(x - 4 kappa\^2 t - x0\) "),
         ("mkdv", (0.0, 1.0, -1e308), r"^phase: .* got t = 0, kappa = 1, x0 = -1e308, x from -10 "),
-        ("kdv", (1e308, 10.0), r"^phase: .* got t = 1e308, kappa = 10, x0 = 0, x from -10 to 10$"),
+        (
+            "kdv",
+            (1e308, 10.0, 0.0),
+            r"^phase: .* got t = 1e308, kappa = 10, x0 = 0, x from -10 to 10$",
+        ),
     ],
 )
 def test_exact_solutions_that_would_not_be_finite_are_errors(
-    equation: str, args: tuple[float, ...], match: str
+    equation: str, args: tuple[float, float, float], match: str
 ) -> None:
+    t, kappa, x0 = args
     with pytest.raises(kv.ConfigError, match=match) as info:
-        kv.exact.soliton(np.linspace(-10, 10, 21), *args, equation=equation)  # type: ignore[arg-type]
+        kv.exact.soliton(np.linspace(-10, 10, 21), t, kappa, x0, equation=equation)
     assert "\n" not in str(info.value)
 
 
