@@ -6,6 +6,7 @@ import re
 from pathlib import Path
 
 import numpy as np
+import pyarrow as pa
 import pytest
 from conftest import pair_sweep, periodic_soliton
 
@@ -107,3 +108,21 @@ def test_reserved_names_keep_the_model_columns_sweepable() -> None:
     names = [c.name for c in layout.runs()]
     assert len(names) == len(set(names))
     assert layout.schema("runs").field("equation").type == columns.PARAMETER_TYPES["text"]
+
+
+def test_profile_layout_has_the_content_columns_and_their_types() -> None:
+    # Profile data always have the content; solitons only with run.predict_content.
+    assert columns.has_content(predict_content=False, soliton_data=False)
+    assert not columns.has_content(predict_content=False, soliton_data=True)
+    layout = columns.Layout({"h": "float"}, analysis=False, content=True)
+    runs, sol = layout.schema("runs"), layout.schema("solitons")
+    assert runs.field("ist_kappas").type == pa.list_(pa.float64())
+    assert runs.field("all_found").type == pa.bool_()
+    assert sol.field("found").type == pa.bool_()
+    assert sol.field("kind").type == pa.string()
+    assert "analysis_status" not in runs.names
+    # every content column is declared once, and named as no parameter may be
+    names = [c.name for c in layout.runs()] + [c.name for c in layout.solitons()]
+    assert len(set(layout.schema("runs").names)) == len(layout.schema("runs").names)
+    assert {"ist_status", "kind", "found", "note", "amplitude_ist"} <= columns.reserved_names()
+    assert set(names) - {"h"} <= columns.reserved_names() | set(columns.MODEL_COLUMNS)

@@ -295,7 +295,9 @@ def pairs(tmp_path_factory: pytest.TempPathFactory) -> Path:
 def test_space_time_of_a_damped_run_shows_its_damping(damped: Path) -> None:
     res = load(damped)
     plans = {p.stem: p for p in plots.plan_figures(res, runs=[1])}
-    assert plans["shift_comparison"].reason.startswith("the store has no soliton rows")
+    # profile data: no collisions to measure, the soliton content instead
+    assert "shift_comparison" not in plans
+    assert plans["content_comparison"].drawable
     fig, _ = plots.draw(res, plans["spacetime_run1"])
     title = fig.get_suptitle()
     # The run's own equation, u_t + 6 u u_x + u_xxx = -0.02 u, not the preset's undamped one.
@@ -311,7 +313,7 @@ def test_gardner_store_plots_the_field_and_says_why_no_tracks(tmp_path: Path) ->
     plan = plans["spacetime_run0"]
     assert plan.drawable
     assert len(plan.notes) == 1
-    assert plan.notes[0].startswith("field only: the collision analysis")
+    assert plan.notes[0].startswith("field only: the content measurement")
     assert kv.Equation.gardner().describe() in plan.notes[0]
     fig, _ = plots.draw(res, plan)
     assert not lines_with(fig.axes[0], plots.TRAJECTORY_GID)
@@ -388,3 +390,106 @@ def test_plot_of_a_run_not_in_the_store_fails_in_one_line(
 def test_unknown_format_is_refused_before_drawing(pairs: Path, tmp_path: Path) -> None:
     assert cli.main(["plot", str(pairs), "--into", str(tmp_path / "f"), "--formats", "gif"]) == 2
     assert not (tmp_path / "f").exists()
+
+
+# --- soliton content ------------------------------------------------------------------------------
+
+
+def content_rows() -> pd.DataFrame:
+    """Six runs' content rows: two measured solitons each (one of them a depression in the
+    last run), and one predicted soliton that was not measured."""
+    rows = []
+    for run in range(6):
+        for s, (amp, speed) in enumerate(((2.0 + run, 4.0 + 2 * run), (0.5 + 0.1 * run, 1.0))):
+            rows.append(
+                {
+                    "run_id": run,
+                    "h": 1.0 + run,
+                    "soliton": s,
+                    "kind": "soliton",
+                    "sign": -1 if (run == 5 and s == 1) else 1,
+                    "found": True,
+                    "amplitude": amp * (1 + 1e-5 * (s + 1)),
+                    "amplitude_ist": amp,
+                    "amplitude_uncertainty": 2e-5 * amp,
+                    "speed": speed * (1 - 1e-5),
+                    "speed_ist": speed,
+                    "speed_uncertainty": 1e-5 * speed,
+                }
+            )
+    rows.append(
+        {
+            "run_id": 0,
+            "h": 1.0,
+            "soliton": 2,
+            "kind": "soliton",
+            "sign": 1,
+            "found": False,
+            "amplitude_ist": 0.1,
+            "speed_ist": 0.2,
+            "note": "left out: amplitude 0.1 below min_amplitude",
+        }
+    )
+    return pd.DataFrame(rows)
+
+
+def test_content_comparison_draws_every_soliton_and_the_missing_one() -> None:
+    fig = plots.content_comparison(content_rows(), color_by="h", title="content")
+    amp, speed, amp_res = fig.axes[:3]
+    for ax in (amp, speed):
+        drawn = sum(len(c.get_offsets()) for c in ax.collections)
+        assert drawn == 12  # every measured soliton, coloured by h
+        identity = [line for line in ax.get_lines() if line.get_label() == "measured = predicted"]
+        assert len(identity) == 1
+        missing = [line for line in ax.get_lines() if line.get_marker() == "x"]
+        assert len(missing) == 1
+        assert len(missing[0].get_xdata()) == 1  # the predicted soliton not measured
+    # residual panels: (measured - predicted) / predicted, e.g. 1e-5 for the first solitons
+    offsets = np.concatenate([c.get_offsets() for c in amp_res.collections if c.get_offsets().size])
+    assert np.nanmax(np.abs(offsets[:, 1])) == pytest.approx(2e-5, rel=1e-6)
+    assert fig.axes[-1].get_ylabel() == "h"  # the colour bar
+    labels = [t.get_text() for t in amp.get_legend().get_texts()]
+    assert "soliton, depression" in labels
+    assert "predicted, not measured" in labels
+
+
+def test_spacetime_follows_every_emerging_soliton() -> None:
+    # Two exact one-solitons leaving x = 0 (Korteweg & de Vries 1895) and a measured content
+    # record of them: each is drawn from its separation time with its asymptote.
+    grid = kv.Grid(512, 120.0)
+    times = np.linspace(0.0, 6.0, 61)
+    eq = kv.Equation.kdv()
+    form = eq.soliton_form
+    frames = np.array([form.profile(grid.x, 1.2, form.speed(1.2) * t + 5.0) for t in times])
+    frames += np.array([form.profile(grid.x, 0.7, form.speed(0.7) * t - 20.0) for t in times])
+    content = kv.analysis.content.measure_content(frames, times, grid, eq)
+    assert content.n_measured == 2
+    fig = plots.spacetime(frames, times, grid, content=content, title="two solitons")
+    ax = fig.axes[0]
+    assert len(lines_with(ax, plots.TRAJECTORY_GID)) == 2
+    assert len(lines_with(ax, plots.ASYMPTOTE_GID)) == 2
+    legend = [t.get_text() for t in fig.legends[0].get_texts()]
+    assert legend[0].startswith("soliton 0: A = 2.88")  # 2 kappa^2 of kappa = 1.2
+
+
+@pytest.fixture(scope="module")
+def wells(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    text = SECH2.format(name="wells", equation='"kdv"').replace(
+        "gamma = [0.0, 0.02]", "height = [2.0, 6.0]"
+    )
+    text = text.replace("height = 2.0", 'height = "height"').replace("points = 256", "points = 512")
+    return make_store(tmp_path_factory.mktemp("wells"), text, "wells")
+
+
+def test_content_store_gives_the_content_figure_and_tracks(wells: Path) -> None:
+    res = load(wells)
+    plans = {p.stem: p for p in plots.plan_figures(res)}
+    assert "shift_comparison" not in plans
+    plan = plans["content_comparison"]
+    assert plan.drawable
+    assert plan.color_by == "height"
+    fig, _ = plots.draw(res, plan)
+    measured = int(res.solitons["found"].astype(bool).sum())
+    assert sum(len(c.get_offsets()) for c in fig.axes[0].collections) == measured
+    fig, _ = plots.draw(res, plans["spacetime_run0"])
+    assert len(lines_with(fig.axes[0], plots.TRAJECTORY_GID)) >= 1

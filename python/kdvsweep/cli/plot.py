@@ -15,10 +15,12 @@ def register(sub: Any) -> None:
     """Add ``plot`` to the ``kdvsweep`` sub-parsers."""
     p = sub.add_parser(
         "plot",
-        help="measured vs predicted shifts, relative error vs a parameter, space-time diagrams",
-        description="Figures of a sweep store: measured against predicted phase shifts, their "
-        "relative error against a swept parameter, space-time diagrams of stored runs. Each run's "
-        "equation is read from the store. A figure that cannot be drawn is named with the reason.",
+        help="measured vs predicted shifts or soliton content, space-time diagrams",
+        description="Figures of a sweep store: measured against predicted phase shifts and their "
+        "relative error against a swept parameter (soliton initial data), or measured against "
+        "predicted amplitudes and speeds of the emerging solitons (profile data); space-time "
+        "diagrams of stored runs with every soliton followed. Each run's equation is read from "
+        "the store. A figure that cannot be drawn is named with the reason.",
     )
     p.add_argument("out", type=Path, metavar="OUT", help="store folder")
     p.add_argument(

@@ -1,9 +1,13 @@
 """Figures of collisions and sweeps, drawn from tables and frames.
 
 * :func:`spacetime`: the space-time diagram of one run, with the tracked trajectories and the
-  fitted asymptotes drawn over it (the phase shift is the offset between the two dashed lines);
+  fitted asymptotes drawn over it (the phase shift is the offset between the two dashed lines),
+  or, for profile data, every emerging soliton and breather followed from the time it separated,
+  with its fitted asymptote;
 * :func:`shift_comparison`: measured against predicted shift over a sweep, with the identity line;
-* :func:`relative_error`: relative shift error against a swept parameter.
+* :func:`relative_error`: relative shift error against a swept parameter;
+* :func:`content_comparison`: measured against predicted amplitude and speed of the solitons and
+  breathers that emerge from profile data, with the identity line and a residual panel.
 
 Figures are built on :class:`matplotlib.figure.Figure` directly (no pyplot state), so plotting is
 safe from worker threads and never opens a window. :func:`save` writes PNG and PDF.
@@ -27,6 +31,7 @@ from matplotlib.axes import Axes
 from matplotlib.figure import Figure
 
 from ..analysis import RunAnalysis
+from ..analysis.content import ContentMeasurement
 from ..exceptions import ConfigError
 from ..model import Grid
 
@@ -76,6 +81,7 @@ def spacetime(
     analysis: RunAnalysis | None = None,
     title: str | None = None,
     zoom: bool = True,
+    content: ContentMeasurement | None = None,
 ) -> Figure:
     """Space-time diagram ``u(x, t)`` with tracked trajectories and fitted asymptotes.
 
@@ -93,6 +99,9 @@ def spacetime(
     zoom
         Add a second panel centred on the collision (when the analysis located one), in the
         coordinate ``x - x_c`` so that a collision near the periodic boundary is not cut.
+    content
+        The result of :func:`kdvsweep.analysis.content.measure_content` on the same record: each
+        emerging soliton and breather is drawn from the time it separated, with its asymptote.
 
     Returns
     -------
@@ -107,6 +116,8 @@ def spacetime(
     image, scale = _field(axes[0], u, t, grid, 0)
     if analysis is not None:
         _draw_tracks(axes[0], analysis, t, grid.length, 0.0, True, _is_signed(u))
+    if content is not None:
+        _draw_emerging(axes[0], content, t, grid.length, _is_signed(u))
     axes[0].set_xlabel("x")
     if centre is not None and analysis is not None:
         x_c, t_c, half_x, half_t = centre
@@ -278,6 +289,59 @@ def _draw_tracks(
     if handles and legend:
         ax.figure.legend(
             handles=handles, loc="outside lower center", ncols=min(len(handles), 2), frameon=False
+        )
+
+
+def _draw_emerging(
+    ax: Axes, content: ContentMeasurement, t: np.ndarray, length: float, signed: bool
+) -> None:
+    """Each emerging soliton's fitted centres from the time it separated (solid) and its
+    asymptote ``x = speed t + offset`` over the whole record (dashed; the offset is the mean of
+    ``centre - speed t`` over the second half of the track, the late frames)."""
+    palette = SIGNED_COLORS if signed else SOLITON_COLORS
+    handles = []
+    for i, e in enumerate(content.emerging):
+        color = palette[i % len(palette)]
+        tt = np.asarray(e.track_times, dtype=float)
+        xx = np.asarray(e.track_centres, dtype=float)
+        name = "breather" if e.kind == "breather" else "soliton"
+        peak = e.amplitude * (e.sign or 1)  # the soliton's own sign (a breather: +)
+        label = f"{name} {i}: A = {peak:.3g}, c = {e.speed:.3g}"
+        if tt.size:
+            lt, lx = _wrapped_line(tt, xx, length)
+            handles += ax.plot(
+                lx,
+                lt,
+                color=color,
+                lw=1.3,
+                alpha=0.85,
+                gid=TRAJECTORY_GID,
+                label=label,
+                path_effects=_EDGE[signed],
+            )
+            late = slice(tt.size // 2, None)
+            offset = float(np.mean(xx[late] - e.speed * tt[late]))
+            line_t = np.linspace(t[0], t[-1], 600)
+            at, ax_x = _wrapped_line(line_t, e.speed * line_t + offset, length)
+            ax.plot(
+                ax_x,
+                at,
+                color=color,
+                lw=1.1,
+                ls=(0, (4, 3)),
+                gid=ASYMPTOTE_GID,
+                path_effects=_EDGE[signed],
+            )
+    if handles:
+        handles += ax.plot(
+            [], [], color="0.2", lw=1.2, ls=(0, (4, 3)), label="fitted asymptote, extrapolated"
+        )
+        ax.figure.legend(
+            handles=handles,
+            loc="outside lower center",
+            ncols=min(len(handles), 3 if len(handles) > 4 else 2),
+            frameon=False,
+            fontsize=10,
         )
 
 
@@ -623,6 +687,160 @@ def relative_error(
             frameon=False,
             fontsize=10,
         )
+    return fig
+
+
+#: Marker of each kind of emerging wave in :func:`content_comparison`, by kind and sign, with the
+#: legend's words.
+KIND_MARKERS = {
+    ("soliton", 1): ("o", "soliton, elevation"),
+    ("soliton", -1): ("v", "soliton, depression"),
+    ("breather", 0): ("D", "breather"),
+}
+#: The quantities of :func:`content_comparison`: measured column, predicted column, uncertainty
+#: column, axis word.
+CONTENT_QUANTITIES = (
+    ("amplitude", "amplitude_ist", "amplitude_uncertainty", "amplitude |u|"),
+    ("speed", "speed_ist", "speed_uncertainty", "speed"),
+)
+
+
+def content_comparison(
+    solitons: pd.DataFrame, color_by: str | None = None, title: str | None = None
+) -> Figure:
+    """Measured against predicted amplitude and speed of every emerging soliton and breather.
+
+    Top row: measured against predicted, with the identity line; predicted ones that were not
+    measured (left out, or not found) are crosses on the lower edge. Bottom row: the relative
+    residual ``(measured - predicted) / |predicted|`` with the measurement's uncertainty as an
+    error bar (a residual within its bar agrees to the resolution of the measurement).
+
+    Parameters
+    ----------
+    solitons
+        Solitons rows of content runs (columns ``kind``, ``found``, ``amplitude``,
+        ``amplitude_ist``, ``speed``, ``speed_ist`` and their uncertainties), joined with their
+        runs' parameters when ``color_by`` names one.
+    color_by
+        A column colouring the points: numeric (a colour bar) or text (a legend entry each).
+    title
+        Figure title.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        The first axes hold the amplitude comparison.
+    """
+    if color_by is not None and color_by not in solitons.columns:
+        raise ConfigError(
+            f"content_comparison: no column {color_by!r}; expected one of {list(solitons.columns)}"
+        )
+    df = solitons[solitons["kind"].notna()] if "kind" in solitons else solitons.iloc[0:0]
+    found = df["found"].astype("boolean").fillna(False).astype(bool) if len(df) else df["kind"]
+    matched = df[found.astype(bool)] if len(df) else df
+    missing = df[~found.astype(bool)] if len(df) else df
+    fig = _figure(12.5, 8.0)
+    grid = fig.subplots(2, 2, height_ratios=(3, 1.4), squeeze=False)
+    norm: mcolors.Normalize | None = None
+    colours: dict[Any, str] = {}
+    numeric = color_by is not None and pd.api.types.is_numeric_dtype(df[color_by])
+    if color_by is not None and numeric and len(matched):
+        values = matched[color_by].astype(float)
+        low, high = float(values.min()), float(values.max())
+        if low == high:
+            low, high = low - 0.5, high + 0.5
+        norm = mcolors.Normalize(low, high)
+    elif color_by is not None:
+        for j, v in enumerate(sorted(df[color_by].dropna().unique(), key=str)):
+            colours[v] = SOLITON_COLORS[j % len(SOLITON_COLORS)]
+    for col, (meas, pred, unc, word) in enumerate(CONTENT_QUANTITIES):
+        top, low = grid[0][col], grid[1][col]
+        known = np.concatenate(
+            [matched[[meas, pred]].to_numpy(float).ravel(), missing[pred].to_numpy(float)]
+        )
+        known = known[np.isfinite(known)]
+        lo, hi = (float(known.min()), float(known.max())) if known.size else (0.0, 1.0)
+        pad = 0.06 * (hi - lo or 1.0)
+        ends = (min(0.0, lo) - pad, hi + pad)
+        top.plot(ends, ends, color="0.5", lw=1.2, zorder=1, label="measured = predicted")
+        for (kind, sign), (marker, _) in KIND_MARKERS.items():
+            part = matched[(matched["kind"] == kind) & (matched["sign"].fillna(0) == sign)]
+            if part.empty:
+                continue
+            x = part[pred].to_numpy(float)
+            y = part[meas].to_numpy(float)
+            rel = (y - x) / np.abs(x)
+            err = part[unc].to_numpy(float) / np.abs(x)
+            if norm is not None and color_by is not None:
+                c: Any = part[color_by].astype(float).to_numpy()
+                kw: dict[str, Any] = {"c": c, "cmap": "viridis", "norm": norm}
+            elif color_by is not None:
+                kw = {"c": [colours[v] for v in part[color_by]]}
+            else:
+                kw = {"c": SOLITON_COLORS[0 if kind == "soliton" else 1]}
+            size = 30 if sign < 0 else 50  # a depression drawn inside its mirrored elevation
+            top.scatter(
+                x, y, marker=marker, s=size, edgecolors="0.15", linewidths=0.6, zorder=3, **kw
+            )
+            low.errorbar(
+                x,
+                rel,
+                yerr=np.where(np.isfinite(err), err, 0.0),
+                ls="none",
+                color="0.55",
+                lw=1.0,
+                capsize=2,
+                zorder=2,
+            )
+            low.scatter(
+                x,
+                rel,
+                marker=marker,
+                s=0.7 * size,
+                edgecolors="0.15",
+                linewidths=0.6,
+                zorder=3,
+                **kw,
+            )
+        if len(missing):
+            xs = missing[pred].to_numpy(float)
+            top.plot(
+                xs,
+                np.full(xs.shape, ends[0] + 0.5 * pad),
+                ls="none",
+                marker="x",
+                ms=8,
+                mew=1.8,
+                color="0.35",
+                zorder=3,
+                label="predicted, not measured",
+            )
+        top.set_xlim(*ends)
+        top.set_ylim(*ends)
+        top.set_title(word)
+        top.set_ylabel(f"measured {word}")
+        top.grid(alpha=0.3)
+        low.axhline(0.0, color="0.5", lw=1.0)
+        low.set_xlim(*ends)
+        low.set_xlabel(f"predicted {word} (IST of the initial data)")
+        low.set_ylabel("relative residual")
+        low.grid(alpha=0.3)
+        low.ticklabel_format(axis="y", style="sci", scilimits=(-2, 2))
+    handles, labels = grid[0][0].get_legend_handles_labels()
+    for (kind, sign), (marker, words) in KIND_MARKERS.items():
+        if ((matched["kind"] == kind) & (matched["sign"].fillna(0) == sign)).any():
+            handles += grid[0][0].plot(
+                [], [], ls="none", marker=marker, ms=7, mfc="0.75", mec="0.15", label=words
+            )
+            labels.append(words)
+    for v, colour in colours.items():
+        handles += grid[0][0].plot([], [], ls="none", marker="s", ms=9, color=colour)
+        labels.append(f"{color_by} = {format_value(v)}")
+    grid[0][0].legend(handles, labels, loc="upper left", fontsize=10)
+    if norm is not None:
+        fig.colorbar(_mappable(norm), ax=list(grid[:, 1]), label=color_by, pad=0.01)
+    if title:
+        fig.suptitle(title)
     return fig
 
 

@@ -18,11 +18,13 @@ import pandas as pd
 from matplotlib.figure import Figure
 
 from ..analysis import RunAnalysis, analyse_run
+from ..analysis.content import ContentMeasurement, measure_content
 from ..exceptions import ConfigError, KdvsweepError
 from ..model import Equation, Grid
 from .figures import (
     FORMATS,
     check_formats,
+    content_comparison,
     figure_style,
     format_value,
     relative_error,
@@ -42,9 +44,11 @@ class FigurePlan:
     Attributes
     ----------
     stem
-        File name without suffix (``shift_comparison``, ``relative_error_k2``, ``spacetime_run4``).
+        File name without suffix (``shift_comparison``, ``relative_error_k2``, ``spacetime_run4``,
+        ``content_comparison``).
     kind
-        ``"shift_comparison"``, ``"relative_error"`` or ``"spacetime"``.
+        ``"shift_comparison"``, ``"relative_error"``, ``"spacetime"`` or
+        ``"content_comparison"``.
     parameter
         The horizontal axis of a relative-error figure.
     run_id
@@ -151,7 +155,9 @@ def plan_figures(
             f"plot: no parameter {parameter!r} in the runs table; swept parameters: "
             f"{', '.join(params) or 'none'}"
         )
-    plans = _shift_plans(results, ok, params, parameter)
+    plans = _shift_plans(results, ok, params, parameter) if _collisions(results) else []
+    if _content(results):
+        plans.append(_content_plan(results, ok, params))
     for run_id in (
         runs if runs is not None else _default_runs(ok, _series_columns(ok, params, None))
     ):
@@ -207,6 +213,43 @@ def _shift_plans(
     return plans
 
 
+def _layout(results: Results) -> dict[str, object]:
+    layout = results.manifest.get("layout", {})
+    return layout if isinstance(layout, dict) else {}
+
+
+def _collisions(results: Results) -> bool:
+    """The store's runs start from solitons (the collision analysis and its shift figures)."""
+    return bool(_layout(results).get("analysis", True))
+
+
+def _content(results: Results) -> bool:
+    """The store has the soliton content's columns (profile data, or ``predict_content``)."""
+    return bool(_layout(results).get("content", False)) and "kind" in results.solitons
+
+
+def _content_plan(results: Results, ok: pd.DataFrame, params: Sequence[str]) -> FigurePlan:
+    """The content figure, coloured by the first swept parameter that varies (numeric first)."""
+    stem = "content_comparison"
+    sol = results.solitons
+    sol = sol[sol["run_id"].isin(ok["run_id"])]
+    if "found" not in sol or not sol["found"].astype("boolean").fillna(False).any():
+        return FigurePlan(
+            stem,
+            stem,
+            reason="no measured soliton is matched to a predicted one (see ist_status and "
+            "content_status in `kdvsweep table OUT --runs`)",
+        )
+    varying = [p for p in params if p in ok.columns and ok[p].nunique() > 1]
+    numeric = [p for p in varying if pd.api.types.is_numeric_dtype(ok[p])]
+    color_by = next(iter(numeric or varying), None)
+    notes: tuple[str, ...] = ()
+    missing = int((~sol["found"].astype("boolean").fillna(False)).sum())
+    if missing:
+        notes = (f"{missing} predicted soliton(s) not measured: crosses on the axis (see note)",)
+    return FigurePlan(stem, stem, color_by=color_by, notes=notes)
+
+
 def _spacetime_plan(results: Results, run_id: int, explicit: bool) -> FigurePlan:
     stem = f"spacetime_run{run_id}"
     table = results.runs
@@ -229,8 +272,9 @@ def _spacetime_plan(results: Results, run_id: int, explicit: bool) -> FigurePlan
         return FigurePlan(stem, "spacetime", run_id=run_id, reason=str(err))
     notes: tuple[str, ...] = ()
     if eq.soliton_form_or_none() is None:
+        what = "collision analysis" if _collisions(results) else "content measurement"
         notes = (
-            "field only: the collision analysis follows KdV and focusing-mKdV solitons; "
+            f"field only: the {what} follows KdV and focusing-mKdV solitons; "
             f"this run has {eq.describe()}",
         )
     return FigurePlan(stem, "spacetime", run_id=run_id, notes=notes)
@@ -243,7 +287,11 @@ def _default_runs(runs: pd.DataFrame, series: Sequence[str]) -> list[int]:
         return []
     if not series:
         return [int(runs["run_id"].iloc[0])]
-    return [int(part["run_id"].iloc[0]) for _, part in runs.groupby(list(series), sort=True)][:4]
+    firsts = [int(part["run_id"].iloc[0]) for _, part in runs.groupby(list(series), sort=True)]
+    if len(firsts) <= 4:
+        return firsts
+    # four series spread over all of them (first and last included), not the first four
+    return [firsts[round(i)] for i in np.linspace(0, len(firsts) - 1, 4)]
 
 
 def _joined(results: Results) -> pd.DataFrame:
@@ -269,6 +317,15 @@ def draw(results: Results, plan: FigurePlan) -> tuple[Figure, list[str]]:
     if plan.kind == "spacetime":
         assert plan.run_id is not None
         return _spacetime_of_run(results, plan.run_id, notes), notes
+    if plan.kind == "content_comparison":
+        merged = _joined(results)
+        runs = results.runs["run_id"].nunique()
+        kinds = merged.loc[merged["found"].astype("boolean").fillna(False), "kind"]
+        title = (
+            f"{results.manifest.get('sweep_name', '')}: {int((kinds == 'soliton').sum())} "
+            f"solitons, {int((kinds == 'breather').sum())} breathers measured in {runs} runs"
+        )
+        return content_comparison(merged, plan.color_by, title=title), notes
     table = results.runs
     ok = table[table["status"] == "ok"] if "status" in table else table
     equations, _ = _equations(ok)
@@ -288,7 +345,18 @@ def _spacetime_of_run(results: Results, run_id: int, notes: list[str]) -> Figure
     frames = results.frames(run_id)
     grid = Grid(int(row["n"]), float(row["length"]))
     analysis: RunAnalysis | None = None
-    if eq.soliton_form_or_none() is not None:
+    content: ContentMeasurement | None = None
+    if eq.soliton_form_or_none() is not None and not _collisions(results):
+        try:
+            content = measure_content(
+                frames.u, frames.times, grid, eq, min_amplitude=_content_floor(results, frames.u)
+            )
+        except KdvsweepError as err:
+            notes.append(f"field only: the content measurement failed: {err}")
+        else:
+            if not content.emerging:
+                notes.append(f"field only: no soliton emerged ({content.reason or 'none found'})")
+    elif eq.soliton_form_or_none() is not None:
         sol = results.solitons[results.solitons["run_id"] == run_id].sort_values("soliton")
         kappas = sol["kappa"].to_numpy(float) if len(sol) else None
         if kappas is not None and not np.all(np.isfinite(kappas)):
@@ -308,7 +376,23 @@ def _spacetime_of_run(results: Results, run_id: int, notes: list[str]) -> Figure
     params = [p for p in results.parameters if p in row.index and p != "equation"]
     label = ", ".join(f"{p} = {format_value(row[p])}" for p in params)
     title = eq.describe() + (f"\n{label}" if label else "")
-    return spacetime(frames.u, frames.times, grid, analysis, title=title)
+    return spacetime(frames.u, frames.times, grid, analysis, title=title, content=content)
+
+
+def _content_floor(results: Results, frames: np.ndarray) -> float | None:
+    """The runner's amplitude floor: ``sizing.min_amplitude`` of the sweep (a fraction of
+    ``max |u0|``), or ``None`` for the measurement's default."""
+    import tomllib
+
+    try:
+        doc = tomllib.loads(str(results.manifest.get("sweep_text", "")))
+    except tomllib.TOMLDecodeError:
+        return None
+    sizing = doc.get("sizing", {})
+    fraction = sizing.get("min_amplitude") if isinstance(sizing, dict) else None
+    if not isinstance(fraction, int | float) or isinstance(fraction, bool):
+        return None
+    return float(fraction) * float(np.max(np.abs(frames[0])))
 
 
 def iter_figures(

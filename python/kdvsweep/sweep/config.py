@@ -54,7 +54,7 @@ _SIZING = ("tail", "min_amplitude", "max_end", "radiation")
 DEFAULT_MAX_END = 100.0
 #: Default ``sizing.radiation``: the Fourier level of the data (relative to its peak) whose
 #: radiation is budgeted in an automatic length (:mod:`kdvsweep.sweep.sizing`, content runs).
-DEFAULT_RADIATION = 1e-3
+DEFAULT_RADIATION = 1e-4
 _SOLITON_SIZES = ("kappa", "amplitude", "speed")
 _INITIAL = {
     "solitons": ("kind", *_SOLITON_SIZES, "position", "polarity"),
@@ -453,12 +453,12 @@ def _read_template(src: Source, doc: dict[str, Any], base: Path, stem: str) -> _
             "'auto' with run.predict_content = false",
             "a number: automatic sizing of profile data needs the predicted solitons",
         )
-    if points is None and kind not in ("solitons", "multisoliton"):
+    if points is None and not soliton_data and (kind == "npy" or not predict_content):
         raise src.error(
             "model.points",
             "'auto'",
-            "an even integer >= 16: automatic points need "
-            "initial.kind = 'solitons' or 'multisoliton'",
+            "an even integer >= 16: automatic points need initial.kind = 'solitons' or "
+            "'multisoliton', or a profile with run.predict_content (not an npy file)",
         )
     return _Template(
         name=name,
@@ -1022,11 +1022,13 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
             form_or_none = eq.soliton_form_or_none()
             if tpl.kind == "sech2" and form_or_none is not None and form_or_none.family == "kdv":
                 narrowest = _sech2_narrowest(values["height"], values["scale"], form_or_none)
-        if given_length is None or given_end is None:
+        if given_length is None or given_end is None or tpl.points is None:
             length, t_end, predicted_narrowest = _content_sizing(
                 tpl, ctx, warn, eq, initial, given_length, given_end
             )
             narrowest = min(narrowest, predicted_narrowest)
+            if tpl.points is None:  # the profile itself must be resolved too
+                narrowest = min(narrowest, _profile_width(initial))
             if isinstance(initial, init.Box) and not initial.half_width < 0.5 * length:
                 raise ctx.fail(
                     "initial.half_width",
@@ -1096,15 +1098,24 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
     return RunSpec(ctx.run_id, dict(ctx.params), model, initial, run)
 
 
-def _provisional_grid(initial: init.InitialData, n: int) -> Grid:
-    """A grid holding the whole profile (``length = 'auto'``): four times its reach from 0."""
+def _provisional_length(initial: init.InitialData) -> float:
+    """A length holding the whole profile (``length = 'auto'``): four times its reach from 0."""
     assert isinstance(initial, init.Profile | init.Box)  # npy data need their length
     if isinstance(initial, init.Box):
         reach = initial.half_width + 20.0 * initial.edge
     else:  # sech^2 falls to 1e-18 within 21.4 scales, a Gaussian within 6.5
         reach = (21.4 if initial.shape == "sech2" else 6.5) * initial.scale
-    length = 4.0 * (abs(initial.center) + reach)
-    return Grid(min(n, PROVISIONAL_POINTS), length)
+    return 4.0 * (abs(initial.center) + reach)
+
+
+def _profile_width(initial: init.InitialData) -> float:
+    """The width a grid must resolve in the profile itself (``points = 'auto'``): the scale of
+    ``sech2`` and ``gaussian`` data, the edge of a box (inf: a sharp box or a file has none)."""
+    if isinstance(initial, init.Profile):
+        return initial.scale
+    if isinstance(initial, init.Box) and initial.edge > 0:
+        return initial.edge
+    return math.inf
 
 
 def _predicted(
@@ -1160,10 +1171,21 @@ def _content_sizing(
             "auto",
             f"a number: equation {eq.name!r} ({eq.describe()}) has no solitons to size from",
         )
-    assert tpl.points is not None  # profile data give their points (checked when read)
-    n = _given_points(ctx, tpl)
+    span = length if length is not None else _provisional_length(initial)
+    if tpl.points is not None:
+        n = _given_points(ctx, tpl)
+    elif math.isfinite(_profile_width(initial)):
+        n = sizing.auto_points(_profile_width(initial), span, eq.dealias_fraction)
+    else:
+        raise ctx.fail(
+            "model.points",
+            "auto",
+            "an even integer >= 16: a sharp box (edge = 0) has no width to resolve",
+        )
+    if length is None:
+        n = min(n, PROVISIONAL_POINTS)
     try:
-        grid = Grid(n, length) if length is not None else _provisional_grid(initial, n)
+        grid = Grid(n, span)
     except ConfigError as err:
         raise ctx.fail("model.points", n, f"an even integer >= 16 ({err})") from None
     content, u0 = _predicted(tpl, ctx, key, sized, initial, grid)
@@ -1186,14 +1208,7 @@ def _content_sizing(
 
         fraction = DEFAULT_MIN_AMPLITUDE
     floor = fraction * float(np.max(np.abs(u0)))
-    # the radiation's share of int u^2 (trace formula): the data's minus the predicted solitons'
-    line = np.linspace(-40.0, 40.0, 8001)
-    carried = sum(
-        float(np.trapezoid(form.profile(line * form.width(k), k) ** 2, line)) * form.width(k)
-        for k in content.kappas
-    )
-    total = float(np.sum(u0**2) * grid.dx)
-    share = max(0.0, 1.0 - carried / total) if total > 0 else 0.0
+    share = sizing.radiation_share(u0, grid.dx, form, [float(k) for k in content.kappas])
     limit = tpl.max_end if t_end is None else t_end
     sep = sizing.separation(items, width, form, tpl.tail, floor, limit, share)
     if sep.left_out:
@@ -1207,14 +1222,9 @@ def _content_sizing(
             detail,
         )
     if t_end is None:
-        if sep.end <= 0:
-            raise ctx.fail(
-                "run.end",
-                "auto",
-                f"a number: no predicted soliton separates by sizing.max_end = {tpl.max_end:g} "
-                f"({len(items)} predicted, {len(sep.left_out)} left out)",
-            )
-        t_end = canonical(math.ceil(sep.end / tpl.frame_every - 1e-9) * tpl.frame_every)
+        # nothing to follow (every predicted soliton left out, said above): the longest run allowed
+        end = sep.end if sep.end > 0 else tpl.max_end
+        t_end = canonical(math.ceil(end / tpl.frame_every - 1e-9) * tpl.frame_every)
     v_rad = sizing.radiation_speed(u0, grid.length, form.d, tpl.radiation, share)
     need = sizing.content_length(items, width, form, tpl.tail, v_rad, t_end, share)
     if length is None:

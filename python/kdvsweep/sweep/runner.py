@@ -217,7 +217,8 @@ def _sizing_reasons(
         for j, b in enumerate(content.breathers)
     ]
     width = sizing.extent(u0, grid.dx, spec.run.tail)
-    sep = sizing.separation(items, width, form, spec.run.tail, floor, spec.run.t_end)
+    share = sizing.radiation_share(u0, grid.dx, form, [float(k) for k in content.kappas])
+    sep = sizing.separation(items, width, form, spec.run.tail, floor, spec.run.t_end, share)
     return {(items[i].kind, items[i].index): why for i, why in sep.left_out}
 
 
@@ -301,7 +302,7 @@ def _content_rows(
     left = {(kind, int(index)): why for kind, index, why in found.left_out}
     sized = _sizing_reasons(spec, u0, grid, equation, content, floor)
     form = equation.soliton_form_or_none()
-    expected = [
+    expected: list[dict[str, Any]] = [
         {
             "kind": "soliton",
             "index": i,

@@ -212,9 +212,11 @@ def run_memory(n: int, frames: int, scheme: str) -> int:
 # must run ``FOLLOW`` times the last separation time (the late frames are fitted), and the box must
 # hold the solitons and the radiation budget without either wrapping into the solitons:
 # ``L >= W + 2 B + s + (c_max + v_rad) T``, with ``v_rad = 3 |d| k_rad^2`` the group speed of the
-# fastest radiation budgeted: waves of wavenumber ``k`` come from the data's Fourier transform at
-# ``2k`` (first Born approximation of the reflection coefficient), so ``k_rad`` is half the largest
-# wavenumber at which ``|u0_hat|`` exceeds ``radiation`` of its peak.
+# fastest radiation budgeted: the radiation's waves of wavenumber ``k`` have the amplitude of the
+# data's Fourier transform at ``k`` (exactly so in the linear limit; the reflection coefficient
+# ``b(k/2)`` follows ``u0_hat(k)`` in the first Born approximation), scaled by the square root of
+# the radiation's share of ``int u0^2`` (the trace formula: what the solitons do not carry), so
+# ``k_rad`` is the largest wavenumber at which that exceeds ``radiation`` of the data's peak.
 
 #: The record runs this many times the last separation time, so the fit has late frames (our
 #: choice: a third of the record is separated).
@@ -274,12 +276,12 @@ def extent(u: np.ndarray, dx: float, tail: float) -> float:
 def radiation_speed(
     u: np.ndarray, length: float, d: float, level: float, fraction: float = 1.0
 ) -> float:
-    """``3 |d| k_rad^2``: ``k_rad`` half the largest wavenumber where the radiation's spectrum
+    """``3 |d| k_rad^2``: ``k_rad`` the largest wavenumber where the radiation's spectrum
     exceeds ``level`` of the data's peak (module notes).
 
     The radiation carries ``fraction`` of ``int u0^2`` (the data's minus the predicted solitons',
-    the trace formula); its spectrum is taken as the data's at ``2k`` scaled by
-    ``sqrt(fraction)``, so reflectionless data (``fraction`` ~ 0) budget no radiation at all.
+    the trace formula); its spectrum is taken as the data's scaled by ``sqrt(fraction)``, so
+    reflectionless data (``fraction`` ~ 0) budget no radiation at all.
     """
     mag = np.abs(np.fft.rfft(np.asarray(u, dtype=np.float64)))
     top = float(mag.max()) if mag.size else 0.0
@@ -288,8 +290,21 @@ def radiation_speed(
     live = np.flatnonzero(mag * math.sqrt(fraction) > level * top)
     if live.size == 0:
         return 0.0
-    k_rad = 0.5 * (2.0 * math.pi / length) * float(live[-1])
+    k_rad = (2.0 * math.pi / length) * float(live[-1])
     return 3.0 * abs(d) * k_rad**2
+
+
+def radiation_share(u: np.ndarray, dx: float, form: SolitonForm, kappas: Sequence[float]) -> float:
+    """The radiation's part of ``int u0^2``: the data's minus the predicted solitons' (the trace
+    formula: Zakharov & Faddeev 1971, from memory), each soliton's ``int u^2`` integrated from
+    its profile."""
+    line = np.linspace(-40.0, 40.0, 8001)  # in widths: the sech tails are far below 1e-16 there
+    carried = sum(
+        float(np.trapezoid(form.profile(line * form.width(k), k) ** 2, line)) * form.width(k)
+        for k in kappas
+    )
+    total = float(np.sum(np.asarray(u, dtype=np.float64) ** 2) * dx)
+    return max(0.0, 1.0 - carried / total) if total > 0 else 0.0
 
 
 def _airy_reach(d: float, t: float, tail: float, share: float) -> float:
@@ -320,8 +335,9 @@ def separation(
 ) -> Separation:
     """Separation time of each item (module notes), and those left out with the reason.
 
-    ``width`` is the data's :func:`extent`; ``min_amplitude`` an absolute ``|u|``; items needing
-    more than ``max_end`` are left out; ``share`` is the radiation's part of ``int u0^2``.
+    ``width`` is the data's :func:`extent`; ``min_amplitude`` an absolute ``|u|``; items whose
+    separation time times :data:`FOLLOW` exceeds ``max_end`` are left out; ``share`` is the
+    radiation's part of ``int u0^2``.
     """
     bounds = _bounds(items)
     times: list[float] = []
@@ -347,9 +363,13 @@ def separation(
             left.append((i, f"amplitude {it.amplitude:.3g} below sizing.min_amplitude"))
         elif not it.speed > 0:
             left.append((i, f"speed {it.speed:.3g}: it stays in the radiation"))
-        elif not times[i] <= max_end:
+        elif not FOLLOW * times[i] <= max_end:
             left.append(
-                (i, f"separates only at t = {times[i]:.4g}, after the end allowed ({max_end:g})")
+                (
+                    i,
+                    f"separates at t = {times[i]:.4g}; following it needs end = "
+                    f"{FOLLOW * times[i]:.4g} > {max_end:g}",
+                )
             )
     gone = {i for i, _ in left}
     followed = [times[i] for i in range(len(items)) if i not in gone]
@@ -398,6 +418,7 @@ __all__ = [
     "nice_ceil",
     "nonlinear_rate",
     "points_needed",
+    "radiation_share",
     "radiation_speed",
     "run_memory",
     "separation",
