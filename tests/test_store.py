@@ -112,7 +112,8 @@ def test_each_run_is_stored_once(tmp_path: Path) -> None:
 
 
 def test_duplicate_rows_in_parts_are_read_once(tmp_path: Path) -> None:
-    # Should two parts ever hold a run (a second writer that bypassed the lock), the first wins.
+    # Should two parts ever hold a run (here a part made by hand, without a batch record, which
+    # is not counted at all), the first stored row wins.
     sweep = make_sweep(tmp_path)
     out = tmp_path / "out"
     with Store.open(out, sweep) as store:

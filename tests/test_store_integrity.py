@@ -252,28 +252,38 @@ def test_foreign_and_duplicate_rows_are_ignored_with_a_message(
     out = tmp_path / "out"
     with Store.open(out, sweep) as store:
         store.write([result(s) for s in sweep.runs[:2]])
-    schema = sweep.layout.schema("runs")
-    rows = [dict(result(sweep.runs[0]).run_row), dict(result(sweep.runs[1]).run_row)]
-    rows[0]["run_id"] = 99  # outside the sweep
-    rows[1]["steps"] = 999  # a second row of a stored run
-    pq.write_table(pa.Table.from_pylist(rows, schema=schema), out / "runs" / "part-000007.parquet")
+    # A batch copied from the store of a larger sweep (same columns): runs 0, 6 and 7.
+    larger = make_sweep(tmp_path / "larger", 8)
+    with Store.open(tmp_path / "larger-out", larger) as store:
+        store.write([result(larger.runs[i]) for i in (0, 6, 7)])
+    for table in ("runs", "solitons"):
+        copied = (tmp_path / "larger-out" / table / "part-000000.parquet").read_bytes()
+        (out / table / "part-000007.parquet").write_bytes(copied)
+    # A part made by hand (no batch record) with a run not stored yet.
+    row = result(sweep.runs[2]).run_row
+    hand = pa.Table.from_pylist([row], schema=sweep.layout.schema("runs"))
+    pq.write_table(hand, out / "runs" / "part-000008.parquet")
 
     res = load(out)
     assert list(res.runs["run_id"]) == [0, 1]
     assert list(res.runs["steps"]) == [100, 101]
+    assert list(res.solitons["run_id"]) == [0, 0, 1, 1]
     assert res.counts() == {"ok": 2, "failed": 0, "pending": 4, "total": 6}
     ignored = res.check.ignored if res.check is not None else []
-    assert len(ignored) == 2
-    assert "outside the sweep (0..5) ignored" in ignored[0]
-    assert "stored before ignored" in ignored[1]
+    assert len(ignored) == 3
+    assert "part-000007.parquet: 2 row(s) of a run_id outside the sweep (0..5)" in ignored[0]
+    assert "part-000007.parquet: 1 row(s) of runs stored before ignored" in ignored[1]
+    assert "part-000008.parquet: no batch record" in ignored[2]
 
     assert cli.main(["status", str(out)]) == 0
     got = capsys.readouterr().out
     assert "pending 4" in got
-    assert sum(line.startswith("ignored ") for line in got.splitlines()) == 2
+    assert sum(line.startswith("ignored ") for line in got.splitlines()) == 3
     with Store.open(out, sweep) as store:
-        assert len(store.ignored) == 2
+        assert len(store.ignored) == 3
         assert [s.run_id for s in store.pending(sweep.runs)] == [2, 3, 4, 5]
+        with pytest.raises(ConfigError, match=r"run_id 7; expected a run of this sweep \(0..5\)"):
+            store.write([result(larger.runs[7])])
         assert store.write([result(s) for s in sweep.runs]) == 4
     assert list(read_table(out, "runs")["run_id"]) == list(range(6))
 

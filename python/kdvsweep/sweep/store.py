@@ -21,7 +21,8 @@ written or checked, and the manifest is written last when a store is made, so a 
 only the lock, empty table folders or temporary files is a store that was never finished.
 
 Each runs part carries in its Parquet metadata the record of its batch: the row count, size and
-SHA-256 of the batch's solitons part. Opening a store for writing checks every committed batch
+SHA-256 of the batch's solitons part; a runs part without one was not written by kdvsweep and
+is ignored (and reported). Opening a store for writing checks every committed batch
 (readable Parquet with the store's columns, page checksums, the solitons part as recorded); a
 batch that is not whole is set aside (its files renamed ``part-NNNNNN.parquet.damaged``, the runs
 part first, which uncommits it) and its runs are pending again. Readers report such batches
@@ -266,6 +267,10 @@ class _Broken(Exception):
     """A part that is not whole (internal: becomes a :class:`Damage`)."""
 
 
+class _Foreign(Exception):
+    """A whole runs part without a batch record: not written by kdvsweep (internal)."""
+
+
 @dataclass(frozen=True)
 class Damage:
     """A committed batch whose files are not whole: its runs count as pending.
@@ -400,13 +405,12 @@ def _batch(out: Path, seq: int, runs_path: Path, lay: Layout) -> tuple[pa.Table,
         record = _record(runs)
     except _Broken as exc:
         raise _Broken(runs_path, str(exc)) from None
+    if record is None:  # every part this store format writes has one
+        raise _Foreign(runs.num_rows)
     sol_path = out / "solitons" / runs_path.name
     solitons: pa.Table | None = None
     try:
-        if record is None:  # an older part: what can be checked without a record
-            if sol_path.exists():
-                solitons = _parse(_read_bytes(sol_path), lay.schema("solitons"))
-        elif record["rows"]:
+        if record["rows"]:
             try:
                 data = _read_bytes(sol_path)
             except FileNotFoundError:
@@ -444,6 +448,12 @@ def _scan(
         try:
             runs, solitons = _batch(out, seq, path, lay)
         except FileNotFoundError:  # set aside meanwhile by a writer: not committed any more
+            continue
+        except _Foreign as exc:
+            check.ignored.append(
+                f"runs/{path.name}: no batch record, so not written by kdvsweep; its "
+                f"{exc.args[0]} row(s) ignored"
+            )
             continue
         except _Broken as exc:
             where, problem = exc.args if len(exc.args) == 2 else (path, str(exc))
@@ -715,7 +725,13 @@ class Store:
             A file could not be written (full disk...): nothing of the batch is committed.
         """
         fresh: dict[int, RunResult] = {}
+        total = int(self.manifest["runs_total"])
         for res in results:
+            if not 0 <= res.run_id < total:
+                raise ConfigError(
+                    f"{self.out}: result of run_id {res.run_id}; expected a run of this sweep "
+                    f"(0..{total - 1})"
+                )
             if res.run_id not in self._done and res.run_id not in fresh:
                 fresh[res.run_id] = res
         if not fresh:
