@@ -13,6 +13,7 @@ __all__ = [
     "invariants",
     "kdv_multisoliton",
     "mkdv_multisoliton",
+    "simulation_memory",
 ]
 
 SCHEMES: list[str]
@@ -93,3 +94,4 @@ def mkdv_multisoliton(
     d: float,
 ) -> NDArray[np.float64]: ...
 def fft_floor(n: int, forward: int, inverse: int, repeats: int) -> float: ...
+def simulation_memory(n: int) -> int: ...

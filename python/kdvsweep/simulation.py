@@ -233,6 +233,17 @@ class Simulation:
         )
 
 
+def memory_needed(n: int, frames: int = 0) -> int:
+    """An upper bound of the bytes a run of ``n`` points that records ``frames`` frames allocates.
+
+    The core's bound for a :class:`Simulation` (stage buffers, cached step coefficients and FFT
+    plans; any scheme) plus the recorded frames (``frames * n`` float64 values). The core refuses
+    a grid or a record whose memory cannot be reserved with
+    :class:`~kdvsweep.exceptions.OutOfMemoryError`.
+    """
+    return _core.simulation_memory(int(n)) + 8 * int(frames) * int(n)
+
+
 def invariants(u: object, grid: Grid, equation: Equation) -> dict[str, float]:
     """The first three conserved quantities of a profile, computed spectrally.
 
@@ -253,5 +264,6 @@ __all__ = [
     "SCHEMES",
     "Simulation",
     "invariants",
+    "memory_needed",
     "step_options",
 ]

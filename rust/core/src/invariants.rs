@@ -11,6 +11,7 @@ use realfft::RealFftPlanner;
 use crate::equation::Equation;
 use crate::error::{CoreError, Result};
 use crate::grid::Grid;
+use crate::memory::{try_copy, try_filled};
 use crate::spectral::Transforms;
 
 /// Mass, momentum and energy of one profile.
@@ -27,7 +28,8 @@ pub struct Invariants {
 /// The invariants of the profile `u` on `grid` for `eq`. Allocates (not for use inside a step).
 ///
 /// # Errors
-/// [`CoreError::ShapeMismatch`] if `u` does not have `n` values.
+/// [`CoreError::ShapeMismatch`] if `u` does not have `n` values; [`CoreError::OutOfMemory`] if
+/// the transforms cannot be allocated.
 pub fn invariants(u: &[f64], grid: &Grid, eq: &Equation) -> Result<Invariants> {
     let n = grid.n();
     if u.len() != n {
@@ -38,9 +40,9 @@ pub fn invariants(u: &[f64], grid: &Grid, eq: &Equation) -> Result<Invariants> {
         });
     }
     let c = eq.coefficients();
-    let mut tr = Transforms::new(&mut RealFftPlanner::new(), n);
-    let mut buf = u.to_vec();
-    let mut spec = vec![Complex64::new(0.0, 0.0); grid.modes()];
+    let mut tr = Transforms::try_new(&mut RealFftPlanner::new(), n)?;
+    let mut buf = try_copy("the profile", u)?;
+    let mut spec = try_filled("the spectrum", grid.modes(), Complex64::new(0.0, 0.0))?;
     tr.forward(&mut buf, &mut spec)?;
     let k = grid.wavenumbers();
     let last = spec.len() - 1;

@@ -11,6 +11,12 @@ use realfft::{ComplexToReal, RealFftPlanner, RealToComplex};
 use crate::equation::Equation;
 use crate::error::{CoreError, Result};
 use crate::grid::Grid;
+use crate::memory::{bytes_of, ensure_available};
+
+/// Complex values per grid point that a pair of plans (forward and inverse) with their scratch
+/// may hold: measured near 4 for sizes whose half has a large prime factor (padded transforms),
+/// near 1.5 for powers of two; 6 leaves room.
+const PLAN_VALUES_PER_POINT: u128 = 6;
 
 /// What a nonlinear evaluation saw of the physical field it transformed.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -30,6 +36,21 @@ pub struct Transforms {
 }
 
 impl Transforms {
+    /// An upper bound of the bytes held by the transforms of `n` points.
+    pub fn memory_bound(n: usize) -> u128 {
+        bytes_of::<Complex64>(PLAN_VALUES_PER_POINT * n as u128)
+    }
+
+    /// As [`Transforms::new`], after checking that [`Transforms::memory_bound`] bytes can be
+    /// reserved (the plans allocate infallibly).
+    ///
+    /// # Errors
+    /// [`CoreError::OutOfMemory`] otherwise.
+    pub fn try_new(planner: &mut RealFftPlanner<f64>, n: usize) -> Result<Self> {
+        ensure_available("the FFT plans", Self::memory_bound(n))?;
+        Ok(Self::new(planner, n))
+    }
+
     /// Plans for `n` points.
     pub fn new(planner: &mut RealFftPlanner<f64>, n: usize) -> Self {
         let r2c = planner.plan_fft_forward(n);

@@ -134,6 +134,6 @@ fn an_impossible_grid_is_refused_before_anything_is_allocated() {
         );
         assert!(err
             .to_string()
-            .starts_with("out of memory: cannot allocate 400.00 TiB"));
+            .starts_with("out of memory: cannot allocate 464.00 TiB"));
     }
 }

@@ -299,8 +299,17 @@ fn fft_floor(
         .map_err(to_py)
 }
 
+/// An upper bound of the bytes a ``Simulation`` of ``n`` points allocates, any scheme (stage
+/// buffers, cached step coefficients and FFT plans; the recorded frames come on top, 8 bytes a
+/// value). The core refuses a grid when this much memory cannot be reserved.
+#[pyfunction]
+fn simulation_memory(n: usize) -> u128 {
+    kc::simulation::memory_bound(n)
+}
+
 /// The compiled core of kdvsweep: the ``Simulation`` stepper, spectral ``invariants``, the core's
-/// ``dealias_fraction`` rule, exact KdV/mKdV multi-solitons, an FFT timing floor, and ``SCHEMES``
+/// ``dealias_fraction`` rule, exact KdV/mKdV multi-solitons, an FFT timing floor, the memory bound
+/// ``simulation_memory``, and ``SCHEMES``
 /// (the names of the time-stepping schemes, in documented order).
 #[pymodule]
 fn _core(m: &Bound<'_, PyModule>) -> PyResult<()> {
@@ -310,6 +319,7 @@ fn _core(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_function(wrap_pyfunction!(kdv_multisoliton, m)?)?;
     m.add_function(wrap_pyfunction!(mkdv_multisoliton, m)?)?;
     m.add_function(wrap_pyfunction!(fft_floor, m)?)?;
+    m.add_function(wrap_pyfunction!(simulation_memory, m)?)?;
     m.add("SCHEMES", kc::Scheme::ALL.map(|s| s.name()).to_vec())?;
     Ok(())
 }
