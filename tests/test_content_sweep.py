@@ -282,3 +282,57 @@ def test_content_sizing_errors_are_one_line(
     assert "\n" not in message
     for fragment in fragments:
         assert fragment in message, message
+
+
+def test_a_breather_is_stored_with_its_predicted_values(tmp_path: Path) -> None:
+    # Focusing mKdV u_t + 6 u^2 u_x + u_xxx = 0: opposite humps 2 (sech(x - 1) - sech(x + 1))
+    # carry one complex Zakharov-Shabat pair (no soliton): a breather of envelope velocity
+    # 4 (eta^2 - 3 xi^2) (Wadati 1973 [memory]). Too short a run to separate it: it is stored
+    # as predicted, left out, with the reason.
+    grid = kv.Grid(2048, 80.0)
+    np.save(tmp_path / "dipole.npy", 2.0 * (1 / np.cosh(grid.x - 1) - 1 / np.cosh(grid.x + 1)))
+    text = f"""
+[model]
+equation = "mkdv"
+points = 2048
+length = {grid.length!r}
+scheme = "etdrk4"
+dt = 2e-4
+
+[initial]
+kind = "npy"
+file = "dipole.npy"
+
+[run]
+end = 1.0
+frame_every = 0.1
+"""
+    res = load(make_store(tmp_path, text, "dipole"))
+    (row,) = res.runs.to_dict("records")
+    assert row["status"] == "ok", row["reason"]
+    assert (row["ist_count"], row["ist_breathers"], row["left_out"]) == (0, 1, 1)
+    assert list(row["ist_kappas"]) == []
+    (b,) = res.solitons.to_dict("records")
+    assert b["kind"] == "breather"
+    assert not b["found"]
+    assert b["note"].startswith("left out: ")
+    eta, xi = b["kappa_ist"], b["xi_ist"]
+    assert 0 < xi < eta
+    assert b["speed_ist"] == pytest.approx(4.0 * (eta**2 - 3.0 * xi**2), rel=1e-12)
+
+
+def test_breathers_and_solitons_carry_all_of_a_reflectionless_record() -> None:
+    # Trace formula (Zakharov & Shabat 1972 [memory]): int q^2 dx = 4 sum Im(zeta) over the
+    # eigenvalues in the upper half plane, so a soliton carries 4 kappa and a breather (a
+    # conjugate pair) 8 eta; an exact soliton plus a breather far apart leave no radiation.
+    from kdvsweep.analysis.content import breather_profile
+
+    grid = kv.Grid(4096, 200.0)
+    form = kv.Equation.mkdv().soliton_form
+    u = form.profile(grid.x, 0.7, 40.0) + breather_profile(grid.x, 0.9, 0.3, centre=-40.0)
+    assert float(np.sum(u**2) * grid.dx) == pytest.approx(4 * 0.7 + 8 * 0.9, rel=1e-9)
+    share = sizing.radiation_share(u, grid.dx, form, [0.7], [(0.9, 0.3)])
+    assert share < 1e-9
+    assert sizing.radiation_speed(u, grid.length, 1.0, 1e-4, share) == 0.0
+    # without the breather, its int u^2 counts as radiation
+    assert sizing.radiation_share(u, grid.dx, form, [0.7]) == pytest.approx(7.2 / 10.0, rel=1e-9)

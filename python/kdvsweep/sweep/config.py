@@ -1208,7 +1208,13 @@ def _content_sizing(
 
         fraction = DEFAULT_MIN_AMPLITUDE
     floor = fraction * float(np.max(np.abs(u0)))
-    share = sizing.radiation_share(u0, grid.dx, form, [float(k) for k in content.kappas])
+    share = sizing.radiation_share(
+        u0,
+        grid.dx,
+        form,
+        [float(k) for k in content.kappas],
+        [(b.kappa, b.xi) for b in content.breathers],
+    )
     limit = tpl.max_end if t_end is None else t_end
     sep = sizing.separation(items, width, form, tpl.tail, floor, limit, share)
     if sep.left_out:

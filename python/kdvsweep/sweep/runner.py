@@ -217,7 +217,13 @@ def _sizing_reasons(
         for j, b in enumerate(content.breathers)
     ]
     width = sizing.extent(u0, grid.dx, spec.run.tail)
-    share = sizing.radiation_share(u0, grid.dx, form, [float(k) for k in content.kappas])
+    share = sizing.radiation_share(
+        u0,
+        grid.dx,
+        form,
+        [float(k) for k in content.kappas],
+        [(b.kappa, b.xi) for b in content.breathers],
+    )
     sep = sizing.separation(items, width, form, spec.run.tail, floor, spec.run.t_end, share)
     return {(items[i].kind, items[i].index): why for i, why in sep.left_out}
 

@@ -294,14 +294,28 @@ def radiation_speed(
     return 3.0 * abs(d) * k_rad**2
 
 
-def radiation_share(u: np.ndarray, dx: float, form: SolitonForm, kappas: Sequence[float]) -> float:
-    """The radiation's part of ``int u0^2``: the data's minus the predicted solitons' (the trace
-    formula: Zakharov & Faddeev 1971, from memory), each soliton's ``int u^2`` integrated from
-    its profile."""
+def radiation_share(
+    u: np.ndarray,
+    dx: float,
+    form: SolitonForm,
+    kappas: Sequence[float],
+    breathers: Sequence[tuple[float, float]] = (),
+) -> float:
+    """The radiation's part of ``int u0^2``: the data's minus the predicted solitons' and
+    breathers' (``(eta, xi)`` each; the trace formula: Zakharov & Faddeev 1971, from memory),
+    each one's ``int u^2`` integrated from its profile (a breather's is the same at every phase).
+    """
+    from ..analysis.content import breather_profile
+
     line = np.linspace(-40.0, 40.0, 8001)  # in widths: the sech tails are far below 1e-16 there
     carried = sum(
         float(np.trapezoid(form.profile(line * form.width(k), k) ** 2, line)) * form.width(k)
         for k in kappas
+    )
+    carried += sum(
+        float(np.trapezoid(breather_profile(line * w, eta, xi, alpha=form.alpha) ** 2, line)) * w
+        for eta, xi in breathers
+        for w in (form.width(eta),)
     )
     total = float(np.sum(np.asarray(u, dtype=np.float64) ** 2) * dx)
     return max(0.0, 1.0 - carried / total) if total > 0 else 0.0
