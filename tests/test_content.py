@@ -234,3 +234,31 @@ def test_breather_profile_solves_mkdv() -> None:
     exact = breather_profile(grid.x, eta, xi, envelope * t, -omega * t)
     assert float(np.max(np.abs(state - exact))) < 1e-5
     assert math.isclose(omega, 16.0 * xi * (eta**2 + xi**2))
+
+
+def test_perturbed_breather_matches_its_eigenvalue_pair() -> None:
+    # Wadati 1973; Lamb 1980 [memory]: a complex ZS pair zeta = +-xi + i eta is a breather whose
+    # envelope moves at 4 (eta^2 - 3 xi^2) and whose phase turns at 16 xi (eta^2 + xi^2) in the
+    # envelope's frame (kdvsweep.spectrum.breather_speeds). Data: 1.05 times the exact breather
+    # (eta, xi) = (1, 0.3), which bound_states says carries one pair (1.102, 0.266) and no
+    # soliton. n = 4096 on L = 320, dt = 1e-4, end 4, 81 frames, x0 = -80 (the radiation moves
+    # left at up to ~3 (2 eta)^2 and must not reach the breather across the boundary).
+    case = simulate(
+        lambda x: 1.05 * breather_profile(x, 1.0, 0.3), MKDV, 4096, 320.0, 4.0, 80, 1e-4, -80.0
+    )
+    predicted = case.predicted
+    assert len(predicted) == 0
+    assert len(predicted.breathers) == 1
+    pair = predicted.breathers[0]
+    assert abs(pair.kappa - 1.0) > 0.05  # not the exact breather: radiation is shed
+    content = measure(case, MKDV)
+    assert content.all_found
+    assert content.solitons == ()
+    (found,) = content.breathers
+    assert found.kind == "breather"
+    assert abs(found.speed / pair.envelope_speed - 1.0) < 1e-3
+    assert abs(found.frequency / pair.frequency - 1.0) < 1e-3
+    assert abs(found.kappa_measured / pair.kappa - 1.0) < 1e-3
+    assert abs(found.xi_measured / pair.xi - 1.0) < 1e-2
+    assert found.frequency_uncertainty > 0
+    assert content.radiation["momentum"] > 0

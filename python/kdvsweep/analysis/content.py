@@ -2,29 +2,37 @@
 
 API
 ---
-``measure_content(frames, times, grid, equation, predicted=None, *, min_amplitude=None)``
-returns a :class:`ContentMeasurement`:
+``measure_content(frames, times, grid, equation, predicted=None, *, min_amplitude=None,
+left_out=None)`` returns a :class:`ContentMeasurement`. ``predicted`` is
+:func:`kdvsweep.spectrum.bound_states` of the first frame (or None); ``min_amplitude`` is a
+*fraction* of ``max |u|`` of the first frame (default :data:`DEFAULT_MIN_AMPLITUDE`);
+``left_out`` maps ``(kind, index)`` of predicted items to the caller's reason for leaving them out
+(e.g. the run's sizing says they separate only after the end).
 
 * ``emerging``: one :class:`EmergingSoliton` per soliton or breather found in the late frames,
-  solitons largest first, then breathers largest first. Fields: ``kind`` (``"soliton"`` or
-  ``"breather"``), ``sign`` (polarity, +1 elevation, -1 depression; 0 for a breather),
-  ``kappa_measured`` (from the fitted shape), ``amplitude`` (peak ``|u|`` of the fitted shape;
-  a breather's envelope peak ``|alpha| 4 eta``), ``speed`` (asymptotic speed of the fitted
-  centre; a breather's envelope speed), each with ``*_uncertainty``; ``frequency`` and
-  ``frequency_uncertainty`` (breathers: the internal frequency in the envelope frame; NaN for
-  solitons), ``xi_measured`` (breathers), ``t_separated`` (the time from which the soliton stands
-  clear of the others and of the radiation), ``track_times`` and ``track_centres`` (its fitted
-  centre per frame from ``t_separated`` on, unwrapped: for figures), and the predicted values it
-  was matched to (``predicted_index``, ``kappa_predicted``, ``amplitude_predicted``,
-  ``speed_predicted``, ``frequency_predicted``; -1 and NaN when unmatched).
-* ``n_measured``, ``n_predicted``, ``all_found`` (every predicted soliton or breather that was not
-  left out was found), ``left_out`` (``(kind, index, reason)`` for each predicted one not expected
-  in the record: below ``min_amplitude``, or too slow to separate before the record ends).
+  solitons largest first, then breathers largest first (also ``.solitons``, ``.breathers``).
+  Fields: ``kind`` (``"soliton"`` or ``"breather"``), ``sign`` (polarity, +1 elevation, -1
+  depression; 0 for a breather), ``kappa_measured`` (from the fitted shape; a breather's
+  ``eta``), ``amplitude`` (peak ``|u|`` of the fitted shape; a breather's ``|alpha| 4 eta``),
+  ``speed`` (asymptotic speed of the fitted centre; a breather's envelope speed), each with
+  ``*_uncertainty``; ``xi_measured``, ``frequency`` and their uncertainties (breathers: the
+  internal frequency in the envelope frame; NaN for solitons), ``t_separated`` (the time from
+  which it stands clear of the others and of the radiation), ``track_times`` and
+  ``track_centres`` (its fitted centre per frame from ``t_separated`` on, unwrapped: for
+  figures), ``frames_late``, and the prediction it was matched to (``predicted_index``,
+  ``kappa_predicted``, ``amplitude_predicted``, ``speed_predicted``, ``frequency_predicted``;
+  -1 and NaN when unmatched).
+* ``n_measured``, ``n_predicted`` (solitons plus breathers), ``all_found`` (every predicted
+  item not left out was matched within :data:`MATCH_TOLERANCE`), ``left_out`` (``(kind, index,
+  reason)``: below ``min_amplitude``, moving into the radiation, too slow to leave the data within
+  the record, or the caller's reason; a slow one that is found anyway is matched, not left out).
 * ``data`` (mass, momentum ``int u^2``, energy of the first frame), ``radiation`` (the same of the
-  last frame minus those of the fitted solitons and breathers), ``radiation_predicted`` (the data's
-  minus the predicted solitons' and breathers': the trace-formula check), ``radiation_l2``
-  (``int r^2 dx`` of the last frame minus the fitted shapes), ``status`` and ``reason``.
-* :meth:`ContentMeasurement.table` gives one row per emerging soliton or breather.
+  last frame minus those of the fitted shapes) with ``radiation_uncertainty``,
+  ``radiation_predicted`` (the data's minus the predicted shapes': the trace-formula check),
+  ``radiation_l2`` (``int r^2 dx`` of the last frame minus the fitted shapes), ``min_amplitude``
+  (absolute), ``status`` (``"ok"`` or ``"failed"``) and ``reason``.
+* :meth:`ContentMeasurement.table`: one row per emerging item, columns
+  :data:`CONTENT_TABLE_COLUMNS`.
 
 Method
 ------
@@ -34,9 +42,10 @@ fitted to it by least squares with free ``kappa`` and centre over a window of a 
 candidate whose shape does not match (relative residual above ``SHAPE_TOLERANCE``) is radiation or
 a breather. Each soliton is then followed back frame by frame from its fitted speed; it is
 *separated* from the first frame after which every fit stays clean and its ``kappa`` stays within
-``SEPARATION_TOLERANCE`` of the last. The *late* frames are the second half of the separated ones:
-the amplitude is the mean of their fits, its uncertainty the spread over them plus the fit's
-standard error; the speed is the slope of their centres, its uncertainty the slope's standard
+``SEPARATION_TOLERANCE`` (or ``SEPARATION_SIGMAS`` fit errors) of the last. A bump that does not
+move at the speed its fitted ``kappa`` implies (``SPEED_TOLERANCE``) is radiation. The *late*
+frames are the second half of the separated ones: the amplitude is the mean of their fits, its
+uncertainty the spread over them plus the fit's standard error; the speed is the slope of their centres, its uncertainty the slope's standard
 error plus the change between the two halves.
 
 Breathers (focusing mKdV, a complex pair ``zeta = +-xi + i eta``): in the canonical
@@ -44,8 +53,11 @@ Breathers (focusing mKdV, a complex pair ``zeta = +-xi + i eta``): in the canoni
 ``b = 2 xi``, ``theta = b (x - (3 a^2 - b^2) t)``, ``R = a (x - (a^2 - 3 b^2) t)`` (Wadati 1973;
 Lamb 1980, from memory); in the envelope frame the phase turns at
 ``omega = b (v_carrier - v_envelope) = 2 b (a^2 + b^2) = 16 xi (eta^2 + xi^2)``, times ``d`` for a
-general equation (``t' = d t``): :func:`kdvsweep.spectrum.breather_speeds`. The exact breather is fitted (``eta``, ``xi``, centre, phase) to
-the late frames.
+general equation (``t' = d t``): :func:`kdvsweep.spectrum.breather_speeds`. Breathers are searched
+in what the solitons leave of the last frame, started from the residual's energy (``int u^2 = 8 eta
+alpha^2``), centroid and dominant wavenumber (``2 xi``); the exact breather is fitted (``eta``,
+``xi``, centre, phase) to every separated frame, its envelope speed is the slope of the centre
+and its frequency minus the slope of the phase (unwrapped against its prediction).
 
 Radiation invariants use :func:`kdvsweep.simulation.invariants` of the fitted shapes, placed on the
 grid; for canonical KdV they are the exact soliton values mass ``4 kappa`` and ``int u^2 =
@@ -611,19 +623,13 @@ def _measure(fol: _Followed, t: np.ndarray, form: SolitonForm) -> EmergingSolito
         expected = float(form.speed(kappa))
         if not abs(speed / expected - 1.0) <= SPEED_TOLERANCE:
             return None  # a hump of radiation: it does not move like a soliton of its height
-        extra: dict[str, float] = {}
+        xi = xi_u = spin = spin_u = math.nan
     else:
         amplitude = abs(form.alpha) * 4.0 * kappa
         amplitude_u = abs(form.alpha) * 4.0 * kappa_u
         xi, xi_u = _mean(params[late, 1], errors[late, 1])
         spin, spin_u = _slope(tt[late], params[late, 3])
-        extra = {
-            "xi_measured": xi,
-            "xi_uncertainty": xi_u,
-            "frequency": -spin,
-            "frequency_uncertainty": spin_u,
-        }
-    measured = EmergingSoliton(
+    return EmergingSoliton(
         kind=kind,
         sign=fol.shape.sign if kind == "soliton" else 0,
         kappa_measured=kappa,
@@ -636,8 +642,11 @@ def _measure(fol: _Followed, t: np.ndarray, form: SolitonForm) -> EmergingSolito
         track_times=tt,
         track_centres=params[:, ci].copy(),
         frames_late=int(late.sum()),
+        xi_measured=xi,
+        xi_uncertainty=xi_u,
+        frequency=-spin,
+        frequency_uncertainty=spin_u,
     )
-    return replace(measured, **extra) if extra else measured
 
 
 # ----------------------------------------------------------------------------- invariants, matching
