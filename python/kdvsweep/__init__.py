@@ -6,7 +6,16 @@ A Rust pseudo-spectral core stepped from Python; see the README for the job and 
 import importlib.metadata
 
 from . import analysis, exact, initial, spectrum, sweep, theory
-from .exceptions import ConfigError, KdvsweepError, NumericalError, ShapeError, StoreBusyError
+from .exceptions import (
+    ConfigError,
+    KdvsweepError,
+    NumericalError,
+    OutOfMemoryError,
+    ShapeError,
+    StoreBusyError,
+    StoreError,
+    TimeLimitError,
+)
 from .model import Equation, Grid
 from .results import Results, load
 from .simulation import SCHEMES, Simulation, invariants
@@ -20,10 +29,13 @@ __all__ = [
     "Grid",
     "KdvsweepError",
     "NumericalError",
+    "OutOfMemoryError",
     "Results",
     "ShapeError",
     "Simulation",
     "StoreBusyError",
+    "StoreError",
+    "TimeLimitError",
     "__version__",
     "analysis",
     "exact",

@@ -31,6 +31,11 @@ class OutOfMemoryError(KdvsweepError, MemoryError):
     memory needed."""
 
 
+class StoreError(KdvsweepError, OSError):
+    """The store's folder cannot be read or written (full disk, no permission...); the message
+    names the path and what to do."""
+
+
 class StoreBusyError(KdvsweepError, RuntimeError):
     """Another process is writing to the store (it holds the store's lock)."""
 
@@ -42,5 +47,6 @@ __all__ = [
     "OutOfMemoryError",
     "ShapeError",
     "StoreBusyError",
+    "StoreError",
     "TimeLimitError",
 ]

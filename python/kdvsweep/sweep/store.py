@@ -55,7 +55,7 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 
 from ..columns import PARAMETER_TYPES, Layout, reserved_names
-from ..exceptions import ConfigError, KdvsweepError, StoreBusyError
+from ..exceptions import ConfigError, StoreBusyError, StoreError
 from .config import RunSpec, Sweep
 from .runner import RunResult
 
@@ -105,7 +105,7 @@ def _fsync_dir(folder: Path) -> None:
         os.close(fd)
 
 
-def io_error(path: Path, exc: OSError, doing: str = "write") -> KdvsweepError:
+def io_error(path: Path, exc: OSError, doing: str = "write") -> StoreError:
     """A one-line error for an operating-system failure on ``path``, with what to do about it."""
     reason = exc.strerror or str(exc) or type(exc).__name__
     if exc.errno in (errno.ENOSPC, errno.EDQUOT):
@@ -117,7 +117,7 @@ def io_error(path: Path, exc: OSError, doing: str = "write") -> KdvsweepError:
         advice = "expected a folder you may write to; choose another output folder with --out"
     else:
         advice = "fix the cause, then run the same command again: what is stored is whole"
-    return KdvsweepError(f"{path}: cannot {doing} ({reason}); {advice}")
+    return StoreError(f"{path}: cannot {doing} ({reason}); {advice}")
 
 
 def write_atomic(path: Path, data: bytes, sync_dir: bool = True) -> None:
@@ -129,7 +129,7 @@ def write_atomic(path: Path, data: bytes, sync_dir: bool = True) -> None:
 
     Raises
     ------
-    KdvsweepError
+    StoreError
         The file could not be written (full disk, no permission...); the temporary file is
         removed and ``path`` is left as it was.
     """
