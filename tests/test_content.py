@@ -52,13 +52,15 @@ def simulate(
     frames: int,
     dt: float,
     x0: float,
+    prediction_grid: kv.Grid = PREDICTION_GRID,
 ) -> Case:
-    """``profile(x - x0)`` stepped by ETDRK4 to ``end``, ``frames + 1`` equally spaced frames."""
+    """``profile(x - x0)`` stepped by ETDRK4 to ``end``, ``frames + 1`` equally spaced frames, and
+    bound_states of ``profile`` on ``prediction_grid``."""
     grid = kv.Grid(n, length)
     u0 = profile(grid.x - x0)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")  # resolution notes of the small prediction grid
-        predicted = bound_states(profile(PREDICTION_GRID.x), PREDICTION_GRID, equation)
+        predicted = bound_states(profile(prediction_grid.x), prediction_grid, equation)
     sim = kv.Simulation(grid, equation, scheme="etdrk4", dt=dt)
     sim.set_state(u0)
     times = np.linspace(0.0, end, frames + 1)
@@ -177,6 +179,24 @@ def test_gaussian_content_matches_the_spectrum() -> None:
     for e in content.solitons:
         assert abs(e.amplitude / e.amplitude_predicted - 1.0) < 1e-3
         assert abs(e.speed / e.speed_predicted - 1.0) < 1e-3
+
+
+def test_box_content_matches_the_spectrum() -> None:
+    # Gardner, Greene, Kruskal & Miura 1967, as for the Gaussian. A box of height 4 and half-width
+    # 1.5 with tanh edges of width 0.3: kappa ~ 1.82, 1.25. Grid needed: n = 4096 on L = 160
+    # (dx = 0.039); the prediction is on the same spacing (the samples define the potential).
+    # dt = 2.5e-4, end 3, x0 = -40.
+    def box(x: np.ndarray) -> np.ndarray:
+        return 2.0 * (np.tanh((x + 1.5) / 0.3) - np.tanh((x - 1.5) / 0.3))
+
+    case = simulate(box, KDV, 4096, 160.0, 3.0, 60, 2.5e-4, -40.0, kv.Grid(1024, 40.0))
+    content = measure(case, KDV)
+    assert len(content.predicted) == 2  # type: ignore[arg-type]
+    assert len(content.solitons) == 2
+    assert content.all_found
+    for e in content.solitons:
+        assert abs(e.amplitude / e.amplitude_predicted - 1.0) < 1e-3
+    assert content.radiation_predicted["momentum"] > 0
 
 
 def test_content_does_not_depend_on_the_frame_interval() -> None:

@@ -45,8 +45,8 @@ a breather. Each soliton is then followed back frame by frame from its fitted sp
 ``SEPARATION_TOLERANCE`` (or ``SEPARATION_SIGMAS`` fit errors) of the last. A bump that does not
 move at the speed its fitted ``kappa`` implies (``SPEED_TOLERANCE``) is radiation. The *late*
 frames are the second half of the separated ones: the amplitude is the mean of their fits, its
-uncertainty the spread over them plus the fit's standard error; the speed is the slope of their centres, its uncertainty the slope's standard
-error plus the change between the two halves.
+uncertainty the spread over them plus the fit's standard error; the speed is the slope of their
+centres, its uncertainty the slope's standard error plus the change between the two halves.
 
 Breathers (focusing mKdV, a complex pair ``zeta = +-xi + i eta``): in the canonical
 ``u_t + 6 u^2 u_x + u_xxx = 0``, ``u = 2 d/dx arctan[(a/b) cos(theta) / cosh(R)]``, ``a = 2 eta``,
