@@ -282,3 +282,30 @@ def test_perturbed_breather_matches_its_eigenvalue_pair() -> None:
     assert abs(found.xi_measured / pair.xi - 1.0) < 1e-2
     assert found.frequency_uncertainty > 0
     assert content.radiation["momentum"] > 0
+
+
+def test_small_and_slow_predicted_solitons_are_left_out_with_a_reason() -> None:
+    # The lam = 1.8 well (kappa 1.8, 0.8; max u0 = 5.04) cut at t = 1: the kappa = 0.8 soliton
+    # (speed 2.56) has not left the data, so it is left out, saying what end it needs; with
+    # min_amplitude 0.3 (1.51 > its amplitude 1.28) it is left out for its amplitude instead.
+    case, _ = fractional_well()
+    early = measure_content(case.frames[:11], case.times[:11], case.grid, KDV, case.predicted)
+    assert [(kind, i) for kind, i, _ in early.left_out] == [("soliton", 1)]
+    assert "needs" in early.left_out[0][2]
+    assert early.all_found  # the kappa = 1.8 soliton, the only one expected
+    assert early.solitons[0].predicted_index == 0
+    small = measure_content(
+        case.frames, case.times, case.grid, KDV, case.predicted, min_amplitude=0.3
+    )
+    assert [(kind, i) for kind, i, _ in small.left_out] == [("soliton", 1)]
+    assert "below min_amplitude" in small.left_out[0][2]
+    assert small.all_found
+
+
+def test_table_has_one_row_per_emerging_soliton() -> None:
+    _, content = fractional_well()
+    table = content.table()
+    assert list(table["kind"]) == ["soliton", "soliton"]
+    assert list(table["soliton"]) == [0, 1]
+    assert list(table["predicted_index"]) == [0, 1]
+    np.testing.assert_allclose(table["kappa_predicted"], [1.8, 0.8], rtol=1e-6)
