@@ -294,6 +294,7 @@ def test_small_and_slow_predicted_solitons_are_left_out_with_a_reason() -> None:
     assert "needs" in early.left_out[0][2]
     assert early.all_found  # the kappa = 1.8 soliton, the only one expected
     assert early.solitons[0].predicted_index == 0
+    assert early.found == {("soliton", 0)}
     small = measure_content(
         case.frames, case.times, case.grid, KDV, case.predicted, min_amplitude=0.3
     )

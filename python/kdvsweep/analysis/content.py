@@ -22,7 +22,8 @@ left_out=None)`` returns a :class:`ContentMeasurement`. ``predicted`` is
   figures), ``frames_late``, and the prediction it was matched to (``predicted_index``,
   ``kappa_predicted``, ``amplitude_predicted``, ``speed_predicted``, ``frequency_predicted``;
   -1 and NaN when unmatched).
-* ``n_measured``, ``n_predicted`` (solitons plus breathers), ``all_found`` (every predicted
+* ``n_measured``, ``n_predicted`` (solitons plus breathers), ``found`` (``(kind, index)`` of the
+  predicted items found), ``all_found`` (every predicted
   item not left out was matched within :data:`MATCH_TOLERANCE`), ``left_out`` (``(kind, index,
   reason)``: below ``min_amplitude``, moving into the radiation, too slow to leave the data within
   the record, or the caller's reason; a slow one that is found anyway is matched, not left out).
@@ -67,7 +68,7 @@ grid; for canonical KdV they are the exact soliton values mass ``4 kappa`` and `
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field, replace
 from typing import Any
 
@@ -263,6 +264,12 @@ class ContentMeasurement:
     def breathers(self) -> tuple[EmergingSoliton, ...]:
         """The emerging breathers, largest first."""
         return tuple(e for e in self.emerging if e.kind == "breather")
+
+    @property
+    def found(self) -> frozenset[tuple[str, int]]:
+        """``(kind, index)`` of the predicted solitons and breathers that were found: matched
+        with ``kappa`` within :data:`MATCH_TOLERANCE`."""
+        return _found(self.emerging)
 
     def table(self) -> pd.DataFrame:
         """One row per emerging soliton or breather (columns :data:`CONTENT_TABLE_COLUMNS`;
@@ -743,6 +750,15 @@ def _left_out(
     return out
 
 
+def _found(emerging: Sequence[EmergingSoliton]) -> frozenset[tuple[str, int]]:
+    return frozenset(
+        (e.kind, e.predicted_index)
+        for e in emerging
+        if e.predicted_index >= 0
+        and abs(e.kappa_measured / e.kappa_predicted - 1.0) < MATCH_TOLERANCE
+    )
+
+
 def _amplitude_of(predicted: SolitonContent, form: SolitonForm, key: tuple[str, int]) -> float:
     kind, i = key
     if kind == "soliton":
@@ -904,12 +920,7 @@ def measure_content(
         # Below min_amplitude: never matched. Too slow by the estimate but found anyway: matched.
         small = {key for key in reasons if _is_small(predicted, form, key, floor)}
         emerging = _match(emerging, predicted, form, small)
-        found = {
-            (e.kind, e.predicted_index)
-            for e in emerging
-            if e.predicted_index >= 0
-            and abs(e.kappa_measured / e.kappa_predicted - 1.0) < MATCH_TOLERANCE
-        }
+        found = _found(emerging)
         reasons = {k: r for k, r in reasons.items() if k not in found}
         expected = [
             (kind, i)
