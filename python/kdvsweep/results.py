@@ -132,24 +132,39 @@ def load(out: str | os.PathLike[str], skip_damaged: bool = False) -> Results:
     return Results(path, contents.manifest, contents.runs, contents.solitons, contents.check)
 
 
+#: What the summary shows of a collision (prepared solitons) and of soliton content (any data).
+SHIFT_SUMMARY = ("kappa", "kappa_measured", "shift_predicted", "shift_measured", "shift_error")
+CONTENT_SUMMARY = (
+    "kind",
+    "found",
+    "amplitude",
+    "amplitude_ist",
+    "amplitude_uncertainty",
+    "speed",
+    "speed_ist",
+    "note",
+)
+
+
 def summary_table(results: Results) -> pd.DataFrame:
-    """The summary the CLI prints: per soliton, the swept parameters and both shifts."""
+    """The summary the CLI prints: per soliton, the swept parameters and what was measured beside
+    what theory predicts (phase shifts of collisions; amplitudes and speeds of soliton content).
+
+    Columns that are empty for every row of the store are left out.
+    """
     params = [p for p in results.parameters if p in results.runs.columns]
     runs = results.runs
     if runs.empty or results.solitons.empty:
         return pd.DataFrame(columns=["run_id", *params, "soliton", "kappa"])
     keep = ["run_id", *params, *(c for c in ("equation",) if c not in params and c in runs)]
     merged = results.solitons.merge(runs.loc[runs["status"] == "ok", keep], on="run_id")
-    cols = [
-        *keep,
-        "soliton",
-        "kappa",
-        "kappa_measured",
-        "shift_predicted",
-        "shift_measured",
-        "shift_error",
+    measured = [
+        c
+        for c in dict.fromkeys((*SHIFT_SUMMARY, *CONTENT_SUMMARY))
+        if c in merged.columns and merged[c].notna().any() and (merged[c] != "").any()
     ]
+    cols = [*keep, "soliton", *measured]
     return merged[[c for c in cols if c in merged.columns]].reset_index(drop=True)
 
 
-__all__ = ["Frames", "Results", "load", "summary_table"]
+__all__ = ["CONTENT_SUMMARY", "SHIFT_SUMMARY", "Frames", "Results", "load", "summary_table"]

@@ -1222,7 +1222,8 @@ def _content_sizing(
         detail = "; ".join(f"{items[i].label}: {why}" for i, why in sep.left_out)
         warn.add(
             "sizing",
-            "leave predicted solitons out of the comparison",
+            "may end before predicted solitons separate (a cautious estimate); those not "
+            "measured are left out of the comparison, with this reason",
             ctx.run_id,
             worst if math.isfinite(worst) else 1e300,
             detail,
