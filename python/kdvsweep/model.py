@@ -368,6 +368,13 @@ class SolitonForm:
         out = 0.5 / np.asarray(kappa, dtype=np.float64)
         return float(out) if out.ndim == 0 else out
 
+    def breather_amplitude(self, eta: ArrayLike) -> Any:
+        """Peak ``|u|`` of a focusing-mKdV breather's envelope of eigenvalue pair ``+-xi + i eta``:
+        ``|alpha| 4 eta``, the sum of the two complex-conjugate solitons' ``2 eta`` (Wadati 1973,
+        from memory)."""
+        out = abs(self.alpha) * 4.0 * np.asarray(eta, dtype=np.float64)
+        return float(out) if out.ndim == 0 else out
+
     def kappa_from_speed(self, speed: float) -> float:
         """Invert :meth:`speed` (``speed`` must have the sign of ``d``)."""
         if not speed / self.d > 0:

@@ -632,8 +632,8 @@ def _measure(fol: _Followed, t: np.ndarray, form: SolitonForm) -> EmergingSolito
             return None  # a hump of radiation: it does not move like a soliton of its height
         xi = xi_u = spin = spin_u = math.nan
     else:
-        amplitude = abs(form.alpha) * 4.0 * kappa
-        amplitude_u = abs(form.alpha) * 4.0 * kappa_u
+        amplitude = form.breather_amplitude(kappa)
+        amplitude_u = form.breather_amplitude(kappa_u)
         xi, xi_u = _mean(params[late, 1], errors[late, 1])
         spin, spin_u = _slope(tt[late], params[late, 3])
     return EmergingSoliton(
@@ -729,7 +729,7 @@ def _left_out(
         )
     ]
     items += [
-        ("breather", j, b.kappa, abs(form.alpha) * 4.0 * b.kappa, b.envelope_speed)
+        ("breather", j, b.kappa, form.breather_amplitude(b.kappa), b.envelope_speed)
         for j, b in enumerate(predicted.breathers)
     ]
     for kind, i, kappa, amp, speed in items:
@@ -763,7 +763,7 @@ def _amplitude_of(predicted: SolitonContent, form: SolitonForm, key: tuple[str, 
     kind, i = key
     if kind == "soliton":
         return abs(float(predicted.amplitudes[i]))
-    return abs(form.alpha) * 4.0 * predicted.breathers[i].kappa
+    return form.breather_amplitude(predicted.breathers[i].kappa)
 
 
 def _is_small(
@@ -813,7 +813,7 @@ def _match(
                 b = predicted.breathers[j]
                 pred = {
                     "kappa_predicted": b.kappa,
-                    "amplitude_predicted": abs(form.alpha) * 4.0 * b.kappa,
+                    "amplitude_predicted": form.breather_amplitude(b.kappa),
                     "speed_predicted": b.envelope_speed,
                     "frequency_predicted": b.frequency,
                 }

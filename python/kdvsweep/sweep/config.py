@@ -1196,9 +1196,7 @@ def _content_sizing(
         )
     ]
     items += [
-        sizing.Emerging(
-            "breather", j, b.kappa, b.envelope_speed, sizing.breather_amplitude(form, b.kappa)
-        )
+        sizing.Emerging("breather", j, b.kappa, b.envelope_speed, form.breather_amplitude(b.kappa))
         for j, b in enumerate(content.breathers)
     ]
     width = sizing.extent(u0, grid.dx, tpl.tail)

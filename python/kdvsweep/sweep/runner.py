@@ -211,9 +211,7 @@ def _sizing_reasons(
         )
     ]
     items += [
-        sizing.Emerging(
-            "breather", j, b.kappa, b.envelope_speed, sizing.breather_amplitude(form, b.kappa)
-        )
+        sizing.Emerging("breather", j, b.kappa, b.envelope_speed, form.breather_amplitude(b.kappa))
         for j, b in enumerate(content.breathers)
     ]
     width = sizing.extent(u0, grid.dx, spec.run.tail)
@@ -326,7 +324,7 @@ def _content_rows(
             "sign": 0,
             "kappa_ist": b.kappa,
             "xi_ist": b.xi,
-            "amplitude_ist": math.nan if form is None else sizing.breather_amplitude(form, b.kappa),
+            "amplitude_ist": math.nan if form is None else form.breather_amplitude(b.kappa),
             "speed_ist": b.envelope_speed,
         }
         for j, b in enumerate(content.breathers)

@@ -256,12 +256,6 @@ class Separation:
     end: float  # FOLLOW times the latest separation of the items followed (0 when none)
 
 
-def breather_amplitude(form: SolitonForm, eta: float) -> float:
-    """Peak ``|u|`` of a focusing-mKdV breather's envelope, ``|alpha| 4 eta`` (the sum of the
-    two complex-conjugate solitons' ``2 eta``; Wadati 1973, from memory)."""
-    return abs(form.alpha) * 4.0 * eta
-
-
 def extent(u: np.ndarray, dx: float, tail: float) -> float:
     """Length of the shortest periodic arc holding every point where ``|u| > tail max|u|``."""
     mag = np.abs(np.asarray(u, dtype=np.float64))
@@ -421,7 +415,6 @@ __all__ = [
     "Separation",
     "auto_points",
     "auto_positions",
-    "breather_amplitude",
     "content_length",
     "dt_limit",
     "end_time",
