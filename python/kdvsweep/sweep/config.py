@@ -1189,30 +1189,13 @@ def _content_sizing(
     except ConfigError as err:
         raise ctx.fail("model.points", n, f"an even integer >= 16 ({err})") from None
     content, u0 = _predicted(tpl, ctx, key, sized, initial, grid)
-    items = [
-        sizing.Emerging("soliton", i, float(k), float(c), abs(float(a)))
-        for i, (k, c, a) in enumerate(
-            zip(content.kappas, content.speeds, content.amplitudes, strict=True)
-        )
-    ]
-    items += [
-        sizing.Emerging("breather", j, b.kappa, b.envelope_speed, form.breather_amplitude(b.kappa))
-        for j, b in enumerate(content.breathers)
-    ]
-    width = sizing.extent(u0, grid.dx, tpl.tail)
+    items, width, share = sizing.content_budget(content, u0, grid.dx, form, tpl.tail)
     fraction = tpl.min_amplitude
     if fraction is None:
         from ..analysis.content import DEFAULT_MIN_AMPLITUDE
 
         fraction = DEFAULT_MIN_AMPLITUDE
     floor = fraction * float(np.max(np.abs(u0)))
-    share = sizing.radiation_share(
-        u0,
-        grid.dx,
-        form,
-        [float(k) for k in content.kappas],
-        [(b.kappa, b.xi) for b in content.breathers],
-    )
     limit = tpl.max_end if t_end is None else t_end
     sep = sizing.separation(items, width, form, tpl.tail, floor, limit, share)
     if sep.left_out:

@@ -204,24 +204,7 @@ def _sizing_reasons(
     form = equation.soliton_form_or_none()
     if form is None:
         return {}
-    items = [
-        sizing.Emerging("soliton", i, float(k), float(c), abs(float(a)))
-        for i, (k, c, a) in enumerate(
-            zip(content.kappas, content.speeds, content.amplitudes, strict=True)
-        )
-    ]
-    items += [
-        sizing.Emerging("breather", j, b.kappa, b.envelope_speed, form.breather_amplitude(b.kappa))
-        for j, b in enumerate(content.breathers)
-    ]
-    width = sizing.extent(u0, grid.dx, spec.run.tail)
-    share = sizing.radiation_share(
-        u0,
-        grid.dx,
-        form,
-        [float(k) for k in content.kappas],
-        [(b.kappa, b.xi) for b in content.breathers],
-    )
+    items, width, share = sizing.content_budget(content, u0, grid.dx, form, spec.run.tail)
     sep = sizing.separation(items, width, form, spec.run.tail, floor, spec.run.t_end, share)
     return {(items[i].kind, items[i].index): why for i, why in sep.left_out}
 

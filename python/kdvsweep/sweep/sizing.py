@@ -42,11 +42,15 @@ import itertools
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from ..model import SolitonForm
 from ..theory import pair_shift
+
+if TYPE_CHECKING:
+    from ..spectrum import SolitonContent
 
 WARN_DECADES = 16
 REFUSE_DECADES = 6
@@ -288,6 +292,32 @@ def radiation_speed(
     return 3.0 * abs(d) * k_rad**2
 
 
+def content_budget(
+    content: SolitonContent, u0: np.ndarray, dx: float, form: SolitonForm, tail: float
+) -> tuple[list[Emerging], float, float]:
+    """What the sizing rules need of a profile's predicted content: its solitons and breathers as
+    :class:`Emerging` items, the data's :func:`extent`, and the radiation's :func:`radiation_share`.
+    """
+    items = [
+        Emerging("soliton", i, float(k), float(c), abs(float(a)))
+        for i, (k, c, a) in enumerate(
+            zip(content.kappas, content.speeds, content.amplitudes, strict=True)
+        )
+    ]
+    items += [
+        Emerging("breather", j, b.kappa, b.envelope_speed, form.breather_amplitude(b.kappa))
+        for j, b in enumerate(content.breathers)
+    ]
+    share = radiation_share(
+        u0,
+        dx,
+        form,
+        [float(k) for k in content.kappas],
+        [(b.kappa, b.xi) for b in content.breathers],
+    )
+    return items, extent(u0, dx, tail), share
+
+
 def radiation_share(
     u: np.ndarray,
     dx: float,
@@ -415,6 +445,7 @@ __all__ = [
     "Separation",
     "auto_points",
     "auto_positions",
+    "content_budget",
     "content_length",
     "dt_limit",
     "end_time",
