@@ -78,9 +78,44 @@ RUN_COLUMNS: tuple[Column, ...] = (
         _F,
         "seconds of wall time spent in the collision analysis or the content measurement",
     ),
-    Column("mass_drift", _F, "relative change of int u from start to end"),
-    Column("momentum_drift", _F, "relative change of int u^2 (checked for conservative equations)"),
-    Column("energy_drift", _F, "relative change of the Hamiltonian of the conservative part"),
+    Column(
+        "mass_drift",
+        _F,
+        "change of int u from start to end, relative (absolute when int u starts below 1e-8 of"
+        " int |u|: zero-mean data); the physical decay too under damping",
+    ),
+    Column("momentum_drift", _F, "relative change of int u^2 from start to end"),
+    Column(
+        "energy_drift",
+        _F,
+        "change of the Hamiltonian of the conservative part, relative (absolute when it starts"
+        " below 1e-8 of the integral of its terms' absolute values)",
+    ),
+    Column(
+        "mass_residual",
+        _F,
+        "error of the mass balance dM/dt = -g M at the end: |M(T) - M(0) exp(-g T)|, scaled as"
+        " mass_drift (equals it when g = 0)",
+    ),
+    Column(
+        "momentum_residual",
+        _F,
+        "error of d/dt int u^2 = -2g int u^2 - 2v int u_x^2 integrated over the frames, scaled as"
+        " momentum_drift (equals it when g = v = 0); checked against run.drift_limit",
+    ),
+    Column(
+        "energy_residual",
+        _F,
+        "error of dH/dt = int (dH/du)(-g u + v u_xx) integrated over the frames, scaled as"
+        " energy_drift (equals it when g = v = 0)",
+    ),
+    Column(
+        "balance_quadrature",
+        _F,
+        "estimated error of the time quadrature in momentum_residual and energy_residual (the"
+        " larger; Simpson's rule over the frames against the same on every 2nd frame); 0 when"
+        " g = v = 0",
+    ),
     Column("max_abs_u", _F, "max |u| of the final state"),
     Column("frames_stored", _I, "frames kept in frames/run_NNNNNN.npz (0 when none)"),
 )

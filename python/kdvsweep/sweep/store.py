@@ -69,7 +69,7 @@ LOCK = ".lock"
 STORE_FORMAT = "kdvsweep-store"
 #: Version 2: typed Parquet schema in every part, the model's coefficients in the runs table.
 #: Version 3: the soliton content (profile data): ist_kappas a list column, content columns.
-STORE_VERSION = 3
+STORE_VERSION = 4
 TABLES = ("runs", "solitons")
 _PART = re.compile(r"^part-(\d+)\.parquet$")
 _TMP_PREFIX = ".tmp-"
