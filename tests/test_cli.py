@@ -156,7 +156,9 @@ def test_status_and_table(reference: Path, capsys: pytest.CaptureFixture[str]) -
     assert f"done    {len(K2) - 1}\n" in text
     assert "failed  1\n" in text
     assert "pending 0\n" in text
-    assert "NumericalError" in text
+    assert "failures by kind:" in text
+    assert "     1  drift" in text  # dt = 2 loses the solution; the drift limit catches it
+    assert "DriftError" in text
     assert cli.main(["table", str(reference)]) == 0
     text = capsys.readouterr().out
     assert "shift_measured" in text

@@ -88,7 +88,9 @@ def test_every_run_stored_once(reference: Results) -> None:
 def test_blown_up_run_is_a_failed_row(reference: Results) -> None:
     runs = reference.runs.set_index("run_id")
     assert runs.loc[BAD, "status"] == "failed"
-    assert runs.loc[BAD, "reason"].startswith("NumericalError")
+    # dt = 2 loses the solution: the momentum balance check catches it (run.drift_limit)
+    assert runs.loc[BAD, "reason"].startswith("DriftError: momentum balance residual")
+    assert runs.loc[BAD, "failure"] == "drift"
     assert BAD not in set(reference.solitons["run_id"])
     with pytest.raises(ValueError, match="no stored frames"):
         reference.frames(BAD)

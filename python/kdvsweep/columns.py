@@ -50,6 +50,11 @@ RUN_ID = Column("run_id", _I, "the run's number, from 0 in the order the sweep f
 #: Columns of the model of each run; a swept parameter of the same name takes the column.
 MODEL_COLUMNS = ("equation", "n", "length", "scheme", "dt", "tol", "t_end")
 
+#: Kinds of failure of a run (column ``failure``): the stepping left the blow-up bound or became
+#: non-finite, the balance residual exceeded ``run.drift_limit``, the wall-clock limit, memory,
+#: the analysis of the frames, anything else.
+FAILURE_KINDS = ("blow-up", "drift", "time limit", "out of memory", "analysis", "other")
+
 #: Every runs column after the parameters, in table order (the analysis and content ones follow).
 RUN_COLUMNS: tuple[Column, ...] = (
     Column("status", _S, '"ok", or "failed" when the run stopped (see reason)'),
@@ -115,6 +120,11 @@ RUN_COLUMNS: tuple[Column, ...] = (
         "estimated error of the time quadrature in momentum_residual and energy_residual (the"
         " larger; Simpson's rule over the frames against the same on every 2nd frame); 0 when"
         " g = v = 0",
+    ),
+    Column(
+        "failure",
+        _S,
+        f"kind of failure of a failed run: {', '.join(FAILURE_KINDS)} (empty when ok)",
     ),
     Column("max_abs_u", _F, "max |u| of the final state"),
     Column("frames_stored", _I, "frames kept in frames/run_NNNNNN.npz (0 when none)"),
@@ -345,6 +355,7 @@ __all__ = [
     "ANALYSIS_COLUMNS",
     "CONTENT_COLUMNS",
     "CONTENT_SOLITON_COLUMNS",
+    "FAILURE_KINDS",
     "KAPPA_IST",
     "MODEL_COLUMNS",
     "PARAMETER_TYPES",

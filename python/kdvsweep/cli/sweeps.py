@@ -74,6 +74,11 @@ def register(sub: Any) -> None:
     )
     p.add_argument("file", type=Path, metavar="FILE", help="sweep file (TOML)")
     p.add_argument("--out", type=Path, metavar="DIR", help="store folder (default results/NAME)")
+    p.add_argument(
+        "--retry-failed",
+        action="store_true",
+        help="run the runs stored as failed again (their old rows are replaced)",
+    )
     _farm_options(p)
     p.set_defaults(handler=lambda args: _run(args, args.file))
 
@@ -131,6 +136,7 @@ def _run(args: argparse.Namespace, file: Path) -> int:
                 on_progress=bar,
                 on_message=lambda message: bar.write(f"kdvsweep: {message}"),
                 chunk_seconds=chunk,
+                retry_failed=bool(getattr(args, "retry_failed", False)),
             )
     except KeyboardInterrupt:
         say(f"interrupted; what finished is stored in {out}; run the same command again to resume")
@@ -204,6 +210,11 @@ def _table(out: Path, runs: bool = False) -> int:
     return _damage_lines(res)
 
 
+def _first_line(text: str, limit: int = 100) -> str:
+    line = (text.splitlines() or [""])[0]
+    return line if len(line) <= limit else line[: limit - 3] + "..."
+
+
 def _status(out: Path) -> int:
     from ..results import load
 
@@ -216,10 +227,12 @@ def _status(out: Path) -> int:
     print(f"pending {counts['pending']}")
     print(f"total   {counts['total']}")
     if counts["failed"]:
-        reasons = res.runs.loc[res.runs["status"] != "ok", "reason"].value_counts().head(5)
-        print("most common reasons of failure:")
-        for reason, count in reasons.items():
-            print(f"  {count:6d}  {reason}")
+        failed = res.runs.loc[res.runs["status"] != "ok"]
+        kind = failed["failure"].fillna("").replace("", "other")
+        print("failures by kind:")
+        for name, count in kind.value_counts().items():
+            example = failed.loc[kind == name, "reason"].iloc[0]
+            print(f"  {count:6d}  {name:<13}  e.g. {_first_line(str(example))}")
     if res.check is not None and res.check.damaged:
         print(f"damage  {res.check.summary()}")
     for line in res.check.ignored if res.check is not None else ():

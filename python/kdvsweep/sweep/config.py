@@ -48,7 +48,16 @@ _TOP = ("sweep", "model", "initial", "run", "vary", "derive", "sizing")
 _SWEEP = ("name", "note")
 _MODEL = ("equation", "points", "length", "scheme", "dt", "tol")
 _EQUATION = ("preset", *COEFFICIENTS, "dealias")
-_RUN = ("end", "frame_every", "keep_frames", "keep_stride", "predict_content", "time_limit")
+_RUN = (
+    "end",
+    "frame_every",
+    "keep_frames",
+    "keep_stride",
+    "predict_content",
+    "time_limit",
+    "drift_limit",
+    "max_amplitude",
+)
 _SIZING = ("tail", "min_amplitude", "max_end", "radiation")
 #: Default ``sizing.max_end``: the latest automatic end of a content run (time units of the run).
 DEFAULT_MAX_END = 100.0
@@ -81,9 +90,10 @@ def safe_name(stem: str) -> str:
     return name or "sweep"
 
 
-#: Relative drift of ``int u^2`` beyond which a conservative run is declared failed (a resolved
-#: pseudo-spectral run keeps it near 1e-8; 1e-3 means far too coarse steps - common practice, no
-#: source). ``RunSettings.drift_limit = None`` switches the check off.
+#: Default ``run.drift_limit``: the residual of the momentum balance (``momentum_residual``, the
+#: relative drift of ``int u^2`` for conservative equations) beyond which a run is declared failed
+#: (a resolved pseudo-spectral run keeps it near 1e-8; 1e-3 means far too coarse steps - common
+#: practice, no source). ``RunSettings.drift_limit = None`` switches the check off.
 DEFAULT_DRIFT_LIMIT = 1e-3
 
 #: Default ``run.time_limit``: wall-clock seconds one run may step before it is stored as failed
@@ -136,7 +146,11 @@ class RunSettings:
         Also store the soliton content the inverse scattering transform predicts from ``u0``
         (default on for data that are not solitons).
     drift_limit
-        Relative momentum drift at which a conservative run fails (``None``: no check).
+        Momentum balance residual (``momentum_residual``) above which a run fails (``None``: no
+        check; ``run.drift_limit``).
+    max_amplitude
+        Blow-up bound on ``max |u|`` (``run.max_amplitude``); ``None``: the core's default,
+        ``1e3 max(1, max |u0|)``.
     min_amplitude
         Content runs: predicted solitons below this fraction of ``max |u0|`` are left out of the
         comparison (``None``: the measurement's default,
@@ -157,11 +171,14 @@ class RunSettings:
     min_amplitude: float | None = None
     tail: float = DEFAULT_TAIL
     time_limit: float = DEFAULT_TIME_LIMIT
+    max_amplitude: float | None = None
 
     def plain(self) -> dict[str, Any]:
         """As plain JSON data; options at their defaults are left out, so adding an option
-        leaves the digests of the sweeps that do not use it as they were. ``time_limit`` is
-        left out always: how long a run may take does not change what it computes."""
+        leaves the digests of the sweeps that do not use it as they were. ``time_limit``,
+        ``drift_limit`` and ``max_amplitude`` are left out always: they decide when a run is
+        declared failed, not what it computes (so a sweep whose limits changed can retry its
+        failed runs in the same store: ``kdvsweep run --retry-failed``)."""
         out: dict[str, Any] = {
             "t_end": self.t_end,
             "record_times": list(self.record_times),
@@ -170,8 +187,6 @@ class RunSettings:
         }
         if self.predict_content:
             out["predict_content"] = True
-        if self.drift_limit != DEFAULT_DRIFT_LIMIT:
-            out["drift_limit"] = self.drift_limit
         if self.min_amplitude is not None:
             out["min_amplitude"] = self.min_amplitude
         if self.tail != DEFAULT_TAIL:
@@ -339,6 +354,8 @@ class _Template:
     predict_content: bool
     tail: float
     time_limit: float
+    drift_limit: float | None
+    max_amplitude: float | None
     sizing_given: bool
     base: Path
     min_amplitude: float | None = None
@@ -414,6 +431,12 @@ def _read_template(src: Source, doc: dict[str, Any], base: Path, stem: str) -> _
     if keep_stride > MAX_FRAMES:
         raise run.fail("keep_stride", keep_stride, f"an integer from 1 to {MAX_FRAMES}")
     time_limit = run.number("time_limit", default=DEFAULT_TIME_LIMIT, positive=True)
+    drift_limit = run.raw("drift_limit", DEFAULT_DRIFT_LIMIT)
+    if drift_limit is False:  # no check
+        drift_limit = None
+    elif not is_finite(drift_limit) or drift_limit <= 0:
+        raise run.fail("drift_limit", drift_limit, "a positive number, or false for no check")
+    max_amplitude = run.number("max_amplitude", default=None, positive=True)
     soliton_data = kind in ("solitons", "multisoliton")
     predict_content = run.flag("predict_content", default=not soliton_data)
 
@@ -481,6 +504,8 @@ def _read_template(src: Source, doc: dict[str, Any], base: Path, stem: str) -> _
         predict_content=predict_content,
         tail=float(tail),
         time_limit=float(time_limit),
+        drift_limit=None if drift_limit is None else float(drift_limit),
+        max_amplitude=None if max_amplitude is None else float(max_amplitude),
         sizing_given=top.has("sizing"),
         base=base,
         min_amplitude=None if min_amplitude is None else float(min_amplitude),
@@ -1094,6 +1119,8 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
         min_amplitude=tpl.min_amplitude if not soliton else None,
         tail=tpl.tail if not soliton else DEFAULT_TAIL,
         time_limit=tpl.time_limit,
+        drift_limit=tpl.drift_limit,
+        max_amplitude=tpl.max_amplitude,
     )
     return RunSpec(ctx.run_id, dict(ctx.params), model, initial, run)
 

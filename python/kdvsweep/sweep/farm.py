@@ -229,6 +229,7 @@ def _killed(spec: Any, exc: BaseException) -> RunResult:
     """
     row = base_row(spec)
     row["status"] = "failed"
+    row["failure"] = "out of memory"  # the likely cause, as the reason says
     n = int(spec.model.grid.n)
     frames = len(spec.run.record_times)
     need = run_memory(n, frames, spec.model.scheme)
@@ -309,6 +310,7 @@ def run_sweep(
     on_progress: ProgressCallback | None = None,
     chunk_seconds: float = CHUNK_SECONDS,
     retries: int = RETRIES,
+    retry_failed: bool = False,
 ) -> SweepReport:
     """Run the pending runs of ``sweep`` into the store ``out``; resume what is already there.
 
@@ -328,6 +330,9 @@ def run_sweep(
         Target wall time of one task.
     retries
         Retries of a task that raised.
+    retry_failed
+        First drop the runs stored as failed (:meth:`Store.forget_failed`), so they run again
+        and the tables then hold each run once.
 
     Returns
     -------
@@ -338,6 +343,8 @@ def run_sweep(
         raise ConfigError(f"run_sweep: chunk_seconds must be > 0, got {chunk_seconds}")
     start = time.perf_counter()
     with _interrupt_guard(), Store.open(out, sweep) as store:
+        if retry_failed:
+            store.forget_failed()
         todo = store.pending(sweep.runs)
         report = SweepReport(Path(out), len(sweep.runs), skipped=len(sweep.runs) - len(todo))
         if on_progress is not None:
@@ -633,6 +640,7 @@ def run(
     on_progress: ProgressCallback | None = None,
     on_message: Callable[[str], None] | None = None,
     chunk_seconds: float = CHUNK_SECONDS,
+    retry_failed: bool = False,
 ) -> SweepReport:
     """Run a sweep file into ``out`` (default ``results/<sweep name>``); resume what is stored.
 
@@ -658,6 +666,10 @@ def run(
         Receives one-line messages of a batch cluster.
     chunk_seconds
         Target wall time of one task.
+    retry_failed
+        Run the runs stored as failed again (same sweep digest: the limits ``run.drift_limit``,
+        ``run.max_amplitude`` and ``run.time_limit`` may have changed); their old rows are
+        dropped, so the tables hold each run once.
 
     Returns
     -------
@@ -685,6 +697,7 @@ def run(
             workers=workers,
             on_progress=on_progress,
             chunk_seconds=chunk_seconds,
+            retry_failed=retry_failed,
         )
 
 

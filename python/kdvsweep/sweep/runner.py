@@ -18,8 +18,8 @@ from typing import Any
 import numpy as np
 
 from .. import analysis, initial, theory
-from ..columns import TIMING_COLUMNS, has_content
-from ..exceptions import ConfigError, NumericalError
+from ..columns import FAILURE_KINDS, TIMING_COLUMNS, has_content
+from ..exceptions import ConfigError, NumericalError, TimeLimitError
 from ..model import Equation, Grid
 from ..simulation import Simulation, invariants
 from ..spectrum import SolitonContent
@@ -77,7 +77,7 @@ def base_row(spec: RunSpec) -> dict[str, Any]:
     }
     row: dict[str, Any] = {"run_id": int(spec.run_id)}
     row.update(spec.params)
-    row.update({"status": "ok", "reason": ""})
+    row.update({"status": "ok", "reason": "", "failure": ""})
     row.update({k: v for k, v in descr.items() if k not in spec.params})
     row.update(
         {
@@ -275,6 +275,36 @@ def balance(frames: np.ndarray, times: np.ndarray, grid: Grid, equation: Equatio
         quadrature=float(quadrature),
         absolute=frozenset(absolute),
     )
+
+
+class DriftError(NumericalError):
+    """The momentum balance residual of a run exceeded ``run.drift_limit``."""
+
+
+def failure_kind(exc: BaseException, stage: str) -> str:
+    """The kind of a run's failure (one of :data:`kdvsweep.columns.FAILURE_KINDS`).
+
+    Parameters
+    ----------
+    exc
+        What the run raised.
+    stage
+        ``"setup"``, ``"stepping"`` or ``"analysis"``: where it was raised.
+    """
+    if isinstance(exc, MemoryError):
+        kind = "out of memory"
+    elif isinstance(exc, TimeLimitError):
+        kind = "time limit"
+    elif isinstance(exc, DriftError):
+        kind = "drift"
+    elif stage == "analysis":
+        kind = "analysis"
+    elif stage == "stepping" and isinstance(exc, NumericalError):
+        kind = "blow-up"  # the core's blow-up bound, or a state no longer finite
+    else:
+        kind = "other"
+    assert kind in FAILURE_KINDS
+    return kind
 
 
 def _input_soliton_rows(spec: RunSpec, equation: Equation) -> list[dict[str, Any]]:
@@ -531,8 +561,17 @@ def _core_simulation(
     dt: float,
     tol: float | None,
     time_limit: float | None = None,
+    max_amplitude: float | None = None,
 ) -> Any:
-    return Simulation(grid, equation, scheme=scheme, dt=dt, tol=tol, time_limit=time_limit)
+    return Simulation(
+        grid,
+        equation,
+        scheme=scheme,
+        dt=dt,
+        tol=tol,
+        time_limit=time_limit,
+        max_amplitude=max_amplitude,
+    )
 
 
 def execute(spec: RunSpec, simulation: SimulationFactory | None = None) -> RunResult:
@@ -559,10 +598,17 @@ def execute(spec: RunSpec, simulation: SimulationFactory | None = None) -> RunRe
     model, run = spec.model, spec.run
     grid, equation = model.grid, model.equation
     sim = None
+    stage = "setup"
     try:
         if simulation is None:  # the core stops at the run's wall-time limit (TimeLimitError)
             sim = _core_simulation(
-                grid, equation, model.scheme, model.dt, model.tol, time_limit=run.time_limit
+                grid,
+                equation,
+                model.scheme,
+                model.dt,
+                model.tol,
+                time_limit=run.time_limit,
+                max_amplitude=run.max_amplitude,
             )
         else:
             sim = make(grid, equation, model.scheme, model.dt, model.tol)
@@ -579,6 +625,7 @@ def execute(spec: RunSpec, simulation: SimulationFactory | None = None) -> RunRe
                 row["reason"] = note
         times = np.asarray(run.record_times, dtype=np.float64)
         stepping = time.perf_counter()
+        stage = "stepping"
         frames = sim.record(times)
         if sim.time < run.t_end:
             sim.advance(run.t_end - sim.time)
@@ -598,11 +645,12 @@ def execute(spec: RunSpec, simulation: SimulationFactory | None = None) -> RunRe
         row["steps"], row["rejected"] = int(sim.steps), int(getattr(sim, "rejected", 0))
         limit = run.drift_limit
         if limit is not None and row["momentum_residual"] > limit:
-            raise NumericalError(
+            raise DriftError(
                 f"momentum balance residual {row['momentum_residual']:.3g} exceeds the drift "
                 f"limit {limit:g} (steps too coarse for this run?)"
             )
         analysing = time.perf_counter()
+        stage = "analysis"
         if soliton_data:
             solitons, extra = _collision_rows(spec, frames, times, grid, equation)
             if predicted is not None:
@@ -623,6 +671,7 @@ def execute(spec: RunSpec, simulation: SimulationFactory | None = None) -> RunRe
     except Exception as exc:  # failures are data: the sweep must go on past one bad run
         row["status"] = "failed"
         row["reason"] = f"{type(exc).__name__}: {exc}"
+        row["failure"] = failure_kind(exc, stage)
         if isinstance(exc, MemoryError):  # the core's message already starts "out of memory: "
             text = str(exc) or "no memory left"
             row["reason"] = text if text.startswith("out of memory") else f"out of memory: {text}"
@@ -654,8 +703,10 @@ __all__ = [
     "ROUND_OFF_FRACTION",
     "TIMING_COLUMNS",
     "Balance",
+    "DriftError",
     "RunResult",
     "balance",
     "execute",
     "execute_chunk",
+    "failure_kind",
 ]

@@ -712,6 +712,47 @@ class Store:
         """The runs (specs with ``run_id``) not stored yet, in the given order."""
         return [r for r in runs if int(r.run_id) not in self._done]
 
+    def forget_failed(self) -> frozenset[int]:
+        """Drop the stored rows of the failed runs, so that they are pending again (retry).
+
+        Each committed runs part holding a row of a failed run is rewritten without those rows
+        (to a temporary name, then renamed over the part: whole or unchanged), keeping its batch
+        record; a part left with no rows is removed. The batch's solitons part is untouched: a
+        failed run has no solitons rows (a run with solitons rows in its batch is kept as it is).
+        Every row of such a run goes, duplicates included, so no older row takes its place. After
+        a crash midway each failed run is either still stored as failed or pending: both states
+        are whole, and the next retry drops what is left.
+
+        Returns
+        -------
+        frozenset of int
+            The runs now pending.
+        """
+        targets = set(self._failed)
+        if not targets:
+            return frozenset()
+        check, tables = _scan(self.out, self.manifest, keep=True)
+        for solitons in (sol for _, sol in tables.values() if sol is not None):
+            targets -= set(solitons.column("run_id").to_pylist())
+        for seq, (runs, _) in sorted(tables.items()):
+            ids = runs.column("run_id").to_pylist()
+            drop = [rid in targets for rid in ids]
+            if not any(drop):
+                continue
+            path = self.out / "runs" / f"part-{seq:06d}.parquet"
+            if all(drop):
+                try:
+                    path.unlink()
+                except OSError as exc:
+                    raise io_error(path, exc, "remove the part of failed runs") from None
+                _fsync_dir(path.parent)
+            else:
+                kept = runs.filter(pa.array([not d for d in drop]))
+                write_atomic(path, _parquet_bytes(kept))
+        self._done -= targets
+        self._failed -= targets
+        return frozenset(targets & set(check.kept))
+
     # -- writing -------------------------------------------------------------------------------
     def write(self, results: Sequence[RunResult]) -> int:
         """Store a batch of results atomically; runs already stored are dropped. Returns the count.
