@@ -11,13 +11,15 @@ those of Miura, Gardner & Kruskal 1968.
 from __future__ import annotations
 
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
 
 from kdvsweep.model import Equation, Grid
 from kdvsweep.simulation import Simulation
-from kdvsweep.sweep.runner import Balance, balance
+from kdvsweep.sweep.config import DEFAULT_DRIFT_LIMIT, load_sweep
+from kdvsweep.sweep.runner import Balance, balance, execute
 
 GRID = Grid(n=512, length=60.0)
 T_END = 10.0
@@ -88,3 +90,52 @@ def test_zero_mean_data_mass_drift_is_absolute_round_off() -> None:
         assert b.drift["mass"] < 1e-13
         assert b.residual["mass"] < 1e-13
         assert b.residual["momentum"] < 1e-7
+
+
+DAMPED_SWEEP = """
+[sweep]
+name = "damped"
+
+[[vary]]
+g = [0.001, 0.01, 0.01]
+dt = [0.005, 0.005, 0.1]
+
+[model]
+equation = { a = 6, d = 1, g = "g" }
+points = 1024
+length = 60
+scheme = "etdrk4"
+dt = "dt"
+
+[initial]
+kind = "solitons"
+kappa = [0.8]
+position = [-10.0]
+
+[run]
+end = 20
+frame_every = 0.25
+"""
+
+
+def test_damped_sweep_runs_are_checked_by_their_residual(tmp_path: Path) -> None:
+    """In a sweep, a damped run's raw drifts are the decay (mass: 1 - exp(-g T), far above the
+    drift limit for int u^2) yet it is "ok", because the drift check reads the balance
+    residual; the same run with a step 20 times larger fails as "drift" (not checked at all
+    before: the check was for conservative runs only)."""
+    path = tmp_path / "damped.toml"
+    path.write_text(DAMPED_SWEEP)
+    sweep = load_sweep(path)
+    assert all("worst run 2" in w for w in sweep.warnings)  # only the coarse step is warned
+    rows = [execute(spec).run_row for spec in sweep.runs]
+    for row, g in zip(rows[:2], (1e-3, 1e-2), strict=True):
+        assert row["status"] == "ok"
+        assert row["mass_drift"] == pytest.approx(-math.expm1(-g * 20.0), rel=1e-9)
+        assert row["momentum_drift"] > 30 * g
+        assert row["mass_residual"] < 1e-11
+        assert row["momentum_residual"] < 1e-5
+        assert row["energy_residual"] < 1e-5
+        assert row["balance_quadrature"] < 1e-6
+    assert rows[2]["status"] == "failed"
+    assert rows[2]["failure"] == "drift"
+    assert rows[2]["momentum_residual"] > DEFAULT_DRIFT_LIMIT
