@@ -73,6 +73,12 @@ def test_quadrature_estimate_covers_coarse_frames(frames: int) -> None:
         assert abs(coarse.residual[key] - fine.residual[key]) < coarse.quadrature
 
 
+def test_two_frames_give_no_quadrature_estimate() -> None:
+    b = run(Equation(a=6.0, d=1.0, g=1e-3), soliton(), frames=2)
+    assert math.isnan(b.quadrature)
+    assert b.residual["mass"] < 1e-11  # the mass law is exact, no quadrature
+
+
 def test_conservative_residual_is_the_drift() -> None:
     b = run(Equation(a=6.0, d=1.0), soliton())
     assert b.residual == b.drift

@@ -268,7 +268,8 @@ def balance(frames: np.ndarray, times: np.ndarray, grid: Grid, equation: Equatio
         mom, ene = _rates(frames, grid, equation)
         explained["momentum"], err_m = _time_integral(times, mom)
         explained["energy"], err_e = _time_integral(times, ene)
-        quadrature = max(err_m / scale["momentum"], err_e / scale["energy"])
+        errors = (err_m / scale["momentum"], err_e / scale["energy"])
+        quadrature = math.nan if any(map(math.isnan, errors)) else max(errors)
     return Balance(
         drift={key: abs(change[key]) / scale[key] for key in _INVARIANTS},
         residual={key: abs(change[key] - explained[key]) / scale[key] for key in _INVARIANTS},

@@ -14,8 +14,9 @@ files). Every file is written to a temporary name in its own folder, fsync'ed, t
 ``os.replace``, so a file is either whole or absent even after SIGKILL or a power cut. A batch is
 committed by its runs part, which is written last: solitons parts and frames whose runs part is
 missing are leftovers of an interrupted batch and are ignored (and overwritten when the runs are
-redone). Readers keep the first stored row of each ``run_id`` of the sweep; rows of a ``run_id``
-outside the sweep are ignored (and reported). The manifest ties the folder to one sweep definition
+redone). Retrying failed runs (:meth:`Store.forget_failed`) rewrites each runs part that holds
+their rows without them, part by part with the same rename. Readers keep the first stored row of
+each ``run_id`` of the sweep; rows of a ``run_id`` outside the sweep are ignored (and reported). The manifest ties the folder to one sweep definition
 by its digest, so another sweep cannot be mixed in: the lock is taken before the manifest is
 written or checked, and the manifest is written last when a store is made, so a folder holding
 only the lock, empty table folders or temporary files is a store that was never finished.
