@@ -8,13 +8,14 @@ no source), so with it every run that steps fails as "drift".
 
 from __future__ import annotations
 
+import os
 from pathlib import Path
 
 import pytest
 from conftest import pair_sweep_text
 
 from kdvsweep import cli
-from kdvsweep.exceptions import ConfigError, NumericalError, TimeLimitError
+from kdvsweep.exceptions import ConfigError, NumericalError, StoreError, TimeLimitError
 from kdvsweep.sweep.config import DEFAULT_DRIFT_LIMIT, Sweep, load_sweep
 from kdvsweep.sweep.farm import local_client, run_sweep
 from kdvsweep.sweep.runner import DriftError, execute, failure_kind
@@ -121,3 +122,45 @@ def test_run_sweep_retry_failed_and_status_by_kind(
     assert "failures by kind:" in text
     assert "     1  blow-up" in text
     assert "drift" not in text
+
+
+def test_forget_failed_interrupted_leaves_a_whole_store(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """Batch 0 holds run 0 (ok) and run 1 (failed), batch 1 holds run 2 (failed). A disk that
+    refuses the rewrite of batch 0 changes nothing; one that refuses only the removal of batch 1
+    leaves run 1 pending and run 2 failed. Either way each run is stored at most once."""
+    plain, strict, out = sweep(tmp_path), sweep(tmp_path, "drift_limit = 1e-14\n"), tmp_path / "s"
+    with Store.open(out, plain) as store:
+        store.write([execute(plain.runs[0]), execute(plain.runs[1])])
+        store.write([execute(strict.runs[2])])
+    before = _stored(out)
+    assert before == ([0, 1, 2], {0: "ok", 1: "failed", 2: "failed"})
+
+    def refuse(*args: object, **kwargs: object) -> None:
+        raise OSError(28, "No space left on device")
+
+    with Store.open(out, plain) as store:
+        with monkeypatch.context() as m:
+            m.setattr(os, "replace", refuse)
+            with pytest.raises(StoreError, match="No space left"):
+                store.forget_failed()
+    assert _stored(out) == before
+
+    real_unlink = Path.unlink
+
+    def unlink(self: Path, missing_ok: bool = False) -> None:
+        if self.parent.name == "runs":
+            raise OSError(13, "Permission denied")
+        real_unlink(self, missing_ok=missing_ok)
+
+    with Store.open(out, plain) as store:
+        with monkeypatch.context() as m:
+            m.setattr(Path, "unlink", unlink)
+            with pytest.raises(StoreError, match="Permission denied"):
+                store.forget_failed()
+    assert _stored(out) == ([0, 2], {0: "ok", 2: "failed"})
+    with Store.open(out, plain) as store:  # the next retry finishes the job
+        assert store.forget_failed() == {2}
+        store.write([execute(spec) for spec in store.pending(plain.runs)])
+    assert _stored(out) == ([0, 1, 2], {0: "ok", 1: "failed", 2: "ok"})
