@@ -83,3 +83,35 @@ def pair_sweep(folder: Path, name: str, k2: list[float], **options: Any) -> Swee
     path = folder / f"{name}.toml"
     path.write_text(pair_sweep_text(name, k2, **options), encoding="utf-8")
     return load_sweep(path)
+
+
+#: A small valid sweep file (a KdV pair over two kappas) that the loader tests edit.
+SWEEP_TEXT = """\
+[sweep]
+name = "t"
+
+[[vary]]
+k2 = [0.4, 0.5]
+
+[model]
+equation = "kdv"
+points = 512
+length = 60.0
+scheme = "etdrk4"
+dt = 2.5e-3
+
+[initial]
+kind = "solitons"
+kappa = [1.0, "k2"]
+position = [-10.0, 10.0]
+
+[run]
+end = 10.0
+frame_every = 0.5
+"""
+
+
+def edit(old: str, new: str, base: str = SWEEP_TEXT) -> str:
+    """``base`` (default :data:`SWEEP_TEXT`) with ``old``, which must be there, replaced once."""
+    assert old in base, old
+    return base.replace(old, new, 1)

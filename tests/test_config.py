@@ -10,6 +10,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from conftest import SWEEP_TEXT as BASE
+from conftest import edit
 from scipy.stats import qmc
 
 import kdvsweep as kv
@@ -18,29 +20,6 @@ from kdvsweep.sweep import RunSpec, Sweep, load_sweep, sizing
 
 SWEEPS = Path(__file__).resolve().parent.parent / "sweeps"
 
-BASE = """\
-[sweep]
-name = "t"
-
-[[vary]]
-k2 = [0.4, 0.5]
-
-[model]
-equation = "kdv"
-points = 512
-length = 60.0
-scheme = "etdrk4"
-dt = 2.5e-3
-
-[initial]
-kind = "solitons"
-kappa = [1.0, "k2"]
-position = [-10.0, 10.0]
-
-[run]
-end = 10.0
-frame_every = 0.5
-"""
 
 NPY = BASE.replace(
     'kind = "solitons"\nkappa = [1.0, "k2"]\nposition = [-10.0, 10.0]',
@@ -69,11 +48,6 @@ def write(tmp_path: Path, text: str, name: str = "sweep.toml") -> Path:
     path = tmp_path / name
     path.write_text(text)
     return path
-
-
-def edit(old: str, new: str, base: str = BASE) -> str:
-    assert old in base, old
-    return base.replace(old, new, 1)
 
 
 # (id, file text, fragments the one-line message must contain; the first names the key)

@@ -23,6 +23,8 @@ from typing import Any
 
 import numpy as np
 import pytest
+from conftest import SWEEP_TEXT as BASE
+from conftest import edit
 
 import kdvsweep as kv
 from kdvsweep.analysis import collision_table
@@ -31,29 +33,6 @@ from kdvsweep.sweep import load_sweep, sizing
 from kdvsweep.sweep.config import MAX_RUN_BYTES, MAX_STEPS, safe_name
 from kdvsweep.sweep.expr import ExpressionError, parse
 
-BASE = """\
-[sweep]
-name = "t"
-
-[[vary]]
-k2 = [0.4, 0.5]
-
-[model]
-equation = "kdv"
-points = 512
-length = 60.0
-scheme = "etdrk4"
-dt = 2.5e-3
-
-[initial]
-kind = "solitons"
-kappa = [1.0, "k2"]
-position = [-10.0, 10.0]
-
-[run]
-end = 10.0
-frame_every = 0.5
-"""
 SOLITONS = 'kind = "solitons"\nkappa = [1.0, "k2"]\nposition = [-10.0, 10.0]'
 NPY = BASE.replace(SOLITONS, 'kind = "npy"\nfile = "u0.npy"')
 AUTO = (
@@ -83,11 +62,6 @@ def deadline(seconds: float) -> Iterator[None]:
     finally:
         signal.setitimer(signal.ITIMER_REAL, 0)
         signal.signal(signal.SIGALRM, previous)
-
-
-def edit(old: str, new: str, base: str = BASE) -> str:
-    assert old in base, old
-    return base.replace(old, new, 1)
 
 
 def npy_header_only(path: Path, shape: tuple[int, ...]) -> None:
