@@ -3,8 +3,11 @@
 from __future__ import annotations
 
 import os
+import threading
+import time
+from collections.abc import Callable
 from pathlib import Path
-from typing import Any
+from typing import Any, TypeVar
 
 # Dense eigen-solves on a shared 2-core machine run far faster single-threaded; set before numpy loads.
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
@@ -13,6 +16,8 @@ import numpy as np
 
 import kdvsweep as kv
 from kdvsweep.sweep import Sweep, load_sweep
+
+T = TypeVar("T")
 
 
 def periodic_soliton(
@@ -115,3 +120,30 @@ def edit(old: str, new: str, base: str = SWEEP_TEXT) -> str:
     """``base`` (default :data:`SWEEP_TEXT`) with ``old``, which must be there, replaced once."""
     assert old in base, old
     return base.replace(old, new, 1)
+
+
+def ticks_during(call: Callable[[], T]) -> tuple[T, int, float]:
+    """Run ``call`` while another Python thread counts millisecond ticks.
+
+    Returns the call's result, the ticks counted and the call's wall time: with the GIL held
+    through the call the counter could not advance at all.
+    """
+    ticks = 0
+    stop = threading.Event()
+
+    def count() -> None:
+        nonlocal ticks
+        while not stop.is_set():
+            ticks += 1
+            time.sleep(0.001)
+
+    thread = threading.Thread(target=count)
+    thread.start()
+    start = time.perf_counter()
+    try:
+        result = call()
+    finally:
+        elapsed = time.perf_counter() - start
+        stop.set()
+        thread.join()
+    return result, ticks, elapsed

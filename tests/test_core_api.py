@@ -3,11 +3,10 @@
 from __future__ import annotations
 
 import math
-import threading
-import time
 
 import numpy as np
 import pytest
+from conftest import ticks_during
 
 import kdvsweep as kv
 from kdvsweep import _core
@@ -54,22 +53,7 @@ def test_advance_releases_the_gil() -> None:
     # A Python thread keeps running while a long advance is in Rust (advance releases the GIL).
     sim = kv.Simulation(kv.Grid(1024, 80.0), kv.Equation.kdv(), dt=1e-4)
     sim.set_state(kv.exact.soliton(np.linspace(-40, 40, 1024, endpoint=False), 0.0, 1.0))
-    ticks = 0
-    stop = threading.Event()
-
-    def count() -> None:
-        nonlocal ticks
-        while not stop.is_set():
-            ticks += 1
-            time.sleep(0.001)
-
-    thread = threading.Thread(target=count)
-    thread.start()
-    start = time.perf_counter()
-    sim.advance(1.0)
-    elapsed = time.perf_counter() - start
-    stop.set()
-    thread.join()
+    _, ticks, elapsed = ticks_during(lambda: sim.advance(1.0))
     # With the GIL held the counter could not advance at all during the call.
     assert ticks >= min(5, int(elapsed / 0.01))
     assert ticks > 0

@@ -10,7 +10,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from conftest import pair_sweep
+from conftest import pair_sweep, ticks_during
 
 import kdvsweep as kv
 from kdvsweep import _core
@@ -156,22 +156,9 @@ def _many_solitons(count: int) -> tuple[np.ndarray, np.ndarray]:
 def test_a_long_multisoliton_lets_other_threads_run() -> None:
     # 15 solitons on 64 points: 2 million subset terms, a large fraction of a second.
     kappas, x0s = _many_solitons(15)
-    ticks = 0
-    stop = threading.Event()
-
-    def count() -> None:
-        nonlocal ticks
-        while not stop.is_set():
-            ticks += 1
-            time.sleep(0.001)
-
-    thread = threading.Thread(target=count)
-    thread.start()
-    start = time.perf_counter()
-    u = kv.exact.multisoliton(np.linspace(-5, 5, 64), 0.0, kappas, x0s)
-    elapsed = time.perf_counter() - start
-    stop.set()
-    thread.join()
+    u, ticks, elapsed = ticks_during(
+        lambda: kv.exact.multisoliton(np.linspace(-5, 5, 64), 0.0, kappas, x0s)
+    )
     assert np.all(np.isfinite(u))
     # With the GIL held the counter could not advance at all during the call.
     assert ticks >= min(5, int(elapsed / 0.01))
