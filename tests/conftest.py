@@ -16,6 +16,8 @@ import numpy as np
 
 import kdvsweep as kv
 from kdvsweep.sweep import Sweep, load_sweep
+from kdvsweep.sweep.runner import execute
+from kdvsweep.sweep.store import Store
 
 T = TypeVar("T")
 
@@ -147,3 +149,14 @@ def ticks_during(call: Callable[[], T]) -> tuple[T, int, float]:
         stop.set()
         thread.join()
     return result, ticks, elapsed
+
+
+def make_store(folder: Path, text: str, name: str = "sweep") -> Path:
+    """Run a sweep file serially through the runner into a store (what the farm does)."""
+    path = folder / f"{name}.toml"
+    path.write_text(text, encoding="utf-8")
+    sweep = load_sweep(path)
+    out = folder / name
+    with Store.open(out, sweep) as store:
+        store.write([execute(spec) for spec in sweep.runs])
+    return out

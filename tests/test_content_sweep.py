@@ -17,6 +17,7 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
+from conftest import make_store
 
 import kdvsweep as kv
 from kdvsweep import columns, initial, spectrum
@@ -25,7 +26,6 @@ from kdvsweep.results import Results, load
 from kdvsweep.sweep import sizing
 from kdvsweep.sweep.config import load_sweep
 from kdvsweep.sweep.runner import execute
-from kdvsweep.sweep.store import Store
 
 WELLS = """
 [sweep]
@@ -55,17 +55,6 @@ tail = 1e-4
 [[vary]]
 h = [6.0, 2.0]
 """
-
-
-def make_store(folder: Path, text: str, name: str = "sweep") -> Path:
-    """Run a sweep file serially through the runner into a store (what the farm does)."""
-    path = folder / f"{name}.toml"
-    path.write_text(text, encoding="utf-8")
-    sweep = load_sweep(path)
-    out = folder / name
-    with Store.open(out, sweep) as store:
-        store.write([execute(spec) for spec in sweep.runs])
-    return out
 
 
 @pytest.fixture(scope="module")

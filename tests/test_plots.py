@@ -15,15 +15,13 @@ from typing import Any
 import numpy as np
 import pandas as pd
 import pytest
+from conftest import make_store
 
 import kdvsweep as kv
 from kdvsweep import cli, plots
 from kdvsweep.analysis import analyse_run
 from kdvsweep.exceptions import ConfigError
 from kdvsweep.results import load
-from kdvsweep.sweep.config import load_sweep
-from kdvsweep.sweep.runner import execute
-from kdvsweep.sweep.store import Store
 from kdvsweep.theory import phase_shifts
 
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
@@ -266,17 +264,6 @@ frame_every = 0.2
 keep_frames = true
 keep_stride = 2
 """
-
-
-def make_store(folder: Path, text: str, name: str) -> Path:
-    """Run a sweep file serially through the runner into a store (what the farm does)."""
-    path = folder / f"{name}.toml"
-    path.write_text(text, encoding="utf-8")
-    sweep = load_sweep(path)
-    out = folder / name
-    with Store.open(out, sweep) as store:
-        store.write([execute(spec) for spec in sweep.runs])
-    return out
 
 
 @pytest.fixture(scope="module")
