@@ -141,6 +141,19 @@ class Solitons:
         return u
 
 
+def _finite_fields(data: object, names: tuple[str, ...]) -> None:
+    """Check that the fields ``names`` of a frozen dataclass are finite numbers; store them as floats."""
+    for name in names:
+        value = getattr(data, name)
+        if (
+            isinstance(value, bool)
+            or not isinstance(value, int | float)
+            or not math.isfinite(value)
+        ):
+            raise ConfigError(f"initial: {name} must be a finite number, got {value!r}")
+        object.__setattr__(data, name, float(value))
+
+
 @dataclass(frozen=True)
 class Profile:
     """``height sech^2((x - center)/scale)`` (``shape="sech2"``) or ``height exp(-((x -
@@ -154,15 +167,7 @@ class Profile:
     def __post_init__(self) -> None:
         if self.shape not in ("sech2", "gaussian"):
             raise ConfigError(f"initial: profile shape {self.shape!r}; expected sech2 or gaussian")
-        for name in ("height", "scale", "center"):
-            value = getattr(self, name)
-            if (
-                isinstance(value, bool)
-                or not isinstance(value, int | float)
-                or not math.isfinite(value)
-            ):
-                raise ConfigError(f"initial: {name} must be a finite number, got {value!r}")
-            object.__setattr__(self, name, float(value))
+        _finite_fields(self, ("height", "scale", "center"))
         if not self.scale > 0:
             raise ConfigError(f"initial: {self.shape} scale must be positive, got {self.scale}")
 
@@ -206,15 +211,7 @@ class Box:
     edge: float = 0.0
 
     def __post_init__(self) -> None:
-        for name in ("height", "half_width", "center", "edge"):
-            value = getattr(self, name)
-            if (
-                isinstance(value, bool)
-                or not isinstance(value, int | float)
-                or not math.isfinite(value)
-            ):
-                raise ConfigError(f"initial: {name} must be a finite number, got {value!r}")
-            object.__setattr__(self, name, float(value))
+        _finite_fields(self, ("height", "half_width", "center", "edge"))
         if self.edge < 0:
             raise ConfigError(
                 f"initial: box edge must be >= 0 (0 is a sharp edge), got {self.edge}"
