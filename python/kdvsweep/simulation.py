@@ -244,6 +244,10 @@ def memory_needed(n: int, frames: int = 0) -> int:
     return _core.simulation_memory(int(n)) + 8 * int(frames) * int(n)
 
 
+#: The names of :func:`invariants`, in order.
+INVARIANTS = ("mass", "momentum", "energy")
+
+
 def invariants(u: object, grid: Grid, equation: Equation) -> dict[str, float]:
     """The first three conserved quantities of a profile, computed spectrally.
 
@@ -253,7 +257,7 @@ def invariants(u: object, grid: Grid, equation: Equation) -> dict[str, float]:
     mass, momentum, energy = _core.invariants(
         as_profile(u, grid.n), grid.length, **equation.core_fields()
     )
-    return {"mass": mass, "momentum": momentum, "energy": energy}
+    return dict(zip(INVARIANTS, (mass, momentum, energy), strict=True))
 
 
 __all__ = [
@@ -261,6 +265,7 @@ __all__ = [
     "DEFAULT_DT",
     "DEFAULT_SCHEME",
     "DEFAULT_TOL",
+    "INVARIANTS",
     "SCHEMES",
     "Simulation",
     "invariants",

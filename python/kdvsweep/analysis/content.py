@@ -78,7 +78,7 @@ from scipy.optimize import least_squares, linear_sum_assignment
 
 from ..exceptions import ConfigError
 from ..model import Equation, Grid, SolitonForm
-from ..simulation import invariants
+from ..simulation import INVARIANTS, invariants
 from ..spectrum import SolitonContent, breather_speeds
 from .peaks import find_peaks
 from .tracks import check_record
@@ -114,8 +114,6 @@ MAX_BREATHERS = 8
 MAX_EVALUATIONS = 60
 #: Lumps of the residual tried as breathers and rejected before the search stops.
 MAX_REJECTED = 2
-#: Invariant names, as :func:`kdvsweep.simulation.invariants` returns them.
-INVARIANTS = ("mass", "momentum", "energy")
 
 
 @dataclass(frozen=True)

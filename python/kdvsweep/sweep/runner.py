@@ -21,7 +21,7 @@ from .. import analysis, initial, theory
 from ..columns import FAILURE_KINDS, TIMING_COLUMNS, has_content
 from ..exceptions import ConfigError, NumericalError, TimeLimitError
 from ..model import Equation, Grid
-from ..simulation import Simulation, invariants
+from ..simulation import INVARIANTS, Simulation, invariants
 from ..spectrum import SolitonContent
 from . import sizing
 from .config import RunSpec
@@ -109,8 +109,6 @@ ROUND_OFF_FRACTION = 1e-8
 
 #: Frames whose spectral derivatives are evaluated together in :func:`balance` (bounds memory).
 _BALANCE_CHUNK = 64
-
-_INVARIANTS = ("mass", "momentum", "energy")
 
 
 @dataclass(frozen=True)
@@ -255,12 +253,12 @@ def balance(frames: np.ndarray, times: np.ndarray, grid: Grid, equation: Equatio
     natural = _natural_scales(np.asarray(frames[0], dtype=np.float64), grid, equation)
     absolute = {
         key
-        for key in _INVARIANTS
+        for key in INVARIANTS
         if first[key] == 0.0 or abs(first[key]) < ROUND_OFF_FRACTION * natural[key]
     }
-    scale = {key: 1.0 if key in absolute else abs(first[key]) for key in _INVARIANTS}
-    change = {key: last[key] - first[key] for key in _INVARIANTS}
-    explained = dict.fromkeys(_INVARIANTS, 0.0)
+    scale = {key: 1.0 if key in absolute else abs(first[key]) for key in INVARIANTS}
+    change = {key: last[key] - first[key] for key in INVARIANTS}
+    explained = dict.fromkeys(INVARIANTS, 0.0)
     quadrature = 0.0
     span = float(times[-1] - times[0])
     if not equation.conservative:
@@ -271,8 +269,8 @@ def balance(frames: np.ndarray, times: np.ndarray, grid: Grid, equation: Equatio
         errors = (err_m / scale["momentum"], err_e / scale["energy"])
         quadrature = math.nan if any(map(math.isnan, errors)) else max(errors)
     return Balance(
-        drift={key: abs(change[key]) / scale[key] for key in _INVARIANTS},
-        residual={key: abs(change[key] - explained[key]) / scale[key] for key in _INVARIANTS},
+        drift={key: abs(change[key]) / scale[key] for key in INVARIANTS},
+        residual={key: abs(change[key] - explained[key]) / scale[key] for key in INVARIANTS},
         quadrature=float(quadrature),
         absolute=frozenset(absolute),
     )
@@ -638,7 +636,7 @@ def execute(spec: RunSpec, simulation: SimulationFactory | None = None) -> RunRe
             times = np.append(times, sim.time)
             frames = np.concatenate([frames, final[None, :]])
         kept_balance = balance(frames, times, grid, equation)
-        for key in _INVARIANTS:
+        for key in INVARIANTS:
             row[f"{key}_drift"] = kept_balance.drift[key]
             row[f"{key}_residual"] = kept_balance.residual[key]
         row["balance_quadrature"] = kept_balance.quadrature
