@@ -124,7 +124,6 @@ def _run(args: argparse.Namespace, file: Path) -> int:
         say(f"warning: {warning}")
     out = args.out if args.out is not None else Path("results") / sweep.name
     chunk = args.chunk_seconds if args.chunk_seconds is not None else CHUNK_SECONDS
-    _say_store_state(out)
     try:
         with Progress(enabled=args.progress) as bar:
             report = run(
@@ -154,26 +153,6 @@ def _demo(args: argparse.Namespace) -> int:
     if code:
         return code
     return _table(args.out)
-
-
-def _say_store_state(out: Path) -> None:
-    """Before a run resumes a store: one line on what it will set aside or not count."""
-    from ..sweep.store import MANIFEST, check_store
-
-    if not (out / MANIFEST).is_file():
-        return
-    try:
-        check = check_store(out)
-    except ConfigError:
-        return  # the run itself says what is wrong with the folder
-    if check.damaged:
-        more = f" (and {len(check.damaged) - 1} more)" if len(check.damaged) > 1 else ""
-        say(
-            f"warning: {len(check.damaged)} damaged batch(es) in {out}: {check.damaged[0]}{more}; "
-            "set aside as *.damaged, their runs are run again"
-        )
-    for line in check.ignored:
-        say(f"warning: {out}/{line}")
 
 
 def _damage_lines(res: Any) -> int:

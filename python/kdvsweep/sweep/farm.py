@@ -630,6 +630,19 @@ def _profile(cluster: str | os.PathLike[str] | ClusterProfile) -> ClusterProfile
     return cluster if isinstance(cluster, ClusterProfile) else load_profile(cluster)
 
 
+def _store_notes(store: Store) -> list[str]:
+    """One line per thing an opened store set aside (damaged batches) or does not count."""
+    lines = []
+    if store.repaired:
+        more = f" (and {len(store.repaired) - 1} more)" if len(store.repaired) > 1 else ""
+        lines.append(
+            f"warning: {len(store.repaired)} damaged batch(es) in {store.out}: "
+            f"{store.repaired[0]}{more}; set aside as *.damaged, their runs are run again"
+        )
+    lines += [f"warning: {store.out}/{line}" for line in store.ignored]
+    return lines
+
+
 def run(
     sweep: str | os.PathLike[str] | Sweep,
     out: str | os.PathLike[str] | None = None,
@@ -663,7 +676,8 @@ def run(
     on_progress
         Called as ``on_progress(done, failed, total)`` (see :data:`ProgressCallback`).
     on_message
-        Receives one-line messages of a batch cluster.
+        Receives one-line messages: of the store (damaged batches set aside, rows not counted)
+        and of a batch cluster.
     chunk_seconds
         Target wall time of one task.
     retry_failed
@@ -682,8 +696,12 @@ def run(
     loaded = sweep if isinstance(sweep, Sweep) else load_sweep(Path(sweep))
     target = Path(out) if out is not None else Path("results") / loaded.name
     profile = _profile(cluster) if cluster is not None else None  # a bad profile fails first
-    # Refuse a folder of another sweep (or not a store at all) before any cluster starts.
-    Store.open(target, loaded).close()
+    # Refuse a folder of another sweep (or not a store at all) before any cluster starts; this
+    # open also sets damaged batches aside, which the caller hears of.
+    with Store.open(target, loaded) as opened:
+        if on_message is not None:
+            for line in _store_notes(opened):
+                on_message(line)
     with _interrupt_guard(), contextlib.ExitStack() as stack:
         client = None  # the embedded cluster starts in run_sweep, only if runs are pending
         if scheduler is not None or profile is not None:
