@@ -64,7 +64,7 @@ def test_canonical_soliton_numbers() -> None:
 
 
 def test_no_soliton_form_says_why() -> None:
-    for eq in (kv.Equation.gardner(), kv.Equation.mkdv(-1), kv.Equation(a=0.0)):
+    for eq in (kv.Equation.gardner(d=0.0), kv.Equation.mkdv(-1), kv.Equation(a=0.0)):
         assert eq.soliton_form_or_none() is None
         with pytest.raises(kv.ConfigError, match="no soliton formula"):
             _ = eq.soliton_form
@@ -72,7 +72,8 @@ def test_no_soliton_form_says_why() -> None:
 
 def test_perturbation_flags() -> None:
     assert kv.Equation.kdv().integrable
-    assert not kv.Equation.gardner().integrable  # no soliton formula in kdvsweep yet
+    assert kv.Equation.gardner().integrable  # Miura, Gardner & Kruskal 1968 (from memory)
+    assert not kv.Equation.gardner(d=0.0).integrable  # no dispersion, no solitons
     damped = kv.Equation.kdv(g=1e-3)
     assert damped.perturbed
     assert not damped.conservative

@@ -155,7 +155,7 @@ def test_bad_inputs_raise_named_errors() -> None:
     with pytest.raises(ConfigError, match="focusing mKdV"):
         theory.speeds([1.0], "mkdv-")
     with pytest.raises(ConfigError, match="focusing mKdV"):
-        theory.phase_shifts([1.0, 0.5], Equation.gardner())
+        theory.phase_shifts([1.0, 0.5], Equation(a=0.0, b=6.0, d=0.0))
     with pytest.raises(ConfigError, match="unknown preset"):
         theory.speeds([1.0], "burgers")
     with pytest.raises(ConfigError, match="do not interact"):

@@ -21,10 +21,10 @@ def _coefficients(equation: str | Equation) -> tuple[str, float, float]:
     """``(family, nonlinear coefficient, d)`` of an unperturbed KdV or focusing mKdV equation."""
     eq = Equation.coerce(equation, "exact")
     form = eq.soliton_form_or_none()
-    if form is None or eq.perturbed:
+    if form is None or eq.perturbed or form.family == "gardner":
         raise ConfigError(
-            f"exact: no exact soliton for {eq.describe()}; expected an unperturbed KdV or "
-            "focusing mKdV equation"
+            f"exact: no exact N-soliton for {eq.describe()}; expected an unperturbed KdV or "
+            "focusing mKdV equation (Gardner: one solitary wave, exact.soliton)"
         )
     return form.family, (eq.a if form.family == "kdv" else eq.b), eq.d
 
@@ -79,11 +79,21 @@ def soliton(
     sign: float = 1.0,
 ) -> np.ndarray:
     """One soliton: ``2 kappa^2 sech^2(kappa (x - 4 kappa^2 t - x0))`` for KdV,
-    ``2 kappa sech(2 kappa (x - 4 kappa^2 t - x0))`` for focusing mKdV (canonical forms).
+    ``2 kappa sech(2 kappa (x - 4 kappa^2 t - x0))`` for focusing mKdV (canonical forms), and the
+    Gardner solitary wave of polarity ``sign`` (:class:`kdvsweep.model.SolitonForm`, moving at
+    ``4 d kappa^2``).
 
     Raises :class:`ConfigError` as :func:`multisoliton` does, e.g. for ``kappa = 1e200`` (the
-    amplitude overflows).
+    amplitude overflows), and for a Gardner ``kappa`` beyond the table-top limit or a polarity the
+    equation has no wave of.
     """
+    eq = Equation.coerce(equation, "exact")
+    form = eq.soliton_form_or_none()
+    if form is not None and form.family == "gardner" and not eq.perturbed:
+        if not (np.isfinite(kappa) and kappa > 0):
+            raise ConfigError(f"exact: kappa must be finite and positive, got {kappa}")
+        centre = x0 + float(form.speed(kappa)) * float(t)
+        return np.asarray(form.profile(x, float(kappa), centre, int(sign)))
     kind, _, _ = _coefficients(equation)
     return multisoliton(x, t, [kappa], [x0], equation, signs=None if kind == "kdv" else [sign])
 

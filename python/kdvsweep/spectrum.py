@@ -259,13 +259,14 @@ def _form(equation: str | Equation) -> _Form:
             f"v={eq.v}); expected an integrable KdV or mKdV equation (f = g = v = 0)"
         )
     solitons = eq.soliton_form_or_none()
-    if solitons is not None:
+    if solitons is not None and solitons.family != "gardner":
         return _Form(solitons.family, solitons.alpha, solitons.d, True)
     if eq.family == "mkdv" and eq.d != 0:  # defocusing: ZS is self-adjoint, no solitons
         return _Form("mkdv", float(np.sqrt(abs(6.0 * eq.d / eq.b))), eq.d, False)
     raise ConfigError(
         f"bound_states: equation {eq.name!r} ({eq.describe()}) has no spectral problem here; "
-        "expected KdV (a != 0, b = 0, d != 0) or mKdV (a = 0, b != 0, d != 0)"
+        "expected KdV (a != 0, b = 0, d != 0) or mKdV (a = 0, b != 0, d != 0) (Gardner's is the "
+        "mKdV problem on a non-zero background, not implemented)"
     )
 
 

@@ -1,4 +1,4 @@
-"""Analytic results for KdV and mKdV soliton collisions: speeds, amplitudes, shifts, regimes.
+"""Analytic results for KdV, mKdV and Gardner soliton collisions: speeds, amplitudes, shifts.
 
 Solitons are labelled by ``kappa``, the inverse-scattering parameter: the bound state
 ``lambda = -kappa^2`` of the Schrödinger problem for KdV, the Zakharov-Shabat eigenvalue
@@ -29,6 +29,20 @@ The N-soliton tau function has only pairwise factors ``A_ij``, so the shifts add
 For mKdV the Hirota function ``f`` carries the same ``A_ij`` (the polarity enters only as a
 constant phase ``i eps_i``), so same- and opposite-polarity pairs shift identically and, in
 kappa, as KdV.
+
+Gardner ``u_t + (a u + b u^2) u_x + d u_xxx = 0`` has the same shifts in kappa (its solitons
+move at ``4 d kappa^2``, :class:`kdvsweep.model.SolitonForm`). Derivation, in the canonical form
+``v_t + 6 (v + e^2 v^2) v_x + v_xxx = 0`` (``mu = e^2 > 0``): the Gardner transformation
+``w = v + e v_x + e^2 v^2`` maps every solution ``v`` to a solution ``w`` of KdV ``w_t + 6 w w_x +
+w_xxx = 0`` (Miura, Gardner & Kruskal 1968, J. Math. Phys. 9, 1204; from memory). It is local and
+commutes with translations, so it maps a solitary wave of speed ``c`` to the KdV soliton of the
+same speed (the only decaying travelling waves of KdV), centred at a fixed offset ``delta(kappa)``
+from it; a Gardner 2-soliton, exactly two solitary waves as ``t -> +-inf``, maps to the KdV
+2-soliton of the same kappas. The offsets cancel in ``x^+ - x^-``, so each Gardner soliton shifts as
+the KdV soliton of its kappa, whatever the polarities. For ``mu < 0`` the map has imaginary ``e``;
+the shifts, analytic in ``mu``, continue unchanged (checked against simulations in the tests). A
+Gardner equation has no simple sum rule: ``d/dt int x u dx = int (a u^2 / 2 + b u^3 / 3)`` is not
+conserved when ``a b != 0``.
 
 Sources: Gardner, Greene, Kruskal & Miura 1974 (Comm. Pure Appl. Math. 27, 97); Ablowitz &
 Segur 1981, *Solitons and the Inverse Scattering Transform*, SIAM, Ch. 1; Drazin & Johnson 1989,
@@ -115,7 +129,8 @@ def kappa_from_amplitude(amplitude: ArrayLike, equation: str | Equation = "kdv")
 
 
 def pair_shift(kappa_i: float, kappa_j: float) -> float:
-    """Shift of soliton ``i`` from one collision with soliton ``j`` (KdV and mKdV alike, in kappa).
+    """Shift of soliton ``i`` from one collision with soliton ``j`` (KdV, mKdV and Gardner alike,
+    in kappa).
 
     ``(1/kappa_i) sign(kappa_i - kappa_j) ln((kappa_i + kappa_j)/|kappa_i - kappa_j|)``: forward for
     the faster soliton, backward for the slower. Gardner et al. 1974; Ablowitz & Segur 1981, Ch. 1.
