@@ -2,8 +2,9 @@
 
 Kinematics (unperturbed speeds ``c_i = 4 d kappa_i^2``, centres ``p_i + c_i t`` between collisions):
 
-- *Gap.* Both families have tails ``C e^{-2 kappa |x - x0|}`` relative to the peak, ``C = 4`` for
-  KdV (``sech^2``, Korteweg & de Vries 1895) and ``C = 2`` for mKdV (``sech``, Wadati 1973). Two
+- *Gap.* Every family has tails ``C e^{-2 kappa |x - x0|}`` relative to the peak, ``C = 4`` for
+  KdV (``sech^2``, Korteweg & de Vries 1895), ``C = 2`` for mKdV (``sech``, Wadati 1973) and
+  ``C = 2 (1 + s r) / (s r)`` for Gardner (:class:`kdvsweep.model.SolitonForm`). Two
   solitons count as apart when the wider one's tail at the other's centre is below ``tail``:
   ``s_ij = ln(C / tail) / (2 min(kappa_i, kappa_j))``. Auto positions put neighbours ``s_ij``
   apart, in the listed order, the group centred on ``x = 0``.
@@ -55,13 +56,19 @@ if TYPE_CHECKING:
 WARN_DECADES = 16
 REFUSE_DECADES = 6
 DT_RULE = 2.0 * math.sqrt(2.0)
-#: Relative tail height ``C`` of ``C e^{-2 kappa |x|}``: ``sech^2`` (KdV) and ``sech`` (mKdV).
-TAIL_CONSTANT = {"kdv": 4.0, "mkdv": 2.0}
+
+
+def reach(kappa: float, form: SolitonForm, tail: float) -> float:
+    """Distance from a soliton's centre to where its relative tail ``C e^{-2 kappa |x|}`` is
+    ``tail``, ``ln(C / tail) / (2 kappa)``, with ``C`` of :meth:`SolitonForm.tail_constant` (the
+    larger over the equation's polarities; near Gardner's table-top limit it covers the plateau)."""
+    constant = max(form.tail_constant(kappa, s) for s in form.polarities)
+    return math.log(constant / tail) / (2.0 * kappa)
 
 
 def gap(k_i: float, k_j: float, form: SolitonForm, tail: float) -> float:
     """Centre distance where the wider soliton's relative tail at the other's centre is ``tail``."""
-    return math.log(TAIL_CONSTANT[form.family] / tail) / (2.0 * min(k_i, k_j))
+    return reach(min(k_i, k_j), form, tail)
 
 
 def shift_bound(k_i: float, k_j: float) -> float:
@@ -383,7 +390,7 @@ def separation(
         if not it.speed > 0:
             times.append(math.inf)
             continue
-        own = width + bounds[i] + math.log(TAIL_CONSTANT[form.family] / tail) / (2.0 * it.kappa)
+        own = width + bounds[i] + reach(it.kappa, form, tail)
         t = own / it.speed
         for _ in range(60):  # t = (own + airy(t)) / c: a contraction (airy grows like t^(1/3))
             t = (own + _airy_reach(form.d, t, tail, share)) / it.speed
@@ -430,10 +437,7 @@ def content_length(
     b = 2.0 * max(bounds, default=0.0)
     c_max = max((it.speed for it in moving), default=0.0)
     v_left = max([v_rad, *(-it.speed for it in items if it.speed < 0)])
-    front = max(
-        (math.log(TAIL_CONSTANT[form.family] / tail) / (2.0 * it.kappa) for it in moving),
-        default=0.0,
-    )
+    front = max((reach(it.kappa, form, tail) for it in moving), default=0.0)
     return width + b + front + (c_max + v_left) * t_end + _airy_reach(form.d, t_end, tail, share)
 
 
