@@ -76,6 +76,7 @@ import numpy as np
 import pandas as pd
 from scipy.optimize import least_squares, linear_sum_assignment
 
+from ..exact import breather_profile as breather_profile  # the one formula
 from ..exceptions import ConfigError
 from ..model import Equation, Grid, SolitonForm
 from ..simulation import INVARIANTS, invariants
@@ -283,33 +284,6 @@ class ContentMeasurement:
 # ----------------------------------------------------------------------------- shapes
 
 
-def breather_profile(
-    x: np.ndarray,
-    eta: float,
-    xi: float,
-    centre: float = 0.0,
-    phase: float = 0.0,
-    alpha: float = 1.0,
-) -> np.ndarray:
-    """The mKdV breather at one instant: ``alpha 2 d/dx arctan[(eta/xi) cos(theta) sech(R)]``.
-
-    ``theta = 2 xi (x - centre) + phase``, ``R = 2 eta (x - centre)``: the canonical breather of
-    ``u_t + 6 u^2 u_x + u_xxx = 0`` (Wadati 1973; Lamb 1980, from memory) with ``a = 2 eta``,
-    ``b = 2 xi``, scaled by ``alpha`` (:attr:`kdvsweep.model.SolitonForm.alpha`). Written with
-    ``sech`` so it never overflows.
-    """
-    from ..model import sech
-
-    z = np.asarray(x, dtype=np.float64) - centre
-    theta = 2.0 * xi * z + phase
-    r = 2.0 * eta * z
-    s = sech(r)
-    ratio = eta / xi
-    f = ratio * np.cos(theta) * s
-    fx = ratio * s * (-2.0 * xi * np.sin(theta) - 2.0 * eta * np.cos(theta) * np.tanh(r))
-    return alpha * 2.0 * fx / (1.0 + f * f)
-
-
 def _wrap(z: np.ndarray | float, length: float) -> Any:
     return (np.asarray(z) + 0.5 * length) % length - 0.5 * length
 
@@ -431,7 +405,7 @@ def _find_solitons(u: np.ndarray, shapes: _Shapes, threshold: float) -> list[_Sh
         x0, h = float(peaks.x[j]), float(peaks.height[j])
         if any(abs(_wrap(x0 - s.centre, shapes.length)) < 4.0 * s.tail for s in found):
             continue
-        sign = int(peaks.sign[j]) if form.family == "mkdv" else form.sign
+        sign = int(peaks.sign[j]) if len(form.polarities) > 1 else form.sign
         start = _Shape("soliton", sign, np.array([form.kappa_of_height(h), x0]))
         fitted = shapes.fit(start, u, total)
         if fitted is None or fitted[2] > SHAPE_TOLERANCE:
@@ -621,9 +595,12 @@ def _measure(fol: _Followed, t: np.ndarray, form: SolitonForm) -> EmergingSolito
     kappa, kappa_u = _mean(params[late, 0], errors[late, 0])
     speed, speed_u = _slope(tt[late], params[late, ci])
     if kind == "soliton":
-        amps = np.asarray(form.amplitude(params[late, 0]))
-        power = 2.0 if form.family == "kdv" else 1.0  # amplitude ~ kappa^power
-        damp = power * amps / params[late, 0] * errors[late, 0]
+        sign = fol.shape.sign
+        ks = params[late, 0]
+        amps = np.asarray(form.amplitude(ks, sign))
+        step = 1e-6 * ks  # d amplitude / d kappa by central differences (every family)
+        slope = (form.amplitude(ks + step, sign) - form.amplitude(ks - step, sign)) / (2.0 * step)
+        damp = np.abs(slope) * errors[late, 0]
         amplitude, amplitude_u = _mean(amps, damp)
         expected = float(form.speed(kappa))
         if not abs(speed / expected - 1.0) <= SPEED_TOLERANCE:
