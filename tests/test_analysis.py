@@ -438,7 +438,7 @@ def test_wrong_kappas_and_bad_inputs() -> None:
     with pytest.raises(ConfigError, match="strictly increasing"):
         analyse_run(frames, times[::-1], grid)
     with pytest.raises(ConfigError, match="focusing mKdV"):
-        analyse_run(frames, times, grid, kv.Equation.gardner())
+        analyse_run(frames, times, grid, kv.Equation.gardner(d=0.0))
 
 
 def test_without_kappas_uses_measured_ones() -> None:

@@ -257,9 +257,23 @@ MALFORMED = [
         ["initial.polarity[1]: given -1 in run 0", "+1"],
     ),
     (
-        "solitons-gardner",
-        edit('equation = "kdv"', 'equation = "gardner"'),
-        ["initial.kind: given 'solitons' for equation 'gardner'", "KdV"],
+        "multisoliton-gardner",
+        edit('equation = "kdv"', 'equation = "gardner"').replace(
+            'kind = "solitons"', 'kind = "multisoliton"'
+        ),
+        ["initial.kind: given 'multisoliton' for the Gardner equation", "'solitons'"],
+    ),
+    (
+        "gardner-table-top",
+        edit('equation = "kdv"', "equation = { a = 6, b = -6, d = 1 }"),
+        ["initial.kappa[0]: given 1.0 in run 0", "table-top limit 0.5"],
+    ),
+    (
+        "gardner-polarity",
+        edit('equation = "kdv"', "equation = { a = 6, b = -6, d = 1 }").replace(
+            "position = [-10.0, 10.0]", "position = [-10.0, 10.0]\npolarity = [1, -1]"
+        ),
+        ["initial.polarity[1]: given -1 in run 0", "both polarities need"],
     ),
     (
         "too-coarse",

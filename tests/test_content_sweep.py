@@ -248,7 +248,7 @@ def test_one_eigensolve_per_distinct_profile(
         ),
         (
             ('equation = "kdv"', 'equation = "gardner"'),
-            ["model.length: given 'auto' in run 0", "has no solitons to size from"],
+            ["model.length: given 'auto' in run 0", "no soliton content for Gardner data"],
         ),
         (
             ("tail = 1e-4", "tail = 1e-4\nmin_amplitude = 2.0"),

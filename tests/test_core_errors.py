@@ -162,5 +162,9 @@ def test_exact_bad_input() -> None:
         kv.exact.multisoliton(GRID.x, 0.0, [-1.0], [0.0])
     with pytest.raises(kv.ShapeError, match="x0s"):
         kv.exact.multisoliton(GRID.x, 0.0, [1.0, 0.5], [0.0])
-    with pytest.raises(kv.ConfigError, match="no exact soliton"):
-        kv.exact.soliton(GRID.x, 0.0, 1.0, equation=kv.Equation.gardner())
+    with pytest.raises(kv.ConfigError, match="no exact N-soliton"):
+        kv.exact.soliton(GRID.x, 0.0, 1.0, equation=kv.Equation.gardner(d=0.0))
+    with pytest.raises(kv.ConfigError, match="table-top limit"):  # Gardner, b d < 0: kappa < 0.5
+        kv.exact.soliton(GRID.x, 0.0, 0.6, equation=kv.Equation.gardner(6.0, -6.0))
+    with pytest.raises(kv.ConfigError, match="no solitary wave of sign -1"):
+        kv.exact.soliton(GRID.x, 0.0, 0.3, equation=kv.Equation.gardner(6.0, -6.0), sign=-1)

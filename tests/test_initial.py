@@ -94,7 +94,7 @@ def test_bad_inputs() -> None:
     grid = kv.Grid(64, 20.0)
     one = S(kappa=(1.0,), x0=(0.0,))
     with pytest.raises(ConfigError, match="no soliton formula"):
-        init.build_profile(one, grid, kv.Equation.gardner())
+        init.build_profile(one, grid, kv.Equation.gardner(d=0.0))
     with pytest.raises(ConfigError, match="no soliton formula"):
         init.build_profile(one, grid, kv.Equation.mkdv(sign=-1))
     with pytest.raises(ConfigError, match="expected Solitons, Profile, Box or FileData"):

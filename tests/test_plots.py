@@ -293,15 +293,16 @@ def test_space_time_of_a_damped_run_shows_its_damping(damped: Path) -> None:
     assert "gamma = 0.02" in title
 
 
-def test_gardner_store_plots_the_field_and_says_why_no_tracks(tmp_path: Path) -> None:
-    out = make_store(tmp_path, SECH2.format(name="gardner", equation='{ preset = "gardner" }'), "g")
+def test_store_without_solitons_plots_the_field_and_says_why_no_tracks(tmp_path: Path) -> None:
+    text = SECH2.format(name="defocusing", equation='{ preset = "mkdv-" }')
+    out = make_store(tmp_path, text, "g")
     res = load(out)
     plans = {p.stem: p for p in plots.plan_figures(res, runs=[0])}
     plan = plans["spacetime_run0"]
     assert plan.drawable
     assert len(plan.notes) == 1
     assert plan.notes[0].startswith("field only: the content measurement")
-    assert kv.Equation.gardner().describe() in plan.notes[0]
+    assert kv.Equation.mkdv(-1).describe() in plan.notes[0]
     fig, _ = plots.draw(res, plan)
     assert not lines_with(fig.axes[0], plots.TRAJECTORY_GID)
 

@@ -118,9 +118,9 @@ class Solitons:
     def build(self, grid: Grid, equation: Equation) -> np.ndarray:
         """The profile on ``grid.x``."""
         form = equation.soliton_form
-        if form.family == "kdv" and any(s != form.sign for s in self.sign):
+        if any(s not in form.polarities for s in self.sign):
             raise ConfigError(
-                f"initial: a KdV soliton of this equation has sign {form.sign:+d}; "
+                f"initial: a {form.family} soliton of this equation has sign {form.sign:+d}; "
                 f"got signs {list(self.sign)}"
             )
         if self.exact:
@@ -137,7 +137,7 @@ class Solitons:
             def shape(y: np.ndarray, k: float = kappa, c: float = x0, s: int = sign) -> np.ndarray:
                 return form.profile(y, k, c, s)
 
-            u += _periodic(shape, x, grid.length, _TAIL_DECAYS / kappa)
+            u += _periodic(shape, x, grid.length, _TAIL_DECAYS / kappa + form.plateau(kappa))
         return u
 
 

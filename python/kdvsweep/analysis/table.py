@@ -360,7 +360,9 @@ def _fill_speeds(
         h = np.abs(tracks.height[use, i])
         if h.size:
             amp = float(np.mean(h))
-            row.update(amplitude=amp, kappa_from_height=float(theory.kappa_from_amplitude(amp, eq)))
+            signed = amp * float(tracks.sign[i])  # the branch of a Gardner wave
+            kappa = float(theory.kappa_from_amplitude(signed, eq))
+            row.update(amplitude=amp, kappa_from_height=kappa)
 
 
 def _pair_summary(

@@ -23,7 +23,7 @@ from scipy.optimize import linear_sum_assignment
 
 from .. import theory
 from ..exceptions import ConfigError, ShapeError
-from ..model import Equation
+from ..model import Equation, SolitonForm
 from .peaks import Peaks, find_peaks, find_peaks_many
 
 # Frame-0 extrema below this fraction of max|u| are radiation, when no kappas are given.
@@ -125,16 +125,16 @@ class _Kinematics:
     """Height -> kappa, tail length and speed for one equation (its soliton form)."""
 
     def __init__(self, equation: Equation | str) -> None:
-        self._form = Equation.coerce(equation, "analysis").soliton_form
+        self.form = Equation.coerce(equation, "analysis").soliton_form
 
     def tail(self, height: float) -> float:
-        return float(self._form.tail_length(self._form.kappa_of_height(height)))
+        return float(self.form.tail_length(self.form.kappa_of_height(height)))
 
     def kappa(self, heights: np.ndarray) -> np.ndarray:
-        return np.asarray(self._form.kappa_of_height(heights))
+        return np.asarray(self.form.kappa_of_height(heights))
 
     def speeds(self, heights: np.ndarray) -> np.ndarray:
-        return np.asarray(self._form.speed(self.kappa(heights)))
+        return np.asarray(self.form.speed(self.kappa(heights)))
 
 
 def check_record(frames: object, times: object, n: int) -> tuple[np.ndarray, np.ndarray]:
@@ -154,12 +154,14 @@ def check_record(frames: object, times: object, n: int) -> tuple[np.ndarray, np.
 
 
 def _initial_solitons(
-    peaks0: Peaks, expected: np.ndarray | None, min_height: float
+    peaks0: Peaks, kappas: np.ndarray | None, form: SolitonForm, min_height: float
 ) -> tuple[np.ndarray, str]:
-    """Indices (sorted by position) of the frame-0 extrema taken as the solitons, and a reason."""
-    if expected is None:
+    """Indices (sorted by position) of the frame-0 extrema taken as the solitons, and a reason:
+    each found height is compared with its kappa's on the found polarity (Gardner's depends on
+    it)."""
+    if kappas is None:
         return np.flatnonzero(np.abs(peaks0.height) >= min_height), ""
-    n = expected.size
+    n = kappas.size
     if len(peaks0) < n:
         return np.arange(len(peaks0)), (
             f"the first frame shows {len(peaks0)} soliton peak(s) above the threshold; "
@@ -167,6 +169,9 @@ def _initial_solitons(
         )
     chosen = np.sort(np.argsort(-np.abs(peaks0.height))[:n])
     found = np.abs(peaks0.height[chosen])
+    expected = np.array(
+        [form.amplitude(k, int(s)) for k, s in zip(kappas, peaks0.sign[chosen], strict=True)]
+    )
     ratio = found / expected
     if np.any(np.abs(np.log(ratio)) > HEIGHT_GATE):
         i = int(np.argmax(np.abs(np.log(ratio))))
@@ -232,7 +237,8 @@ def track(
                 threshold = THRESHOLD_FRACTION * float(np.abs(first.height).min())
     peaks = find_peaks_many(u, length, threshold, signs)
     counts = np.array([len(p) for p in peaks])
-    chosen, reason = _initial_solitons(peaks[0], expected, max(radiation, threshold))
+    given = None if kappas is None else np.atleast_1d(np.asarray(kappas, dtype=np.float64))
+    chosen, reason = _initial_solitons(peaks[0], given, kin.form, max(radiation, threshold))
     n_sol = chosen.size
     m = t.size
     xs = np.full((m, n_sol), np.nan)

@@ -274,7 +274,7 @@ def _spacetime_plan(results: Results, run_id: int, explicit: bool) -> FigurePlan
     if eq.soliton_form_or_none() is None:
         what = "collision analysis" if _collisions(results) else "content measurement"
         notes = (
-            f"field only: the {what} follows KdV and focusing-mKdV solitons; "
+            f"field only: the {what} follows KdV, focusing-mKdV and Gardner solitons; "
             f"this run has {eq.describe()}",
         )
     return FigurePlan(stem, "spacetime", run_id=run_id, notes=notes)

@@ -839,20 +839,56 @@ def _solitons(
         raise ctx.src.error(
             "initial.kind",
             f"{tpl.kind!r} for equation {eq.name!r} (a={eq.a}, b={eq.b}, d={eq.d}) in {ctx.label}",
-            "an equation with solitons: KdV (a != 0, b = 0) or focusing mKdV (a = 0, b d > 0)",
+            "an equation with solitons: KdV (a != 0, b = 0), focusing mKdV (a = 0, b d > 0) or "
+            "Gardner (a != 0, b != 0), with d != 0",
         )
+    if tpl.kind == "multisoliton" and form.family == "gardner":
+        raise ctx.src.error(
+            "initial.kind",
+            f"'multisoliton' for the Gardner equation {eq.name!r} in {ctx.label}",
+            "'solitons' (kdvsweep has no exact Gardner N-soliton; separated solitary waves are "
+            "exact one by one)",
+        )
+    own = form.sign
+    signs = [own] * len(spec["sizes"])
+    if "polarity" in spec:
+        signs = [int(ctx.num(slot, "sign")) for slot in spec["polarity"]]
+        for slot, s in zip(spec["polarity"], signs, strict=True):
+            if s not in form.polarities:
+                raise ctx.fail(
+                    slot.key,
+                    slot.given,
+                    f"{own:+d}: solitons of this equation have one sign (both polarities need "
+                    "focusing mKdV, or Gardner with b d > 0)",
+                )
     kappas = []
-    for slot in spec["sizes"]:
+    for slot, sign in zip(spec["sizes"], signs, strict=True):
         value = ctx.num(slot, "positive")
-        if size == "amplitude":
-            value = form.kappa_from_amplitude(value)
-        elif size == "speed":
-            if eq.d < 0:
-                raise ctx.fail(slot.key, slot.given, "speeds only for d > 0 (solitons move right)")
-            value = form.kappa_from_speed(value)
+        try:
+            if size == "amplitude":
+                value = form.kappa_from_amplitude(value, sign)
+            elif size == "speed":
+                if eq.d < 0:
+                    raise ctx.fail(
+                        slot.key, slot.given, "speeds only for d > 0 (solitons move right)"
+                    )
+                value = form.kappa_from_speed(value)
+        except ConfigError as err:
+            raise ctx.fail(slot.key, slot.given, f"a soliton of this equation ({err})") from None
         value = canonical(value)
+        if not value < form.max_kappa:
+            raise ctx.fail(
+                slot.key,
+                slot.given,
+                f"kappa below the table-top limit {form.max_kappa:.6g} of this Gardner equation "
+                f"(kappa = {value:.6g})",
+            )
         with np.errstate(all="ignore"):  # overflow is refused below, not printed
-            scales = (form.amplitude(value), form.speed(value), form.width(value))
+            scales = (
+                form.amplitude(value, sign),
+                form.speed(value),
+                form.width(value, sign),
+            )
         if not (value > 0 and all(math.isfinite(v) for v in scales)):
             raise ctx.fail(
                 slot.key,
@@ -861,19 +897,6 @@ def _solitons(
                 f"{scales[0]:.3g}, {scales[1]:.3g}, {scales[2]:.3g})",
             )
         kappas.append(value)
-    own = form.sign
-    signs = [own] * len(kappas)
-    if "polarity" in spec:
-        signs = [int(ctx.num(slot, "sign")) for slot in spec["polarity"]]
-        if form.family == "kdv":
-            for slot, s in zip(spec["polarity"], signs, strict=True):
-                if s != own:
-                    raise ctx.fail(
-                        slot.key,
-                        slot.given,
-                        f"{own:+d}: KdV solitons of this "
-                        "equation have one sign (polarity is for mKdV)",
-                    )
     if tpl.kind == "multisoliton":  # the core's own rules (how many, distinct), on no points
         bare = Equation(a=eq.a, b=eq.b, d=eq.d)  # the exact solution is the unperturbed one's
         try:
@@ -924,11 +947,12 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
     if soliton:
         form, kappas, signs = _solitons(tpl, ctx, eq)
         speeds = [form.speed(k) for k in kappas]
-        narrowest = min(form.width(k) for k in kappas)
-        amplitudes = [form.amplitude(k) for k in kappas]
+        narrowest = min(form.width(k, s) for k, s in zip(kappas, signs, strict=True))
+        amplitudes = [form.amplitude(k, s) for k, s in zip(kappas, signs, strict=True)]
         # mKdV solitons of opposite polarity peak at the sum of their amplitudes when they meet;
         # same-polarity mKdV and KdV pairs never exceed the larger one (checked on the exact
-        # Hirota 2-solitons, kv.exact.multisoliton, for kappa = (1, 0.3 / 0.55 / 0.8))
+        # Hirota 2-solitons, kv.exact.multisoliton, for kappa = (1, 0.3 / 0.55 / 0.8)); the sum
+        # is kept as the bound for Gardner pairs of opposite polarity
         max_u = sum(amplitudes) if len(set(signs)) > 1 else max(amplitudes)
         auto = tpl.length is None or tpl.end is None or tpl.initial["position"] == "auto"
         if auto and eq.d <= 0:
@@ -1197,6 +1221,13 @@ def _content_sizing(
             key,
             "auto",
             f"a number: equation {eq.name!r} ({eq.describe()}) has no solitons to size from",
+        )
+    if form.family == "gardner":
+        raise ctx.fail(
+            key,
+            "auto",
+            "a number: kdvsweep predicts no soliton content for Gardner data (its spectral "
+            "problem is not implemented), so there is nothing to size from",
         )
     span = length if length is not None else _provisional_length(initial)
     if tpl.points is not None:
