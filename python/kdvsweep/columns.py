@@ -148,6 +148,19 @@ ANALYSIS_COLUMNS: tuple[Column, ...] = (
         "int r^2 of what is left of the last frame after removing the solitons",
     ),
     Column("radiation_fraction", _F, "radiation_energy over int u^2 of the last frame"),
+    Column(
+        "radiated_mass",
+        _F,
+        "mass the collisions radiated: int r outside windows of `separation` tail lengths around"
+        " each soliton in the last frame, r = u less the reference runs' last frames (perturbed"
+        " equations), or u at the end less u at the start (integrable)",
+    ),
+    Column(
+        "radiated_energy",
+        _F,
+        "int r^2 over the same region (the L2 energy, as radiation_energy, but of what the"
+        " collisions alone sent away)",
+    ),
     Column("frames_before", _I, "frames in the fit window before the collisions"),
     Column("frames_after", _I, "frames in the fit window after the collisions"),
     Column("separation", _F, "tail lengths apart that the solitons must be in a fit window"),
@@ -230,13 +243,37 @@ SOLITON_COLUMNS: tuple[Column, ...] = (
     Column("offset_before", _F, "x^-: position at t = 0 of the asymptote before the collisions"),
     Column("offset_after", _F, "x^+: position at t = 0 of the asymptote after the collisions"),
     Column("shift_predicted", _F, "phase shift of the pairwise formula (Gardner et al. 1974)"),
-    Column("shift_measured", _F, "phase shift measured: offset_after - offset_before"),
+    Column(
+        "shift_measured",
+        _F,
+        "phase shift measured, by shift_method: offset_after - offset_before, or the mean"
+        " position less the soliton alone's after the collisions less the same before",
+    ),
     Column("shift_error", _F, "|shift_measured - shift_predicted|"),
     Column("shift_rel_error", _F, "shift_error / |shift_predicted|"),
     Column(
         "shift_uncertainty",
         _F,
-        "error estimate of shift_measured: fit error, window bias and speed drift",
+        "error estimate of shift_measured: fit error, window bias and speed drift (reference:"
+        " scatter and drift of the difference in both windows)",
+    ),
+    Column(
+        "shift_method",
+        _S,
+        '"asymptotes" (offset_after - offset_before; integrable equations) or "reference" '
+        "(perturbed: the position less that of the soliton run alone at the same times, after"
+        " the collisions less before)",
+    ),
+    Column(
+        "amplitude_change",
+        _F,
+        "relative change of the peak height through the collisions: against the soliton run"
+        " alone after less before (reference), or after over before - 1 (asymptotes)",
+    ),
+    Column(
+        "speed_change",
+        _F,
+        "relative change of the speed through the collisions, measured as amplitude_change",
     ),
     Column("fit_residual", _F, "rms residual of the shared-speed line fit"),
     Column("frames_before", _I, "frames used in the fit before the collisions"),

@@ -23,9 +23,15 @@ from ..exceptions import ConfigError, ShapeError
 from ..model import Equation, Grid
 from .fits import MIN_FRAMES, AsymptoticFit, fit_asymptotes
 from .peaks import count_peaks
-from .tracks import Tracks, check_record, track
+from .tracks import ReferenceTrack, Tracks, check_record, ring_difference, track
 
 DEFAULT_SEPARATION = 16.0
+
+#: How ``shift_measured`` was measured (column ``shift_method``): ``"asymptotes"``, the difference
+#: of the t = 0 intercepts of the lines fitted before and after the collisions (integrable
+#: equations: the speeds are the same on both sides); ``"reference"``, the displacement from the
+#: same soliton run alone (perturbed equations; see :func:`analyse_run`).
+SHIFT_METHODS = ("asymptotes", "reference")
 
 #: Columns of a collision table: the solitons table's, less the run's id and the input centre.
 TABLE_COLUMNS = tuple(c.name for c in SOLITON_COLUMNS if c.name not in ("run_id", "x0"))
@@ -227,8 +233,21 @@ def analyse_run(
     separation: float = DEFAULT_SEPARATION,
     threshold: float | None = None,
     invariants: Mapping[str, object] | Sequence[Mapping[str, float]] | None = None,
+    references: Sequence[ReferenceTrack] | None = None,
 ) -> RunAnalysis:
     """Track the solitons of a record, fit their asymptotes and set the shifts against theory.
+
+    The shift of a soliton is where it is after the collisions minus where it would be without
+    them. For an integrable equation (``shift_method = "asymptotes"``) that is ``x^+ - x^-``, the
+    difference of the t = 0 intercepts of one-speed lines fitted before and after the collisions.
+    For a perturbed one (``f``, ``g`` or ``v`` non-zero) the speed changes along the run and those
+    lines do not share a slope, so with ``references`` (``shift_method = "reference"``) the shift
+    is ``D = X_i - X_ref`` (the ring difference of the soliton's position and that of the same
+    soliton run alone, at the same frame times) averaged over the window after the collisions,
+    minus the same average over the window before (about 0; it cancels the start-up bias of the
+    overlapping tails). Its ``shift_uncertainty`` is ``sqrt(s_b^2 + s_a^2 + r_b^2 + r_a^2)``: the
+    standard deviations ``s`` of ``D`` in each window and its drifts ``r`` (the slope of a line
+    fitted to ``D`` times the window's duration: how much the value depends on when it is read).
 
     Parameters
     ----------
@@ -251,6 +270,12 @@ def analyse_run(
     invariants
         Optional invariant series over the frames (``{"mass": [...], ...}`` or a list of dicts);
         gives ``drift_<name>`` in the summary.
+    references
+        For a perturbed equation: each soliton run alone (left to right, as ``kappas``), at the
+        same frame times (:func:`kdvsweep.analysis.tracks.reference_track`). They give the
+        shifts, ``amplitude_change``, ``speed_change`` and ``radiated_mass`` /
+        ``radiated_energy``; without them a perturbed run's shift is by asymptotes and
+        ``analysis_reason`` says so. Ignored for integrable equations.
 
     Returns
     -------
@@ -280,6 +305,8 @@ def analyse_run(
         "t_closest": math.nan,
         "radiation_energy": math.nan,
         "radiation_fraction": math.nan,
+        "radiated_mass": math.nan,
+        "radiated_energy": math.nan,
         "frames_before": 0,
         "frames_after": 0,
         "separation": float(separation),
@@ -326,16 +353,173 @@ def analyse_run(
             shift_error=err,
             shift_rel_error=err / abs(predicted[i]) if predicted[i] != 0 else math.nan,
             shift_uncertainty=fit.uncertainty,
+            shift_method="asymptotes",
             fit_residual=fit.residual_rms,
             frames_before=fit.n_before,
             frames_after=fit.n_after,
         )
         if given is None:
             row["kappa"] = float(measured[i])
+    notes = _changes(rows, tracks, fits, before, after, eq, references)
     summary.update(_pair_summary(u, tracks, fits, before, after, use, eq))
     energy, fraction = _radiation(u[-1], grid, t[-1], measured, fits, tracks.sign, eq)
     summary.update(radiation_energy=energy, radiation_fraction=fraction)
+    tails = np.asarray(eq.soliton_form.tail_length(measured if given is None else given))
+    radiated, note = _radiated(u, grid, tracks, tails, separation, eq, references)
+    summary.update(radiated)
+    notes += [note] if note else []
+    if notes:
+        summary["analysis_reason"] = "; ".join(dict.fromkeys(notes))
     return RunAnalysis(_frame(rows), summary, tracks, fits, before, after)
+
+
+def _usable(
+    references: Sequence[ReferenceTrack] | None, n_sol: int, times: np.ndarray
+) -> tuple[list[ReferenceTrack] | None, str]:
+    """The references when each soliton has one at the run's frame times; else None and why."""
+    if references is None:
+        return None, (
+            "perturbed equation without reference runs: shift_measured by asymptotes, whose "
+            "speeds differ before and after (see shift_uncertainty)"
+        )
+    refs = list(references)
+    if len(refs) != n_sol:
+        return None, f"{len(refs)} reference run(s) for {n_sol} solitons: shifts not measured"
+    for i, ref in enumerate(refs):
+        if not ref.ok:
+            return None, f"soliton {i}: {ref.status}"
+        if ref.times.shape != times.shape or not np.array_equal(ref.times, times):
+            return None, f"soliton {i}: its reference run has other frame times than the run"
+    return refs, ""
+
+
+def _window_line(t: np.ndarray, d: np.ndarray) -> tuple[float, float, float]:
+    """Mean, standard deviation and slope of ``d(t)`` in one window."""
+    slope = float(np.polyfit(t - t.mean(), d, 1)[0]) if t.size >= 2 else math.nan
+    return float(np.mean(d)), float(np.std(d)), slope
+
+
+def _changes(
+    rows: list[dict[str, Any]],
+    tracks: Tracks,
+    fits: list[AsymptoticFit],
+    before: np.ndarray,
+    after: np.ndarray,
+    eq: Equation,
+    references: Sequence[ReferenceTrack] | None,
+) -> list[str]:
+    """Fill ``amplitude_change``, ``speed_change`` (and for a perturbed run with references the
+    reference shift) of each row; return notes for ``analysis_reason``.
+
+    Integrable (or no references): after-window against before-window of the run itself, the
+    mean peak height and the fitted speeds. Perturbed with references: the run against its
+    reference runs at the same times, after the collisions, less the same before.
+    """
+    t = tracks.times
+    refs, why = (None, "") if not eq.perturbed else _usable(references, len(rows), t)
+    notes = [why] if why else []
+    for i, (row, fit) in enumerate(zip(rows, fits, strict=True)):
+        h = np.abs(tracks.height[:, i])
+        if refs is None:
+            hb, ha = float(np.mean(h[before])), float(np.mean(h[after]))
+            row["amplitude_change"] = ha / hb - 1.0
+            row["speed_change"] = (
+                fit.speed_after / fit.speed_before - 1.0 if fit.speed_before != 0 else math.nan
+            )
+            if eq.perturbed and references is not None:  # references given but unusable
+                row.update(shift_measured=math.nan, shift_method="reference")
+                row.update(shift_error=math.nan, shift_rel_error=math.nan)
+                row.update(shift_uncertainty=math.nan)
+            continue
+        ref = refs[i]
+        d = ring_difference(tracks.x[:, i], ref.x, tracks.length)
+        ratio = h / np.abs(ref.height) - 1.0
+        unwrapped = np.unwrap(ref.x, period=tracks.length)
+        windows = []
+        for mask in (before, after):
+            use = mask & np.isfinite(d)
+            if use.sum() < MIN_FRAMES:
+                break
+            mean, std, slope = _window_line(t[use], d[use])
+            span = float(t[use][-1] - t[use][0])
+            c_ref = _window_line(t[use], unwrapped[use])[2]
+            windows.append((mean, std, abs(slope) * span, slope, float(np.mean(ratio[use])), c_ref))
+        if len(windows) < 2:
+            notes.append(f"soliton {i}: its reference run was not followed in a fit window")
+            row.update(shift_measured=math.nan, shift_method="reference")
+            row.update(shift_error=math.nan, shift_rel_error=math.nan, shift_uncertainty=math.nan)
+            continue
+        (mb, sb, rb, cb, ab, _), (ma, sa, ra, ca, aa, c_ref) = windows
+        shift = ma - mb
+        err = abs(shift - row["shift_predicted"])
+        pred = row["shift_predicted"]
+        row.update(
+            shift_measured=shift,
+            shift_method="reference",
+            shift_uncertainty=math.sqrt(sb**2 + sa**2 + rb**2 + ra**2),
+            shift_error=err,
+            shift_rel_error=err / abs(pred) if pred != 0 else math.nan,
+            amplitude_change=aa - ab,
+            speed_change=(ca - cb) / c_ref if c_ref != 0 else math.nan,
+        )
+    return notes
+
+
+def _outside(
+    x: np.ndarray, centres: Sequence[float], halves: Sequence[float], length: float
+) -> np.ndarray:
+    """Mask of the grid points farther than ``halves[k]`` from every ``centres[k]`` on the ring."""
+    mask = np.ones(x.size, dtype=bool)
+    for c, half in zip(centres, halves, strict=True):
+        if math.isfinite(c):
+            mask &= np.abs(ring_difference(x, c, length)) > half
+    return mask
+
+
+def _radiated(
+    u: np.ndarray,
+    grid: Grid,
+    tracks: Tracks,
+    tails: np.ndarray,
+    separation: float,
+    eq: Equation,
+    references: Sequence[ReferenceTrack] | None,
+) -> tuple[dict[str, float], str]:
+    """``radiated_mass`` and ``radiated_energy``: what the collisions sent away from the solitons
+    (and a note when they cannot be measured).
+
+    Windows of ``separation`` tail lengths either side of each soliton are left out. Perturbed,
+    with references: ``r = u(T) - sum_i u_i(T)``, the last frame less the last frames of the
+    reference runs (which carry each soliton's own shedding under damping or a term its shape does
+    not solve), integrated outside the windows around the solitons of the run and of the
+    references: ``int r dx`` and ``int r^2 dx``. Otherwise: ``int u dx`` and ``int u^2 dx``
+    outside the windows at the last frame less the same at the first (a soliton alone keeps its
+    shape, so what is left is the collisions').
+    """
+    x, n_sol = grid.x, tracks.n_solitons
+    halves = [float(separation * tau) for tau in np.broadcast_to(tails, (n_sol,))]
+    last = int(np.flatnonzero(tracks.linked)[-1])
+    if last != u.shape[0] - 1:
+        return {}, "radiated_mass/energy not measured: the solitons are not apart in the last frame"
+    refs = None
+    if eq.perturbed:
+        refs, _ = _usable(references, n_sol, tracks.times)
+        if refs is None:
+            return {}, "radiated_mass/energy need the reference runs of a perturbed equation"
+    if refs is None:
+        outs = []
+        for f in (0, last):
+            mask = _outside(x, list(tracks.x[f]), halves, grid.length)
+            outs.append((float(np.sum(u[f][mask])), float(np.sum(u[f][mask] ** 2))))
+        (m0, e0), (m1, e1) = outs
+        return {"radiated_mass": (m1 - m0) * grid.dx, "radiated_energy": (e1 - e0) * grid.dx}, ""
+    resid = u[last] - np.sum([ref.last for ref in refs], axis=0)
+    centres = [*tracks.x[last], *(ref.x[-1] for ref in refs)]
+    mask = _outside(x, centres, halves + halves, grid.length)
+    return {
+        "radiated_mass": float(np.sum(resid[mask]) * grid.dx),
+        "radiated_energy": float(np.sum(resid[mask] ** 2) * grid.dx),
+    }, ""
 
 
 def _empty_rows(tracks: Tracks, given: np.ndarray | None, eq: Equation) -> list[dict[str, Any]]:
@@ -343,7 +527,11 @@ def _empty_rows(tracks: Tracks, given: np.ndarray | None, eq: Equation) -> list[
     for i in range(tracks.n_solitons):
         row: dict[str, Any] = dict.fromkeys(TABLE_COLUMNS, math.nan)
         row.update(
-            soliton=i, sign=int(tracks.sign[i]), collisions=0, frames_before=0, frames_after=0
+            soliton=i,
+            sign=int(tracks.sign[i]),
+            collisions=0,
+            frames_before=0,
+            frames_after=0,
         )
         if given is not None and i < given.size:
             row["kappa"] = float(given[i])
@@ -458,4 +646,11 @@ def collision_table(
     return result.table
 
 
-__all__ = ["DEFAULT_SEPARATION", "TABLE_COLUMNS", "RunAnalysis", "analyse_run", "collision_table"]
+__all__ = [
+    "DEFAULT_SEPARATION",
+    "SHIFT_METHODS",
+    "TABLE_COLUMNS",
+    "RunAnalysis",
+    "analyse_run",
+    "collision_table",
+]

@@ -328,4 +328,84 @@ def _link(tracks: Tracks, kin: _Kinematics, link_separation: float, separation: 
         last_x, last_t, last_h, last_frame = new_x, float(t[f]), hf, f
 
 
-__all__ = ["RADIATION_LEVEL", "THRESHOLD_FRACTION", "Tracks", "check_record", "track"]
+@dataclass(frozen=True)
+class ReferenceTrack:
+    """One soliton of a run followed alone: the same equation, grid, stepping, frame times, centre
+    and polarity, no other soliton (a *reference run*; see :func:`reference_track`).
+
+    Attributes
+    ----------
+    times
+        Frame times, shape ``(m,)`` (those of the runs that use it).
+    x
+        Peak position in ``[-L/2, L/2)`` per frame; NaN where the soliton was not found.
+    height
+        Signed peak height per frame; NaN where not found.
+    last
+        The last frame, shape ``(n,)`` (for the radiation of a collision).
+    status
+        ``"ok"``, or one line on why the reference could not be followed (then the arrays may be
+        empty and the runs that need it measure no shift).
+    """
+
+    times: np.ndarray
+    x: np.ndarray
+    height: np.ndarray
+    last: np.ndarray
+    status: str = "ok"
+
+    @property
+    def ok(self) -> bool:
+        """True when the soliton was followed."""
+        return self.status == "ok"
+
+    @classmethod
+    def failed(cls, why: str) -> ReferenceTrack:
+        """A reference that could not be computed or followed, with the reason."""
+        empty = np.zeros(0)
+        return cls(empty, empty, empty, empty, why)
+
+
+def reference_track(
+    frames: object, times: object, length: float, equation: Equation | str, kappa: float
+) -> ReferenceTrack:
+    """Follow the one soliton of a reference run's record (see :class:`ReferenceTrack`).
+
+    Parameters
+    ----------
+    frames, times
+        The record of the soliton alone: shape ``(m, n)`` and ``(m,)``.
+    length
+        Domain length ``L``.
+    equation
+        The run's equation.
+    kappa
+        The soliton's kappa (sets the threshold below which extrema are ignored).
+    """
+    u = np.asarray(frames, dtype=np.float64)
+    t = np.asarray(times, dtype=np.float64)
+    found = track(u, t, length, equation, [kappa], link_separation=1e-9, separation=1e-9)
+    if found.reason or found.n_solitons != 1:
+        return ReferenceTrack.failed(f"reference run: {found.reason or 'soliton not found'}")
+    return ReferenceTrack(
+        t.copy(), found.x[:, 0].copy(), found.height[:, 0].copy(), u[-1].copy(), "ok"
+    )
+
+
+def ring_difference(a: np.ndarray, b: np.ndarray | float, length: float) -> np.ndarray:
+    """``a - b`` on the circle of circumference ``length``, in ``[-L/2, L/2)``: the displacement of
+    ``a`` from ``b`` when it is smaller than half the period (positions unwrapped on the ring)."""
+    d = np.asarray(a, dtype=np.float64) - np.asarray(b, dtype=np.float64)
+    return np.asarray((d + 0.5 * length) % length - 0.5 * length)
+
+
+__all__ = [
+    "RADIATION_LEVEL",
+    "THRESHOLD_FRACTION",
+    "ReferenceTrack",
+    "Tracks",
+    "check_record",
+    "reference_track",
+    "ring_difference",
+    "track",
+]

@@ -61,7 +61,9 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
+from ..analysis.tracks import ReferenceTrack
 from ..exceptions import ConfigError, KdvsweepError
+from .references import ReferenceSpec, compute_reference, references_for
 from .runner import RunResult, base_row, cost, execute_chunk
 from .sizing import run_memory
 from .store import Store, SweepLike
@@ -128,6 +130,10 @@ class SweepReport:
         Worker threads seen (at most) during the call.
     chunks
         Tasks submitted.
+    references
+        Reference runs computed and stored by this call (:mod:`.references`).
+    references_reused
+        Reference runs read back from the store (computed by an earlier call).
     """
 
     out: Path
@@ -140,6 +146,8 @@ class SweepReport:
     store_time: float = 0.0
     workers: int = 0
     chunks: int = 0
+    references: int = 0
+    references_reused: int = 0
 
     @property
     def pending(self) -> int:
@@ -368,7 +376,14 @@ def _drive(
     chunk_seconds: float,
     retries: int,
 ) -> None:
-    """Keep a few chunks per worker in flight, store each batch of results as it arrives."""
+    """Keep a few chunks per worker in flight, store each batch of results as it arrives.
+
+    Reference runs (:mod:`.references`): when a chunk is submitted, each reference its runs need
+    is taken from this call's results, or read from the store, or else submitted as a task of its
+    own (once per digest); the chunk's task then depends on that task's future, so dask runs the
+    reference first and hands its result to every chunk that needs it. Each reference computed is
+    stored as it arrives, before the runs that need it are.
+    """
     distributed = _distributed()
     KilledWorker = distributed.KilledWorker
     as_completed = distributed.as_completed
@@ -381,12 +396,56 @@ def _drive(
     checked = time.monotonic()
     failed_before = len(store.failed)  # reported to on_progress, not counted in the report
     kills: dict[int, int] = {}  # run id -> tasks holding that run that ended in KilledWorker
+    known: dict[str, Any] = {}  # reference digest -> its track, or the future computing it
+    waiting: dict[str, int] = {}  # reference digest -> runs not submitted yet that need it
+    for spec in todo:
+        for ref in references_for(spec):
+            waiting[ref.digest] = waiting.get(ref.digest, 0) + 1
+    computing: dict[str, tuple[Any, str]] = {}  # task key -> (future, reference digest)
+
+    def reference(ref: ReferenceSpec) -> Any:
+        """The reference's track, or the future of the task computing it (submitted once)."""
+        digest = ref.digest
+        waiting[digest] = waiting.get(digest, 1) - 1
+        if digest in known:
+            return known[digest]
+        stored = store.reference(digest)
+        if stored is not None:
+            report.references_reused += 1
+            known[digest] = stored
+            return stored
+        fut = client.submit(compute_reference, ref, pure=False, retries=retries)
+        computing[fut.key] = (fut, digest)
+        ongoing.add(fut)
+        known[digest] = fut
+        return fut
 
     def submit(chunk: list[Any]) -> None:
-        fut = client.submit(execute_chunk, chunk, pure=False, retries=retries)
+        refs = {ref.digest: reference(ref) for spec in chunk for ref in references_for(spec)}
+        for digest in refs:  # what no later run needs is held by the tasks only
+            if waiting.get(digest, 0) <= 0 and isinstance(known.get(digest), ReferenceTrack):
+                del known[digest]
+        fut = client.submit(execute_chunk, chunk, refs or None, pure=False, retries=retries)
         inflight[fut.key] = (fut, chunk)
         ongoing.add(fut)
         report.chunks += 1
+
+    def computed(fut: Any, digest: str) -> list[Any]:
+        """The result of a finished reference task (a failed track if its workers died)."""
+        try:
+            res = fut.result()
+        except KilledWorker:
+            known[digest] = ReferenceTrack.failed(
+                "reference run: its worker died each time it was tried (out of memory?)"
+            )
+            return []
+        finally:
+            fut.release()
+        if waiting.get(digest, 0) > 0:
+            known[digest] = res.track
+        else:
+            known.pop(digest, None)
+        return [res]
 
     def fill() -> None:
         while chunker and len(inflight) < IN_FLIGHT_PER_THREAD * threads + 1:
@@ -419,8 +478,16 @@ def _drive(
         fill()
         for batch in ongoing.batches():
             results: list[RunResult] = []
+            references: list[Any] = []
             broken: BaseException | None = None
             for fut in batch:
+                if fut.key in computing:
+                    _, digest = computing.pop(fut.key)
+                    try:
+                        references.extend(computed(fut, digest))
+                    except Exception as exc:  # infrastructure, as for a chunk below
+                        broken = exc
+                    continue
                 _, chunk = inflight.pop(fut.key)
                 try:
                     got = collect(fut, chunk)
@@ -433,6 +500,8 @@ def _drive(
                 chunker.observe(chunk, got)
                 results.extend(got)
             tick = time.perf_counter()
+            report.references += store.write_references(references)
+            report.compute += sum(res.wall_time for res in references)
             stored = store.write(results)
             report.store_time += time.perf_counter() - tick
             failed = sum(not r.ok for r in results)

@@ -11,13 +11,14 @@ from __future__ import annotations
 import math
 import time
 import warnings
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 
 from .. import analysis, initial, theory
+from ..analysis.tracks import ReferenceTrack
 from ..columns import FAILURE_KINDS, TIMING_COLUMNS, has_content
 from ..exceptions import ConfigError, NumericalError, TimeLimitError
 from ..model import Equation, Grid
@@ -25,6 +26,7 @@ from ..simulation import INVARIANTS, Simulation, invariants
 from ..spectrum import SolitonContent
 from . import sizing
 from .config import RunSpec
+from .references import ReferenceResult, tracks_for
 
 
 @dataclass
@@ -321,7 +323,12 @@ def _input_soliton_rows(spec: RunSpec, equation: Equation) -> list[dict[str, Any
 
 
 def _collision_rows(
-    spec: RunSpec, frames: np.ndarray, times: np.ndarray, grid: Grid, equation: Equation
+    spec: RunSpec,
+    frames: np.ndarray,
+    times: np.ndarray,
+    grid: Grid,
+    equation: Equation,
+    references: list[ReferenceTrack] | None = None,
 ) -> tuple[list[dict[str, Any]], dict[str, Any]]:
     """Rows of the solitons table, measured by the collision analysis.
 
@@ -334,7 +341,9 @@ def _collision_rows(
         return [], {}
     kappas = [s["kappa"] for s in solitons]
     try:
-        found = analysis.analyse_run(frames, times, grid, equation, kappas)
+        found = analysis.analyse_run(
+            frames, times, grid, equation, kappas, references=references
+        )
     except Exception as exc:  # an analysis error is recorded; the run's numbers are still valid
         reason = f"analysis: {type(exc).__name__}: {exc}"
         return _input_soliton_rows(spec, equation), {"reason": reason}
@@ -573,7 +582,11 @@ def _core_simulation(
     )
 
 
-def execute(spec: RunSpec, simulation: SimulationFactory | None = None) -> RunResult:
+def execute(
+    spec: RunSpec,
+    simulation: SimulationFactory | None = None,
+    references: list[ReferenceTrack] | None = None,
+) -> RunResult:
     """Run one spec and return its rows; failures come back as data, never as exceptions.
 
     Parameters
@@ -585,6 +598,9 @@ def execute(spec: RunSpec, simulation: SimulationFactory | None = None) -> RunRe
         :class:`kdvsweep.Simulation`, which stops the run at ``spec.run.time_limit`` seconds of
         stepping (stored as failed, reason ``TimeLimitError: ...``). The benchmark passes the
         NumPy reference here (no time limit).
+    references
+        The run's reference runs, one per soliton (:mod:`kdvsweep.sweep.references`), for the
+        shifts of a perturbed collision; without them its shifts are by asymptotes.
 
     Returns
     -------
@@ -651,7 +667,7 @@ def execute(spec: RunSpec, simulation: SimulationFactory | None = None) -> RunRe
         analysing = time.perf_counter()
         stage = "analysis"
         if soliton_data:
-            solitons, extra = _collision_rows(spec, frames, times, grid, equation)
+            solitons, extra = _collision_rows(spec, frames, times, grid, equation, references)
             if predicted is not None:
                 _attach_predicted(solitons, [float(k) for k in predicted.kappas])
             if run.predict_content:
@@ -686,9 +702,22 @@ def execute(spec: RunSpec, simulation: SimulationFactory | None = None) -> RunRe
     return RunResult(row, solitons, kept, kept_times)
 
 
-def execute_chunk(specs: Sequence[RunSpec]) -> list[RunResult]:
-    """Run several specs one after the other (one dask task: seconds of work, not milliseconds)."""
-    return [execute(spec) for spec in specs]
+def execute_chunk(
+    specs: Sequence[RunSpec],
+    references: Mapping[str, ReferenceTrack | ReferenceResult] | None = None,
+) -> list[RunResult]:
+    """Run several specs one after the other (one dask task: seconds of work, not milliseconds);
+    ``references`` holds the reference runs they need, by digest
+    (:func:`kdvsweep.sweep.references.tracks_for`)."""
+    known = {
+        digest: ref.track if isinstance(ref, ReferenceResult) else ref
+        for digest, ref in (references or {}).items()
+    }
+    out = []
+    for spec in specs:
+        tracks = tracks_for(spec, known)
+        out.append(execute(spec) if tracks is None else execute(spec, references=tracks))
+    return out
 
 
 def cost(spec: RunSpec) -> float:

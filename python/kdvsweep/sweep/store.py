@@ -7,6 +7,8 @@ Layout of a store ``OUT``::
     OUT/runs/part-000000.parquet   rows of the runs table, one part per batch of completed runs
     OUT/solitons/part-000000.parquet   rows of the solitons table for the same batch
     OUT/frames/run_000017.npz      sub-sampled frames of one run (arrays ``t`` and ``u``)
+    OUT/references/part-000000.parquet   reference runs (a perturbed collision's solitons run
+                                   alone), by the digest of what determines them
     OUT/.lock                      held (flock) by the one process writing
 
 Exactly once, simply: the client process is the only writer (dask workers return rows, never write
@@ -55,9 +57,11 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.parquet as pq
 
+from ..analysis.tracks import ReferenceTrack
 from ..columns import PARAMETER_TYPES, Layout, reserved_names
 from ..exceptions import ConfigError, StoreBusyError, StoreError
 from .config import RunSpec, Sweep
+from .references import ReferenceResult, key_digest
 from .runner import RunResult
 
 try:  # advisory lock; absent on Windows, where a second writer is simply not detected
@@ -70,8 +74,27 @@ LOCK = ".lock"
 STORE_FORMAT = "kdvsweep-store"
 #: Version 2: typed Parquet schema in every part, the model's coefficients in the runs table.
 #: Version 3: the soliton content (profile data): ist_kappas a list column, content columns.
-STORE_VERSION = 4
+#: Version 4: balance residuals, failure kinds.
+#: Version 5: reference runs (references/), shift_method, amplitude and speed changes, radiated
+#: mass and energy.
+STORE_VERSION = 5
 TABLES = ("runs", "solitons")
+#: Folder of the reference runs (:mod:`kdvsweep.sweep.references`), one part per batch.
+REFERENCES = "references"
+#: The folders every store has (``references/`` is made when the first reference is stored).
+FOLDERS = (*TABLES, "frames")
+#: Arrow schema of a references part: one row per reference run, by the digest of its key.
+REFERENCE_SCHEMA = pa.schema(
+    [
+        pa.field("digest", pa.string()),
+        pa.field("key", pa.string()),
+        pa.field("times", pa.list_(pa.float64())),
+        pa.field("x", pa.list_(pa.float64())),
+        pa.field("height", pa.list_(pa.float64())),
+        pa.field("last", pa.list_(pa.float64())),
+        pa.field("wall_time", pa.float64()),
+    ]
+)
 _PART = re.compile(r"^part-(\d+)\.parquet$")
 _TMP_PREFIX = ".tmp-"
 #: Suffix of the files of a batch set aside as damaged (no longer matched as parts).
@@ -611,6 +634,10 @@ class Store:
         self._next = (max(every) + 1) if every else 0
         self._done: set[int] = set(check.kept)
         self._failed: set[int] = set(check.failed)
+        self._references, notes = _reference_index(out / REFERENCES, set_aside=True)
+        self.ignored += notes
+        parts = part_files(out / REFERENCES)
+        self._next_reference = (max(parts) + 1) if parts else 0
 
     # -- opening -------------------------------------------------------------------------------
     @classmethod
@@ -646,7 +673,7 @@ class Store:
         lock = _take_lock(out)
         try:
             manifest = cls._claim(out, sweep)
-            for table in (*TABLES, "frames"):
+            for table in FOLDERS:
                 (out / table).mkdir(exist_ok=True)
             return cls(out, manifest, lock)
         except BaseException as exc:
@@ -680,7 +707,7 @@ class Store:
         for entry in out.iterdir():
             if entry.name.startswith(_TMP_PREFIX):
                 entry.unlink(missing_ok=True)
-        for table in (*TABLES, "frames"):
+        for table in FOLDERS:
             (out / table).mkdir(exist_ok=True)
         manifest = new_manifest(sweep)
         write_atomic(out / MANIFEST, (json.dumps(manifest, indent=2) + "\n").encode())
@@ -806,6 +833,54 @@ class Store:
         self._failed.update(rid for rid, res in fresh.items() if not res.ok)
         return len(fresh)
 
+    # -- reference runs ------------------------------------------------------------------------
+    def has_reference(self, digest: str) -> bool:
+        """True when the reference run of this digest is stored."""
+        return digest in self._references
+
+    def reference(self, digest: str) -> ReferenceTrack | None:
+        """The stored reference run of this digest, or None when it is not stored (or no longer
+        whole: it is then computed again)."""
+        path = self._references.get(digest)
+        if path is None:
+            return None
+        found = _read_references(path, {digest}).get(digest)
+        if found is None:
+            del self._references[digest]
+        return found
+
+    def write_references(self, results: Sequence[ReferenceResult]) -> int:
+        """Store the computed reference runs not stored yet (failed ones are not stored: they are
+        computed again when a run needs them); one part, written atomically. Returns the count.
+        """
+        fresh: dict[str, ReferenceResult] = {}
+        for res in results:
+            if res.track.ok and res.digest not in self._references and res.digest not in fresh:
+                fresh[res.digest] = res
+        if not fresh:
+            return 0
+        seq = self._next_reference
+        self._next_reference = seq + 1
+        columns: dict[str, list[Any]] = {name: [] for name in REFERENCE_SCHEMA.names}
+        for res in fresh.values():
+            tr = res.track
+            columns["digest"].append(res.digest)
+            columns["key"].append(res.key)
+            for name, values in (("times", tr.times), ("x", tr.x), ("height", tr.height)):
+                columns[name].append(np.asarray(values, dtype=np.float64))
+            columns["last"].append(np.asarray(tr.last, dtype=np.float64))
+            columns["wall_time"].append(float(res.wall_time))
+        table = pa.Table.from_pydict(columns, schema=REFERENCE_SCHEMA)
+        path = self.out / REFERENCES / f"part-{seq:06d}.parquet"
+        try:
+            path.parent.mkdir(exist_ok=True)
+        except OSError as exc:
+            raise io_error(path.parent, exc, "create the folder") from None
+        write_atomic(path, _parquet_bytes(table))
+        for digest in fresh:
+            self._references[digest] = path
+        return len(fresh)
+
     # -- helpers -------------------------------------------------------------------------------
     def _set_aside(self, seq: int) -> None:
         """Uncommit a damaged batch: rename its runs part, then its solitons part."""
@@ -822,7 +897,9 @@ class Store:
     def _clean_leftovers(self) -> None:
         """Remove temporary files and the solitons parts of batches that never committed."""
         committed = _committed_parts(self.out)
-        for folder in (self.out, *(self.out / t for t in (*TABLES, "frames"))):
+        for folder in (self.out, *(self.out / t for t in (*FOLDERS, REFERENCES))):
+            if not folder.is_dir():
+                continue
             for entry in folder.iterdir():
                 if entry.name.startswith(_TMP_PREFIX):
                     entry.unlink(missing_ok=True)
@@ -831,12 +908,70 @@ class Store:
                 path.unlink(missing_ok=True)
 
 
+def _read_references(path: Path, wanted: set[str] | None = None) -> dict[str, ReferenceTrack]:
+    """The whole reference runs of one part (those of ``wanted`` digests, or all), each checked:
+    its key hashes to its digest and its arrays agree in length. Raises :class:`_Broken` for a
+    part that is not readable Parquet of :data:`REFERENCE_SCHEMA`."""
+    table = _parse(_read_bytes(path), REFERENCE_SCHEMA)
+    out: dict[str, ReferenceTrack] = {}
+    for row in table.to_pylist():
+        digest = row["digest"]
+        if wanted is not None and digest not in wanted:
+            continue
+        times, x, height = (
+            np.asarray(row[k] or [], dtype=np.float64) for k in ("times", "x", "height")
+        )
+        if (
+            not isinstance(digest, str)
+            or not isinstance(row["key"], str)
+            or key_digest(row["key"]) != digest
+            or not times.size
+            or not (times.shape == x.shape == height.shape)
+        ):
+            continue  # not what its digest names: computed again when needed
+        last = np.asarray(row["last"] or [], dtype=np.float64)
+        out[digest] = ReferenceTrack(times, x, height, last)
+    return out
+
+
+def _reference_index(folder: Path, set_aside: bool) -> tuple[dict[str, Path], list[str]]:
+    """Digest -> part file of the stored reference runs, and one line per part not whole (set
+    aside as ``*.damaged`` when ``set_aside``: its references are computed again)."""
+    index: dict[str, Path] = {}
+    notes: list[str] = []
+    for path in part_files(folder).values():
+        try:
+            table = _parse(_read_bytes(path), REFERENCE_SCHEMA)
+        except (_Broken, FileNotFoundError) as exc:
+            notes.append(f"{REFERENCES}/{path.name}: {exc}; its reference runs are computed again")
+            if set_aside:
+                with contextlib.suppress(OSError):
+                    os.replace(path, path.with_name(path.name + DAMAGED_SUFFIX))
+            continue
+        for digest in table.column("digest").to_pylist():
+            if isinstance(digest, str):
+                index.setdefault(digest, path)
+    return index, notes
+
+
+def read_references(out: str | os.PathLike[str]) -> dict[str, ReferenceTrack]:
+    """The whole reference runs stored in ``out``, by digest (parts not whole are left out)."""
+    found: dict[str, ReferenceTrack] = {}
+    for path in part_files(Path(out) / REFERENCES).values():
+        try:
+            for digest, track in _read_references(path).items():
+                found.setdefault(digest, track)
+        except (_Broken, FileNotFoundError):
+            continue
+    return found
+
+
 def _is_leftover(entry: Path) -> bool:
     """A file a store attempt leaves before its manifest: the lock, temporary files, empty
     table folders."""
     if entry.name == LOCK or entry.name.startswith(_TMP_PREFIX):
         return True
-    if entry.name in (*TABLES, "frames") and entry.is_dir():
+    if entry.name in FOLDERS and entry.is_dir():
         return not any(entry.iterdir())
     return False
 
@@ -848,7 +983,7 @@ def _undo_new(out: Path, created: bool, had_lock: bool) -> None:
         for entry in out.iterdir():
             if entry.name.startswith(_TMP_PREFIX):
                 entry.unlink(missing_ok=True)
-            elif entry.name in (*TABLES, "frames") and entry.is_dir() and not any(entry.iterdir()):
+            elif entry.name in FOLDERS and entry.is_dir() and not any(entry.iterdir()):
                 entry.rmdir()
         if not had_lock:
             (out / LOCK).unlink(missing_ok=True)
@@ -946,6 +1081,7 @@ def iter_parts(out: str | os.PathLike[str], table: str) -> Iterator[Path]:
 __all__ = [
     "DAMAGED_SUFFIX",
     "MANIFEST",
+    "REFERENCES",
     "REPAIR_ADVICE",
     "STORE_FORMAT",
     "STORE_VERSION",
@@ -962,6 +1098,7 @@ __all__ = [
     "layout",
     "new_manifest",
     "read_manifest",
+    "read_references",
     "read_store",
     "read_table",
 ]
