@@ -257,13 +257,6 @@ MALFORMED = [
         ["initial.polarity[1]: given -1 in run 0", "+1"],
     ),
     (
-        "multisoliton-gardner",
-        edit('equation = "kdv"', 'equation = "gardner"').replace(
-            'kind = "solitons"', 'kind = "multisoliton"'
-        ),
-        ["initial.kind: given 'multisoliton' for the Gardner equation", "'solitons'"],
-    ),
-    (
         "gardner-table-top",
         edit('equation = "kdv"', "equation = { a = 6, b = -6, d = 1 }"),
         ["initial.kappa[0]: given 1.0 in run 0", "table-top limit 0.5"],

@@ -842,13 +842,6 @@ def _solitons(
             "an equation with solitons: KdV (a != 0, b = 0), focusing mKdV (a = 0, b d > 0) or "
             "Gardner (a != 0, b != 0), with d != 0",
         )
-    if tpl.kind == "multisoliton" and form.family == "gardner":
-        raise ctx.src.error(
-            "initial.kind",
-            f"'multisoliton' for the Gardner equation {eq.name!r} in {ctx.label}",
-            "'solitons' (kdvsweep has no exact Gardner N-soliton; separated solitary waves are "
-            "exact one by one)",
-        )
     own = form.sign
     signs = [own] * len(spec["sizes"])
     if "polarity" in spec:
