@@ -199,3 +199,23 @@ def test_reference_runs_are_shared_and_survive_a_resume(client: Any, tmp_path: P
     assert list((out / REFERENCES).glob("*.damaged"))
     pd.testing.assert_frame_equal(load(out).solitons, first)
     assert math.isfinite(float(load(out).runs["radiated_energy"].iloc[0]))
+
+
+def test_a_failed_reference_leaves_the_shift_unmeasured_with_a_reason(tmp_path: Path) -> None:
+    # A reference run that could not be computed (here: one that blew up) gives no shift, never
+    # the asymptote value under another name: NaN, shift_method "reference", and the reason in
+    # analysis_reason (common practice, no source).
+    from kdvsweep.analysis.tracks import ReferenceTrack
+
+    spec = one_spec(tmp_path, pair_text('{ preset = "kdv", g = 1e-3 }', points=512, dt=0.01))
+    good = compute_reference(references_for(spec)[0]).track
+    broken = ReferenceTrack.failed("reference run failed: NumericalError: blew up")
+    res = execute(spec, references=[good, broken])
+    assert res.ok
+    table = pd.DataFrame(res.soliton_rows)
+    assert list(table["shift_method"]) == ["reference", "reference"]
+    assert table[["shift_measured", "amplitude_change", "speed_change"]].isna().all().all()
+    assert (
+        "soliton 1: reference run failed: NumericalError: blew up" in res.run_row["analysis_reason"]
+    )
+    assert math.isnan(res.run_row["radiated_energy"])

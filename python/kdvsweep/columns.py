@@ -133,7 +133,12 @@ RUN_COLUMNS: tuple[Column, ...] = (
 #: Runs columns written by the collision analysis (sweeps of soliton initial data only).
 ANALYSIS_COLUMNS: tuple[Column, ...] = (
     Column("analysis_status", _S, '"ok", "too_short" (no fit windows) or "failed" (solitons lost)'),
-    Column("analysis_reason", _S, "why the analysis did not measure the shifts (empty when ok)"),
+    Column(
+        "analysis_reason",
+        _S,
+        "why the analysis did not measure the shifts, or what it left out (radiated_*, reference"
+        " runs); empty when everything was measured",
+    ),
     Column("n_solitons", _I, "solitons tracked"),
     Column("regime", _S, "Lax's interaction regime of a KdV pair: exchange, mixed, absorb-emit"),
     Column(
@@ -151,8 +156,8 @@ ANALYSIS_COLUMNS: tuple[Column, ...] = (
     Column(
         "radiated_mass",
         _F,
-        "mass the collisions radiated: int r outside windows of `separation` tail lengths around"
-        " each soliton in the last frame, r = u less the reference runs' last frames (perturbed"
+        "mass the collisions radiated: int r outside windows of 10 tail lengths 1/(2 kappa) either"
+        " side of each soliton in the last frame, r = u less the reference runs' last frames (perturbed"
         " equations), or u at the end less u at the start (integrable)",
     ),
     Column(

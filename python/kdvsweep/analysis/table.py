@@ -33,6 +33,12 @@ DEFAULT_SEPARATION = 16.0
 #: same soliton run alone (perturbed equations; see :func:`analyse_run`).
 SHIFT_METHODS = ("asymptotes", "reference")
 
+#: Half-width, in tail lengths ``1/(2 kappa)``, of the window around each soliton that
+#: ``radiated_mass`` and ``radiated_energy`` leave out: a soliton's density at its edge is
+#: ``e^-10`` (5e-5) of its peak (common practice, no source). What lies outside counts as radiation,
+#: so the values depend on it: compare runs measured with the same window.
+RADIATION_WINDOW = 10.0
+
 #: Columns of a collision table: the solitons table's, less the run's id and the input centre.
 TABLE_COLUMNS = tuple(c.name for c in SOLITON_COLUMNS if c.name not in ("run_id", "x0"))
 
@@ -365,7 +371,7 @@ def analyse_run(
     energy, fraction = _radiation(u[-1], grid, t[-1], measured, fits, tracks.sign, eq)
     summary.update(radiation_energy=energy, radiation_fraction=fraction)
     tails = np.asarray(eq.soliton_form.tail_length(measured if given is None else given))
-    radiated, note = _radiated(u, grid, tracks, tails, separation, eq, references)
+    radiated, note = _radiated(u, grid, tracks, tails, eq, references)
     summary.update(radiated)
     notes += [note] if note else []
     if notes:
@@ -430,6 +436,7 @@ def _changes(
                 row.update(shift_measured=math.nan, shift_method="reference")
                 row.update(shift_error=math.nan, shift_rel_error=math.nan)
                 row.update(shift_uncertainty=math.nan)
+                row.update(amplitude_change=math.nan, speed_change=math.nan)
             continue
         ref = refs[i]
         d = ring_difference(tracks.x[:, i], ref.x, tracks.length)
@@ -476,19 +483,21 @@ def _outside(
     return mask
 
 
+_COVERED = "radiated_mass/energy not measured: the windows around the solitons cover the whole box"
+
+
 def _radiated(
     u: np.ndarray,
     grid: Grid,
     tracks: Tracks,
     tails: np.ndarray,
-    separation: float,
     eq: Equation,
     references: Sequence[ReferenceTrack] | None,
 ) -> tuple[dict[str, float], str]:
     """``radiated_mass`` and ``radiated_energy``: what the collisions sent away from the solitons
     (and a note when they cannot be measured).
 
-    Windows of ``separation`` tail lengths either side of each soliton are left out. Perturbed,
+    Windows of :data:`RADIATION_WINDOW` tail lengths either side of each soliton are left out. Perturbed,
     with references: ``r = u(T) - sum_i u_i(T)``, the last frame less the last frames of the
     reference runs (which carry each soliton's own shedding under damping or a term its shape does
     not solve), integrated outside the windows around the solitons of the run and of the
@@ -497,7 +506,7 @@ def _radiated(
     shape, so what is left is the collisions').
     """
     x, n_sol = grid.x, tracks.n_solitons
-    halves = [float(separation * tau) for tau in np.broadcast_to(tails, (n_sol,))]
+    halves = [float(RADIATION_WINDOW * tau) for tau in np.broadcast_to(tails, (n_sol,))]
     last = int(np.flatnonzero(tracks.linked)[-1])
     if last != u.shape[0] - 1:
         return {}, "radiated_mass/energy not measured: the solitons are not apart in the last frame"
@@ -510,12 +519,16 @@ def _radiated(
         outs = []
         for f in (0, last):
             mask = _outside(x, list(tracks.x[f]), halves, grid.length)
+            if not mask.any():
+                return {}, _COVERED
             outs.append((float(np.sum(u[f][mask])), float(np.sum(u[f][mask] ** 2))))
         (m0, e0), (m1, e1) = outs
         return {"radiated_mass": (m1 - m0) * grid.dx, "radiated_energy": (e1 - e0) * grid.dx}, ""
     resid = u[last] - np.sum([ref.last for ref in refs], axis=0)
     centres = [*tracks.x[last], *(ref.x[-1] for ref in refs)]
     mask = _outside(x, centres, halves + halves, grid.length)
+    if not mask.any():
+        return {}, _COVERED
     return {
         "radiated_mass": float(np.sum(resid[mask]) * grid.dx),
         "radiated_energy": float(np.sum(resid[mask] ** 2) * grid.dx),
@@ -648,6 +661,7 @@ def collision_table(
 
 __all__ = [
     "DEFAULT_SEPARATION",
+    "RADIATION_WINDOW",
     "SHIFT_METHODS",
     "TABLE_COLUMNS",
     "RunAnalysis",
