@@ -1,13 +1,18 @@
 """The user-facing simulation: a thin layer over the Rust stepper that checks and coerces inputs.
 
 This module is the one home of the step options: the scheme names (:data:`SCHEMES`, read from the
-compiled core), the defaults :data:`DEFAULT_DT` and :data:`DEFAULT_TOL`, and the rule that a
-tolerance belongs to the adaptive scheme only (:func:`step_options`).
+compiled core), the defaults :data:`DEFAULT_DT` and :data:`DEFAULT_TOL`, the rule that a
+tolerance belongs to the adaptive scheme only (:func:`step_options`), each fixed-step scheme's
+measured stable step (:data:`STEP_RULE`, :func:`dt_limit`) and the resolution of a profile's
+spectrum (:func:`spectrum_decades`, :data:`WARN_DECADES`); sweeps and :meth:`Simulation.check`
+use them.
 """
 
 from __future__ import annotations
 
 import math
+import warnings
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -29,6 +34,163 @@ DEFAULT_DT = 1e-3
 
 #: Default relative L2 error per step of the adaptive scheme.
 DEFAULT_TOL = 1e-9
+
+
+class SetupWarning(UserWarning):
+    """A simulation's step or grid is outside the measured safe rules (:meth:`Simulation.check`)."""
+
+
+@dataclass(frozen=True)
+class StepRule:
+    """A fixed-step scheme's largest safe step: ``dt * rate_nl <= nonlinear`` and
+    ``dt * sqrt(rate_nl * rate_lin) <= mixed`` (:func:`nonlinear_rate`, :func:`linear_rate`)."""
+
+    nonlinear: float
+    mixed: float = math.inf
+
+    def limit(self, rate_nl: float, rate_lin: float) -> float:
+        """The largest safe step for these rates (inf when the nonlinear rate is 0)."""
+        if not rate_nl > 0:
+            return math.inf
+        return min(self.nonlinear / rate_nl, self.mixed / math.sqrt(rate_nl * rate_lin))
+
+
+#: Safety factor: each constant of :data:`STEP_RULE` is this times the smallest limit measured.
+STEP_SAFETY = 0.8
+
+#: The fixed-step schemes' step rules (the adaptive scheme chooses its own step).
+#:
+#: Our measurement (2026-12-02, ``kdvsweep bench --steps``, :mod:`kdvsweep.steplimits`): the
+#: largest step, by bisection to 10 %, with which one soliton of KdV and of focusing mKdV
+#: (kappa = 0.5, 1, 2; n = 256 to 4096 on a box of 40 widths of the kappa = 1 soliton, 4 to 100
+#: points per width) crosses its box twice with neither a blow-up, nor an error against the exact
+#: soliton that keeps growing (more than 8 times from half time to the end), nor one above 30 %.
+#: Each constant is :data:`STEP_SAFETY` times the smallest limit found.
+#:
+#: - ETDRK4 never became unstable: its limits are where the soliton is lost (error above 30 %),
+#:   dt * rate_nl = 2.9 to 12 (growing with n: an accuracy limit of the soliton's own time
+#:   scale, about dt = 0.019 for kappa = 1).
+#: - Strang (an RK4 substep of the nonlinear flow) blows up at dt * rate_nl = 3.1 to 3.4 on fine
+#:   grids, the RK4 bound ``2 sqrt 2`` on the imaginary axis; on coarse ones the soliton is lost
+#:   first (1.8 to 2.2).
+#: - IFRK4 blows up, or its error grows exponentially, at a step that falls like 1/n: its limit
+#:   is the product form dt * sqrt(rate_nl * rate_lin) = 4.2 to 8.2 (dt * rate_nl alone ranged over
+#:   0.1 to 1.6). The integrating factor turns the coupling of a mode k to the data's modes q at
+#:   the frequency ``omega'(k) q``, which the RK4 stages sample; fifth-order dispersion that
+#:   slows the group velocity at the cutoff raised the limit as :func:`linear_rate` predicts. Its
+#:   nonlinear bound is the RK4 substep's, as for Strang (not binding on the solitons measured).
+STEP_RULE: dict[str, StepRule] = {
+    "etdrk4": StepRule(nonlinear=STEP_SAFETY * 2.86),
+    "ifrk4": StepRule(nonlinear=STEP_SAFETY * 1.79, mixed=STEP_SAFETY * 4.19),
+    "strang": StepRule(nonlinear=STEP_SAFETY * 1.79),
+}
+
+
+def dt_limit(scheme: str, max_u: float, equation: Equation, dx: float) -> float:
+    """The largest safe step of ``scheme`` (:data:`STEP_RULE`) for data of peak ``max_u`` on a
+    grid of spacing ``dx``; inf for the adaptive scheme (its error control picks the step) and
+    for a linear equation."""
+    rule = STEP_RULE.get(scheme)
+    if rule is None:
+        return math.inf
+    rate = nonlinear_rate(max_u, equation.a, equation.b, equation.dealias_fraction, dx)
+    return rule.limit(rate, linear_rate(equation, dx))
+
+
+def step_warning(scheme: str, dt: float, max_u: float, equation: Equation, dx: float) -> str | None:
+    """A one-line warning when ``dt`` exceeds :func:`dt_limit`, naming the safe step; else None."""
+    limit = dt_limit(scheme, max_u, equation, dx)
+    if not dt > limit:
+        return None
+    return (
+        f"dt = {dt:g} exceeds the measured stable step of {scheme} for max|u| = {max_u:.3g} on "
+        f"dx = {dx:.3g}: use dt <= {limit:.3g} (kdvsweep.simulation.STEP_RULE)"
+    )
+
+
+#: Decades of spectrum that a resolved profile keeps at the dealiasing cutoff (the double precision
+#: level; below it a sweep warns) and below which a sweep refuses the grid (common practice, no
+#: source: the profile's spectrum would still be at 1e-6 where the nonlinear term is cut).
+WARN_DECADES = 16
+REFUSE_DECADES = 6
+#: The round-off floor of a spectrum: this many ``eps log2(n)`` times the profile's L2 norm (the
+#: error of the transform; measured: resolved solitons stop 10 to 200 times above
+#: ``eps sqrt(n) rms``, below this floor).
+ROUNDOFF_FACTOR = 16.0
+
+
+def spectrum_decades(u: object, dealias: float) -> float:
+    """Decades between the peak of the profile's spectrum (mode 0 left out: a constant needs no
+    resolution) and its largest mode at or beyond the dealiasing cutoff ``dealias n / 2``.
+
+    inf when the spectrum there is at the round-off floor of the transform (:data:`ROUNDOFF_FACTOR`):
+    the profile is resolved to double precision. The spectrum is ``numpy.fft.rfft`` of ``u``.
+    """
+    arr = np.asarray(u, dtype=np.float64)
+    n = arr.size
+    mag = np.abs(np.fft.rfft(arr))
+    peak = float(mag[1:].max()) if mag.size > 1 else 0.0
+    if not peak > 0:
+        return math.inf
+    tail = float(mag[math.ceil(dealias * n / 2) :].max())
+    eps = float(np.finfo(np.float64).eps)
+    floor = ROUNDOFF_FACTOR * eps * math.log2(max(n, 2)) * float(np.sqrt(np.sum(arr * arr)))
+    if tail <= floor:
+        return math.inf
+    return math.log10(peak / tail)
+
+
+def resolution_warning(u: object, equation: Equation, grid: Grid) -> str | None:
+    """A one-line warning when the profile ``u`` keeps fewer than :data:`WARN_DECADES` decades of
+    its spectrum at the dealiasing cutoff (:func:`spectrum_decades`); else None.
+
+    With a soliton form, the message also gives the points per width of the soliton as tall as
+    ``max|u|`` (``SolitonForm.kappa_of_height``).
+    """
+    decades = spectrum_decades(u, equation.dealias_fraction)
+    if not decades < WARN_DECADES:
+        return None
+    text = (
+        f"the data keeps {decades:.1f} decades of its spectrum at the dealiasing cutoff (fewer "
+        f"than {WARN_DECADES}: round-off level); refine the grid"
+    )
+    form = equation.soliton_form_or_none()
+    top = float(np.max(np.abs(np.asarray(u, dtype=np.float64))))
+    if form is not None and top > 0:
+        width = float(form.width(form.kappa_of_height(top)))
+        text += f" (a soliton of height {top:.3g} has {width / grid.dx:.1f} points per width)"
+    return text
+
+
+def nonlinear_rate(max_u: float, a: float, b: float, dealias: float, dx: float) -> float:
+    """The nonlinear term's largest rate ``(|a| max|u| + |b| max u^2) k_cut``, with
+    ``k_cut = dealias pi / dx`` the largest wavenumber the nonlinear term keeps (the largest
+    frequency of the flux linearised about ``max|u|``), in float arithmetic that gives inf rather
+    than raising when it overflows."""
+    return (abs(a) * max_u + abs(b) * max_u * max_u) * dealias * math.pi / dx
+
+
+def linear_rate(equation: Equation, dx: float) -> float:
+    """The dispersive rate of the kept band: the largest ``k |omega'(k)| / 3`` for
+    ``0 < k <= k_cut``, with ``omega(k) = d k^3 - f k^5`` the dispersion relation, that is the
+    largest ``|d k^3 - (5/3) f k^5|`` (``|d| k_cut^3`` without ``f``; ``k_cut`` as in
+    :func:`nonlinear_rate`).
+
+    ``omega'(k) q`` is the frequency at which the integrating factor turns the coupling of a mode
+    ``k`` to the data's modes ``q``; its product with :func:`nonlinear_rate` bounds IFRK4's step
+    (:data:`STEP_RULE`). Fifth-order dispersion of the same sign as ``d`` slows the group velocity
+    near the cutoff (``omega' = 3 d k^2 - 5 f k^4``) and so allows a longer step.
+    """
+    k_cut = equation.dealias_fraction * math.pi / dx
+    candidates = [k_cut]
+    if equation.f != 0 and equation.d / equation.f > 0:  # interior extremum of d k^3 - 5/3 f k^5
+        inner = math.sqrt(9.0 * equation.d / (25.0 * equation.f))
+        if inner < k_cut:
+            candidates.append(inner)
+    return max(
+        abs(equation.d * k * k * k - (5.0 / 3.0) * equation.f * k * k * k * k * k)
+        for k in candidates
+    )
 
 
 def _positive(name: str, value: object) -> float:
@@ -123,6 +285,9 @@ class Simulation:
         since the state was set; checked every 256 steps. When it runs out the call raises
         :class:`~kdvsweep.exceptions.TimeLimitError` naming the limit and the time reached (the
         state stays valid there). ``None`` (default): no limit.
+    check
+        When True, :meth:`set_state` issues each of :meth:`check`'s warnings as a
+        :class:`SetupWarning` (``warnings.warn``). Default False: no check.
 
     Raises
     ------
@@ -143,6 +308,7 @@ class Simulation:
         tol: float | None = None,
         max_amplitude: float | None = None,
         time_limit: float | None = None,
+        check: bool = False,
     ) -> None:
         if not isinstance(grid, Grid):
             raise ConfigError(
@@ -157,6 +323,8 @@ class Simulation:
         self.grid = grid
         self.equation = equation
         self.scheme = scheme
+        self.dt = dt
+        self._check = bool(check)
         self._core = _core.Simulation(
             grid.n,
             grid.length,
@@ -173,7 +341,29 @@ class Simulation:
         """Set the state to the profile ``u0`` (length ``grid.n``) at ``time``."""
         if not math.isfinite(time):
             raise ConfigError(f"set_state: time must be finite, got {time}")
-        self._core.set_state(as_profile(u0, self.grid.n, "u0"), float(time))
+        u = as_profile(u0, self.grid.n, "u0")
+        self._core.set_state(u, float(time))
+        if self._check:
+            for message in self.check(u):
+                warnings.warn(message, SetupWarning, stacklevel=2)
+
+    def check(self, u: object = None) -> list[str]:
+        """Warnings about this setup for the profile ``u`` (default: the current state), one line
+        each: a step above the scheme's measured stable step (:func:`step_warning`,
+        :data:`STEP_RULE`, taken at ``max|u|``; the adaptive scheme picks its own step), and a
+        profile whose spectrum is not resolved at the dealiasing cutoff
+        (:func:`resolution_warning`). An empty list when neither applies.
+
+        ``max|u|`` of the profile is what the step rule sees: data whose peak grows later (mKdV
+        solitons of opposite polarity meet at the sum of their amplitudes) need a smaller step.
+        """
+        arr = self.state if u is None else as_profile(u, self.grid.n)
+        top = float(np.max(np.abs(arr))) if arr.size else 0.0
+        found = [
+            step_warning(self.scheme, self.dt, top, self.equation, self.grid.dx),
+            resolution_warning(arr, self.equation, self.grid),
+        ]
+        return [f"Simulation: {text}" for text in found if text is not None]
 
     def advance(self, duration: float) -> None:
         """Step forward by ``duration`` (not to it); releases the GIL while stepping.
@@ -266,9 +456,21 @@ __all__ = [
     "DEFAULT_SCHEME",
     "DEFAULT_TOL",
     "INVARIANTS",
+    "REFUSE_DECADES",
     "SCHEMES",
+    "STEP_RULE",
+    "STEP_SAFETY",
+    "WARN_DECADES",
+    "SetupWarning",
     "Simulation",
+    "StepRule",
+    "dt_limit",
     "invariants",
+    "linear_rate",
     "memory_needed",
+    "nonlinear_rate",
+    "resolution_warning",
+    "spectrum_decades",
     "step_options",
+    "step_warning",
 ]

@@ -1113,17 +1113,18 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
         )
     if math.isfinite(narrowest):
         _check_resolution(ctx, warn, narrowest, grid, dealias, tpl.points is None)
+    if not isinstance(initial, init.Solitons):  # any other data: their own spectrum
+        _check_spectrum(ctx, warn, initial, grid, eq, tpl.points is None)
     _check_scales(ctx, tpl, eq, grid, dt, max_u, dealias)
-    if scheme in ("etdrk4", "ifrk4") and max_u > 0:  # the RK4-type steps the rule is made for
-        limit = sizing.dt_limit(max_u, eq.a, eq.b, dealias, grid.dx)
+    if max_u > 0:  # each fixed-step scheme's measured rule (the adaptive scheme picks its step)
+        limit = sizing.dt_limit(scheme, max_u, eq, grid.dx)
         if dt > limit:
             warn.add(
                 "model.dt",
-                "exceed the rule-of-thumb stable step "
-                "dt (|a| max|u| + |b| max u^2) k_cut <= 2 sqrt 2",
+                "exceed the measured stable step of their scheme (kdvsweep.simulation.STEP_RULE)",
                 ctx.run_id,
                 dt / limit,
-                f"dt = {dt:g} > {limit:.3g}",
+                f"{scheme}: dt = {dt:g}; use dt <= {limit:.3g}",
             )
     times = _record_times(t_end, tpl.frame_every)
     model = ModelSpec(eq, grid, scheme, dt, tol)
@@ -1325,6 +1326,40 @@ def _check_resolution(
             ctx.run_id,
             1 / per_width,
             f"{per_width:.1f} points per width",
+        )
+
+
+def _check_spectrum(
+    ctx: _Run, warn: _Warnings, initial: init.InitialData, grid: Grid, eq: Equation, auto: bool
+) -> None:
+    """Resolution of data other than solitons, from the spectrum of ``u0`` itself
+    (:func:`sizing.spectrum_decades`): warned below ``WARN_DECADES`` at the dealiasing cutoff,
+    refused below ``REFUSE_DECADES`` for the smooth shapes (a box or a file may have edges on
+    purpose: warned only). A sharp box never resolves: one note says so."""
+    if isinstance(initial, init.Box) and initial.edge == 0:
+        warn.note(
+            "initial",
+            "a sharp box (edge = 0) is discontinuous: its spectrum falls like 1/k, so no grid "
+            "resolves it (Gibbs ripples at its edges); give initial.edge > 0 for smooth data",
+        )
+        return
+    decades = sizing.spectrum_decades(init.build_profile(initial, grid, eq), eq.dealias_fraction)
+    if decades < sizing.REFUSE_DECADES and not isinstance(initial, init.Box | init.FileData):
+        raise ctx.fail(
+            "model.points",
+            grid.n,
+            f"a grid keeping at least {sizing.REFUSE_DECADES} decades of the initial data's "
+            f"spectrum at the dealiasing cutoff (n = {grid.n} keeps {decades:.1f}; smooth data "
+            "gain decades in proportion to n)",
+        )
+    if decades < sizing.WARN_DECADES and not auto:
+        warn.add(
+            "initial",
+            f"keep fewer than {sizing.WARN_DECADES} decades of the initial data's spectrum at "
+            "the dealiasing cutoff (double precision: refine model.points)",
+            ctx.run_id,
+            -decades,
+            f"{decades:.1f} decades",
         )
 
 

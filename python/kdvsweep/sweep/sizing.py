@@ -29,12 +29,12 @@ points per width. ``D = 16`` is the double-precision level (``k_max >~ 23.5 kapp
 (``phi = 1/2``): below it a sweep warns. ``D = 6`` (4.2 and 5.6 points per width) is our refusal
 level: the profile's spectrum would still be at 1e-6 where the nonlinear term is cut.
 
-Time step (warning only): a rule of thumb for RK4-type exponential or integrating-factor steps
-(common practice, no source: the RK4 stability interval ``2 sqrt 2`` on the imaginary axis applied
-to the nonlinear term's largest rate), ``dt (|a| max|u| + |b| max u^2) k_cut <~ 2 sqrt 2``, with
-``k_cut = phi pi / dx`` the largest wavenumber the nonlinear term keeps, and ``max|u|`` the largest
-amplitude, or for mKdV solitons of both polarities the sum of the amplitudes (their peak when they
-meet, seen on the exact 2-soliton).
+Time step (warning only): each fixed-step scheme's measured stable step,
+:func:`kdvsweep.simulation.dt_limit` (the constants :data:`kdvsweep.simulation.STEP_RULE`, measured
+by ``kdvsweep bench --steps``), taken at ``max|u|``: the largest amplitude, or for mKdV solitons of
+both polarities the sum of the amplitudes (their peak when they meet, seen on the exact 2-soliton).
+The resolution levels :data:`WARN_DECADES` and :data:`REFUSE_DECADES` live there too, with the
+spectral estimate used for data other than solitons (:func:`kdvsweep.simulation.spectrum_decades`).
 """
 
 from __future__ import annotations
@@ -48,14 +48,18 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from ..model import SolitonForm
+from ..simulation import (
+    REFUSE_DECADES,
+    WARN_DECADES,
+    dt_limit,
+    nonlinear_rate,
+    spectrum_decades,
+    step_warning,
+)
 from ..theory import pair_shift
 
 if TYPE_CHECKING:
     from ..spectrum import SolitonContent
-
-WARN_DECADES = 16
-REFUSE_DECADES = 6
-DT_RULE = 2.0 * math.sqrt(2.0)
 
 
 def reach(kappa: float, form: SolitonForm, tail: float) -> float:
@@ -178,18 +182,6 @@ def auto_points(narrowest: float, length: float, dealias: float) -> int:
     while n < need:
         n = n // 2 * 3 if n & (n - 1) == 0 else n // 3 * 4  # 16, 24, 32, 48, 64, ...
     return n
-
-
-def dt_limit(max_u: float, a: float, b: float, dealias: float, dx: float) -> float:
-    """The rule-of-thumb largest stable step (module doc; inf for a linear equation)."""
-    rate = nonlinear_rate(max_u, a, b, dealias, dx)
-    return math.inf if rate == 0 else DT_RULE / rate
-
-
-def nonlinear_rate(max_u: float, a: float, b: float, dealias: float, dx: float) -> float:
-    """The nonlinear term's largest rate ``(|a| max|u| + |b| max u^2) k_cut`` (module doc), in
-    float arithmetic that gives inf rather than raising when it overflows."""
-    return (abs(a) * max_u + abs(b) * max_u * max_u) * dealias * math.pi / dx
 
 
 #: Arrays of ``n`` float64 (a spectrum of ``n/2 + 1`` complex modes counts as one) that the core's
@@ -465,4 +457,6 @@ __all__ = [
     "run_memory",
     "separation",
     "shift_bound",
+    "spectrum_decades",
+    "step_warning",
 ]
