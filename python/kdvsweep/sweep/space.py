@@ -18,7 +18,6 @@ from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-from scipy.stats import qmc
 
 from ..columns import MODEL_COLUMNS, reserved_names
 from .expr import RESERVED
@@ -168,6 +167,8 @@ def _draw(src: Source, tab: Table, names: list[str]) -> tuple[tuple[float, ...],
             raise rng_tab.fail("to", rng_tab.raw("to"), "a value different from from")
         bounds.append((lo, hi, spacing))
     if method == "latin":
+        from scipy.stats import qmc  # loaded when a sweep samples, not on import
+
         unit = qmc.LatinHypercube(d=len(names), rng=seed).random(count)
     else:
         unit = np.random.default_rng(seed).random((count, len(names)))
