@@ -69,13 +69,15 @@ from __future__ import annotations
 
 import warnings
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 import numpy as np
-import pandas as pd
-import scipy.linalg as sla
 
 from .exceptions import ConfigError, ShapeError
 from .model import Equation, Grid, SolitonForm
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 DEFAULT_TOL = 1e-8
 #: Fourier coefficients below this fraction of ``tol`` (relative to the largest) are not carried
@@ -235,6 +237,8 @@ class SolitonContent:
             "resolution_error",
             "box_error",
         ]
+        import pandas as pd
+
         return pd.DataFrame(rows, columns=columns)
 
 
@@ -346,6 +350,8 @@ def _derivative_matrix(m: int, length: float, order: int) -> np.ndarray:
     First order drops the Nyquist mode (its derivative is not representable), so the matrix is
     real antisymmetric; second order keeps it (``-k_N^2``) and is real symmetric.
     """
+    import scipy.linalg as sla  # loaded on first use, not on import
+
     k = 2.0 * np.pi / length * np.arange(m // 2 + 1)
     symbol = (1j * k) ** order
     if order % 2:
@@ -387,6 +393,8 @@ def _zs_matrix(q: np.ndarray, length: float) -> np.ndarray:
 
 
 def _schrodinger_states(w: np.ndarray, length: float) -> _States:
+    import scipy.linalg as sla  # loaded on first use, not on import
+
     m = w.size
     top = -((MIN_DECAY / length) ** 2)  # kappa > MIN_DECAY / L
     e, v = sla.eigh(_schrodinger_matrix(w, length), subset_by_value=(-np.inf, top))
@@ -398,6 +406,8 @@ def _schrodinger_states(w: np.ndarray, length: float) -> _States:
 
 
 def _zs_states(q: np.ndarray, length: float) -> _States:
+    import scipy.linalg as sla  # loaded on first use, not on import
+
     m = q.size
     a = _zs_matrix(q, length)
     lam = sla.eig(a, right=False)
@@ -431,6 +441,8 @@ def _inverse_iteration(
     Only a few eigenpairs are wanted (the ZS candidates, and the fine eigenvalue next to each
     coarse one); one factorisation costs a small fraction of a dense eigensolve.
     """
+    import scipy.linalg as sla  # loaded on first use, not on import
+
     # A real eigenvalue of a real matrix has a real eigenvector: stay in real arithmetic then.
     # The shift is moved off the value by 1e-10 relative so the factor is never exactly singular.
     real = np.imag(shift) == 0

@@ -35,15 +35,18 @@ from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from ..exceptions import ConfigError
 from ..model import Equation, Grid
 from ..reference import ReferenceSimulation
-from ..results import load
 from .config import Sweep, load_sweep
-from .farm import SweepReport, local_client, run_sweep
-from .runner import execute
+
+if TYPE_CHECKING:
+    from .farm import SweepReport
+
+# The farm (dask), the runner (the analysis, scipy) and the results (pandas) are imported where
+# they are used: the command line builds its parser from this module's constants.
 
 KAPPA1 = 1.0
 KAPPA2 = (0.5, 0.7)
@@ -107,6 +110,8 @@ def numpy_simulation(
 
 def numpy_run(spec: Any) -> dict[str, Any]:
     """One run of the baseline: NumPy stepping, the same analysis; the run's row."""
+    from .runner import execute
+
     return execute(spec, simulation=numpy_simulation).run_row
 
 
@@ -169,6 +174,9 @@ def _timed_cluster(workers: int, warm: Any) -> Iterator[tuple[Any, float]]:
     The warm-up (imports, first-call costs) matches the one of the serial loop, so that the
     rates compare steady states; start-up is reported apart.
     """
+    from .farm import local_client
+    from .runner import execute
+
     start = time.perf_counter()
     with local_client(workers) as client:
         startup = time.perf_counter() - start
@@ -200,6 +208,9 @@ class FarmRun:
 
 
 def _farm(client: Any, sweep: Sweep, out: Path) -> FarmRun:
+    from ..results import load
+    from .farm import run_sweep
+
     pids = [os.getpid(), *client.run(os.getpid).values()]
     with ProcessSampler(pids) as sampler:
         report = run_sweep(sweep, out, client)
@@ -288,6 +299,8 @@ def measure(
 def _bench(
     runs: int, numpy_runs: int, growth: Sequence[int], folder: Path, stage: Callable[[str], None]
 ) -> SweepBenchmark:
+    from .runner import execute
+
     sweep = reference_sweep(runs, folder)
     out = SweepBenchmark(runs=runs, cores=os.cpu_count() or 1)
     out.loads["start"] = load_average()
