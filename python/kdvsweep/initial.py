@@ -10,6 +10,10 @@ Kinds (the :attr:`kind` of each description):
   ``height exp(-((x - center)/scale)^2)`` (both summed over periodic images);
 - :class:`Box` ``"box"``: ``height`` on ``|x - center| < half_width`` (periodically wrapped), edges
   smoothed by ``tanh`` over ``edge`` when ``edge > 0``, ``height/2`` exactly on a sharp edge;
+- :class:`Breather` ``"breather"``: the exact mKdV breather, ``eta``, ``xi``, ``center``,
+  ``phase`` (:func:`kdvsweep.exact.breather`); :class:`Sech4Wave` ``"fifth-order-wave"``: the
+  exact ``sech^4`` wave of a fifth-order equation, ``center`` (:func:`kdvsweep.exact.fifth_order_form`);
+  both summed over periodic images;
 - :class:`FileData` ``"npy"``: a 1-D array of length ``n`` from the ``.npy`` file ``path``
   (checked against ``sha256`` when given).
 
@@ -33,7 +37,16 @@ import numpy as np
 from .exceptions import ConfigError, ShapeError
 from .model import Equation, Grid, sech
 
-KINDS = ("solitons", "multisoliton", "sech2", "gaussian", "box", "npy")
+KINDS = (
+    "solitons",
+    "multisoliton",
+    "sech2",
+    "gaussian",
+    "box",
+    "breather",
+    "fifth-order-wave",
+    "npy",
+)
 
 # Images are summed until the neglected tail is below 1e-18 of the peak: e^{-2 kappa X} < 1e-18/4.
 _TAIL_DECAYS = 0.5 * math.log(4e18)
@@ -244,6 +257,98 @@ class Box:
 
 
 @dataclass(frozen=True)
+class Breather:
+    """The exact breather of focusing mKdV (kind ``"breather"``): eigenvalue pair ``+-xi + i eta``,
+    envelope centred at ``center``, carrier phase ``phase`` (:func:`kdvsweep.exact.breather` at
+    ``t = 0``), summed over periodic images. Only for an unperturbed focusing mKdV equation."""
+
+    eta: float
+    xi: float
+    center: float = 0.0
+    phase: float = 0.0
+
+    def __post_init__(self) -> None:
+        from .exact import check_breather_parameters
+
+        check_breather_parameters(self.eta, self.xi)
+        _finite_fields(self, ("eta", "xi", "center", "phase"))
+
+    @property
+    def kind(self) -> str:
+        """``"breather"``."""
+        return "breather"
+
+    @property
+    def width(self) -> float:
+        """The width a grid must resolve: the envelope's ``1/(2 eta)`` narrowed by the carrier of
+        wavenumber ``2 xi`` to ``1/(2 (eta + xi))`` (a cautious estimate, no source)."""
+        return 0.5 / (self.eta + self.xi)
+
+    @property
+    def reach(self) -> float:
+        """Distance from the centre beyond which the envelope ``~ 8 eta e^{-2 eta |x|}`` is below
+        1e-18 of its peak."""
+        return _TAIL_DECAYS / self.eta
+
+    def plain(self) -> dict[str, Any]:
+        """As plain JSON data: ``kind``, ``eta``, ``xi``, ``center``, ``phase``."""
+        return {
+            "kind": "breather",
+            "eta": self.eta,
+            "xi": self.xi,
+            "center": self.center,
+            "phase": self.phase,
+        }
+
+    def build(self, grid: Grid, equation: Equation) -> np.ndarray:
+        """The profile on ``grid.x`` (:class:`ConfigError` for an equation without breathers)."""
+        from .exact import breather_alpha, breather_profile
+
+        alpha = breather_alpha(equation)
+        eta, xi, center, phase = self.eta, self.xi, self.center, self.phase
+
+        def shape(y: np.ndarray) -> np.ndarray:
+            return breather_profile(y, eta, xi, center, phase, alpha)
+
+        return _periodic(shape, grid.x, grid.length, self.reach + abs(center))
+
+
+@dataclass(frozen=True)
+class Sech4Wave:
+    """The exact ``sech^4`` solitary wave of ``u_t + a u u_x + d u_xxx + f u_xxxxx = 0`` (kind
+    ``"fifth-order-wave"``) centred at ``center`` (:func:`kdvsweep.exact.fifth_order_form`: its
+    height, width and speed are fixed by the equation), summed over periodic images. Only with
+    ``d f < 0``, ``a != 0`` and ``b = g = v = 0``."""
+
+    center: float = 0.0
+
+    def __post_init__(self) -> None:
+        _finite_fields(self, ("center",))
+
+    @property
+    def kind(self) -> str:
+        """``"fifth-order-wave"``."""
+        return "fifth-order-wave"
+
+    def plain(self) -> dict[str, Any]:
+        """As plain JSON data: ``kind``, ``center``."""
+        return {"kind": self.kind, "center": self.center}
+
+    def build(self, grid: Grid, equation: Equation) -> np.ndarray:
+        """The profile on ``grid.x`` (:class:`ConfigError` for an equation without the wave)."""
+        from .exact import fifth_order_form
+
+        wave = fifth_order_form(equation)
+        center = self.center
+
+        def shape(y: np.ndarray) -> np.ndarray:
+            return wave.profile(y, 0.0, center)
+
+        # the tail 16 A e^{-4 k |x|} is below 1e-18 A beyond (ln 16 + 18 ln 10) / (4 k)
+        return _periodic(shape, grid.x, grid.length, 11.1 / wave.k + abs(center))
+
+
+@dataclass(frozen=True)
 class FileData:
     """A profile read from the ``.npy`` file ``path``, checked against ``sha256`` when given."""
 
@@ -270,8 +375,8 @@ class FileData:
         return arr
 
 
-#: The initial data of a run: one of the four descriptions.
-InitialData = Solitons | Profile | Box | FileData
+#: The initial data of a run: one of the six descriptions.
+InitialData = Solitons | Profile | Box | Breather | Sech4Wave | FileData
 
 
 def file_digest(path: str | Path) -> str:
@@ -346,9 +451,10 @@ def load_array(path: str | Path, n: int | None = None) -> np.ndarray:
 
 def build_profile(initial: InitialData, grid: Grid, equation: Equation) -> np.ndarray:
     """The initial profile ``u0`` on ``grid.x`` described by ``initial`` (see the module doc)."""
-    if not isinstance(initial, Solitons | Profile | Box | FileData):
+    if not isinstance(initial, Solitons | Profile | Box | Breather | Sech4Wave | FileData):
         raise ConfigError(
-            f"initial: expected Solitons, Profile, Box or FileData, got {type(initial).__name__}"
+            "initial: expected Solitons, Profile, Box or FileData, or an exact wave (Breather, "
+            f"Sech4Wave), got {type(initial).__name__}"
         )
     return initial.build(grid, equation)
 
@@ -365,9 +471,11 @@ __all__ = [
     "KINDS",
     "MAX_FILE_VALUES",
     "Box",
+    "Breather",
     "FileData",
     "InitialData",
     "Profile",
+    "Sech4Wave",
     "Solitons",
     "build_profile",
     "file_digest",

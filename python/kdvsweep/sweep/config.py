@@ -71,6 +71,8 @@ _INITIAL = {
     "sech2": ("kind", "height", "scale", "center"),
     "gaussian": ("kind", "height", "scale", "center"),
     "box": ("kind", "height", "half_width", "center", "edge"),
+    "breather": ("kind", "eta", "xi", "center", "phase"),
+    "fifth-order-wave": ("kind", "center"),
     "npy": ("kind", "file"),
 }
 _REF = re.compile(r"\{([A-Za-z_][A-Za-z0-9_]*)\}\Z")
@@ -457,6 +459,13 @@ def _read_template(src: Source, doc: dict[str, Any], base: Path, stem: str) -> _
         "run.end": end is None,
         "initial.position": initial.get("position") == "auto",
     }
+    if kind == "fifth-order-wave" and (points is None or length is None or end is None):
+        raise src.error(
+            "model.points" if points is None else "model.length" if length is None else "run.end",
+            "'auto'",
+            "a number: a fifth-order wave is sized by hand (automatic sizing follows the "
+            "solitons of the unperturbed equation, which this steady wave is not)",
+        )
     if autos["initial.position"] and not soliton_data:
         raise src.error(
             "initial.position",
@@ -581,6 +590,12 @@ def _read_initial(src: Source, tab: Table, kind: str, names: _Names, base: Path)
             sha256=init.file_digest(path),
             max_abs=float(np.max(np.abs(arr))),
         )
+        return out
+    if kind in ("breather", "fifth-order-wave"):  # exact waves: checked against the equation later
+        for key in _INITIAL[kind][1:]:
+            default = 0.0 if key in ("center", "phase") else None
+            value = tab.raw(key) if default is None else tab.raw(key, default)
+            out[key] = _num(src, tab.key(key), value, names)
         return out
     out["height"] = _num(src, tab.key("height"), tab.raw("height"), names)
     out["center"] = _num(src, tab.key("center"), tab.raw("center", 0.0), names)
@@ -1042,6 +1057,8 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
         if tpl.kind == "npy":
             initial = init.FileData(tpl.initial["path"], tpl.initial["sha256"])
             max_u = tpl.initial["max_abs"]
+        elif tpl.kind in ("breather", "fifth-order-wave"):
+            initial, max_u, narrowest = _exact_wave(tpl, ctx, eq)
         else:
             values = {}
             for key in ("height", "center", "scale", "half_width", "edge"):
@@ -1143,9 +1160,37 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
     return RunSpec(ctx.run_id, dict(ctx.params), model, initial, run)
 
 
+def _exact_wave(tpl: _Template, ctx: _Run, eq: Equation) -> tuple[init.InitialData, float, float]:
+    """The exact breather or ``sech^4`` wave of a run, refused (one line, naming why) for an
+    equation without it; with its ``max |u0|`` and the width a grid must resolve."""
+    spec = tpl.initial
+    center = ctx.num(spec["center"])
+    shown = f"{tpl.kind!r} for equation {eq.name!r} ({eq.describe()}) in {ctx.label}"
+    if tpl.kind == "breather":
+        try:
+            exact.breather_alpha(eq)
+        except ConfigError:
+            raise ctx.src.error(
+                "initial.kind",
+                shown,
+                "an unperturbed focusing mKdV equation (a = 0, b d > 0, f = g = v = 0): the "
+                "breather is exact only there",
+            ) from None
+        eta, xi = ctx.num(spec["eta"], "positive"), ctx.num(spec["xi"], "positive")
+        data = init.Breather(eta, xi, center, ctx.num(spec["phase"]))
+        return data, eq.soliton_form.breather_amplitude(eta), data.width
+    why = exact.fifth_order_obstacle(eq)
+    if why:
+        raise ctx.src.error("initial.kind", shown, f"an equation with the sech^4 wave: {why}")
+    wave = exact.fifth_order_form(eq)
+    return init.Sech4Wave(center), abs(wave.amplitude), wave.width
+
+
 def _provisional_length(initial: init.InitialData) -> float:
     """A length holding the whole profile (``length = 'auto'``): four times its reach from 0."""
-    assert isinstance(initial, init.Profile | init.Box)  # npy data need their length
+    assert isinstance(initial, init.Profile | init.Box | init.Breather)  # npy data: their length
+    if isinstance(initial, init.Breather):
+        return 4.0 * (abs(initial.center) + initial.reach)
     if isinstance(initial, init.Box):
         reach = initial.half_width + 20.0 * initial.edge
     else:  # sech^2 falls to 1e-18 within 21.4 scales, a Gaussian within 6.5
@@ -1158,6 +1203,8 @@ def _profile_width(initial: init.InitialData) -> float:
     ``sech2`` and ``gaussian`` data, the edge of a box (inf: a sharp box or a file has none)."""
     if isinstance(initial, init.Profile):
         return initial.scale
+    if isinstance(initial, init.Breather):
+        return initial.width
     if isinstance(initial, init.Box) and initial.edge > 0:
         return initial.edge
     return math.inf
