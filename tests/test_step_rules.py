@@ -189,3 +189,17 @@ def test_sweep_notes_a_sharp_box_once_and_checks_a_smooth_one(tmp_path: Path) ->
     rough = [w for w in sweep_warnings(tmp_path, box + "\nedge = 0.1", 256) if "initial" in w]
     assert rough
     assert "decades" in rough[0]
+
+
+def test_bench_steps_command(capsys: pytest.CaptureFixture[str]) -> None:
+    from kdvsweep import cli
+
+    args = ["bench", "--steps", "--n", "256", "--kappas", "1", "--schemes", "strang"]
+    assert cli.main([*args, "--equations", "kdv"]) == 0
+    out = capsys.readouterr().out
+    assert "strang  kdv" in out
+    assert "strang   1 cases: nl" in out
+    assert cli.main([*args, "--runs", "4"]) == 2
+    assert "--runs applies to the farm benchmark (--sweep) only" in capsys.readouterr().err
+    assert cli.main([*args, "--equations", "kdv-x"]) == 2
+    assert "unknown preset 'kdv-x'" in capsys.readouterr().err

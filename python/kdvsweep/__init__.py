@@ -23,7 +23,7 @@ from .exceptions import (
     TimeLimitError,
 )
 from .model import Equation, Grid
-from .simulation import SCHEMES, Simulation, invariants
+from .simulation import SCHEMES, SetupWarning, Simulation, invariants
 
 if TYPE_CHECKING:  # the names the lazy loader below gives, for type checkers
     from . import analysis, exact, initial, spectrum, sweep, theory
@@ -69,6 +69,7 @@ __all__ = [
     "NumericalError",
     "OutOfMemoryError",
     "Results",
+    "SetupWarning",
     "ShapeError",
     "Simulation",
     "StoreBusyError",

@@ -151,8 +151,8 @@ def resolution_warning(u: object, equation: Equation, grid: Grid) -> str | None:
     if not decades < WARN_DECADES:
         return None
     text = (
-        f"the data keeps {decades:.1f} decades of its spectrum at the dealiasing cutoff (fewer "
-        f"than {WARN_DECADES}: round-off level); refine the grid"
+        f"the data keeps {decades:.1f} decades of its spectrum at the dealiasing cutoff, fewer "
+        f"than {WARN_DECADES} (resolved data are at round-off there); refine the grid"
     )
     form = equation.soliton_form_or_none()
     top = float(np.max(np.abs(np.asarray(u, dtype=np.float64))))

@@ -1,4 +1,5 @@
-"""``kdvsweep bench``: the core against bare FFTs and NumPy; ``--sweep``: the farm's throughput."""
+"""``kdvsweep bench``: the core against bare FFTs and NumPy; ``--sweep``: the farm's throughput;
+``--steps``: each fixed-step scheme's largest stable step (the constants of the step rule)."""
 
 from __future__ import annotations
 
@@ -12,12 +13,15 @@ from .common import say
 
 if TYPE_CHECKING:
     from ..bench import Budget, Row
+    from ..steplimits import Limit
     from ..sweep.bench_sweep import SweepBenchmark
 
 #: Options of the core benchmark and of the farm benchmark (``--sweep``); one may not take the
 #: other's.
 CORE_ONLY = ("n", "schemes", "strict")
 SWEEP_ONLY = ("runs", "numpy_runs", "growth", "keep")
+#: Options of the step-limit measurement (``--steps``; it also takes --n and --schemes).
+STEPS_ONLY = ("equations", "kappas", "fifth")
 
 
 def _int_list(text: str) -> list[int]:
@@ -25,6 +29,13 @@ def _int_list(text: str) -> list[int]:
         return [int(part) for part in text.split(",") if part.strip()]
     except ValueError:
         raise argparse.ArgumentTypeError(f"expected integers like 256,512, got {text!r}") from None
+
+
+def _float_list(text: str) -> list[float]:
+    try:
+        return [float(part) for part in text.split(",") if part.strip()]
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected numbers like 0.5,1, got {text!r}") from None
 
 
 def _word_list(text: str) -> list[str]:
@@ -39,7 +50,8 @@ def register(sub: Any) -> None:
 
     p = sub.add_parser(
         "bench",
-        help="core against bare FFTs and NumPy; --sweep: the farm's runs per hour",
+        help="core against bare FFTs and NumPy; --sweep: the farm's runs per hour; "
+        "--steps: each scheme's largest stable step",
         description="Benchmark of the Rust steppers against their FFT floor and plain NumPy; "
         "with --sweep, the throughput of the sweep farm on a reference sweep of KdV pair "
         "collisions.",
@@ -48,7 +60,14 @@ def register(sub: Any) -> None:
         "--sweep", action="store_true", help="benchmark the farm instead of the steppers"
     )
     p.add_argument(
-        "--quick", action="store_true", help="fewer and shorter timings (rougher figures)"
+        "--steps",
+        action="store_true",
+        help="measure each fixed-step scheme's largest stable step instead (the step rule)",
+    )
+    p.add_argument(
+        "--quick",
+        action="store_true",
+        help="fewer and shorter timings (rougher figures); --steps: n = 256, 512 and kappa = 1",
     )
     core = p.add_argument_group("steppers (without --sweep)")
     core.add_argument(
@@ -92,16 +111,52 @@ def register(sub: Any) -> None:
         f"{','.join(map(str, QUICK_GROWTH))} with --quick)",
     )
     farm.add_argument("--keep", type=Path, metavar="DIR", help="keep the stores in this folder")
+    steps = p.add_argument_group("step limits (with --steps; --n and --schemes apply too)")
+    steps.add_argument(
+        "--equations",
+        type=_word_list,
+        default=None,
+        metavar="LIST",
+        help="equation presets with solitons, comma separated (default kdv,mkdv)",
+    )
+    steps.add_argument(
+        "--kappas",
+        type=_float_list,
+        default=None,
+        metavar="LIST",
+        help="soliton kappas, comma separated (default 0.5,1,2)",
+    )
+    steps.add_argument(
+        "--fifth",
+        type=_float_list,
+        default=None,
+        metavar="LIST",
+        help="fifth-order dispersion coefficients f, comma separated (default 0)",
+    )
     p.set_defaults(handler=_bench)
 
 
 def _bench(args: argparse.Namespace) -> int:
-    wrong = [name for name in (SWEEP_ONLY if not args.sweep else CORE_ONLY) if _given(args, name)]
+    if args.sweep and args.steps:
+        say("error: --sweep and --steps are different benchmarks; give one", "bench")
+        return 2
+    # each option's home, and the options each mode refuses (--steps takes --n and --schemes)
+    home = dict.fromkeys(CORE_ONLY, "the stepper benchmark")
+    home |= dict.fromkeys(SWEEP_ONLY, "the farm benchmark (--sweep)")
+    home |= dict.fromkeys(STEPS_ONLY, "the step limits (--steps)")
+    if args.sweep:
+        refused: tuple[str, ...] = (*CORE_ONLY, *STEPS_ONLY)
+    elif args.steps:
+        refused = (*SWEEP_ONLY, "strict")
+    else:
+        refused = (*SWEEP_ONLY, *STEPS_ONLY)
+    wrong = [name for name in refused if _given(args, name)]
     if wrong:
         option = "--" + wrong[0].replace("_", "-")
-        where = "the farm benchmark (--sweep)" if not args.sweep else "the stepper benchmark"
-        say(f"error: {option} applies to {where} only", "bench")
+        say(f"error: {option} applies to {home[wrong[0]]} only", "bench")
         return 2
+    if args.steps:
+        return _steps(args)
     return _sweep(args) if args.sweep else _steppers(args)
 
 
@@ -169,6 +224,87 @@ def format_rows(rows: Sequence[Row], budget: Budget) -> str:
     )
     if any(math.isnan(r.floor_us) for r in rows):
         lines.append("floor not measured: this build of kdvsweep._core has no fft_floor")
+    return "\n".join(lines)
+
+
+# --- the step limits -----------------------------------------------------------------------------
+
+
+def _steps(args: argparse.Namespace) -> int:
+    from ..exceptions import ConfigError
+    from ..steplimits import (
+        DEFAULT_EQUATIONS,
+        DEFAULT_F,
+        DEFAULT_KAPPAS,
+        DEFAULT_SCHEMES,
+        DEFAULT_SIZES,
+        cases,
+        measure_all,
+    )
+
+    sizes = args.n or ((256, 512) if args.quick else DEFAULT_SIZES)
+    kappas = args.kappas or ((1.0,) if args.quick else DEFAULT_KAPPAS)
+    try:
+        selected = cases(
+            args.schemes or DEFAULT_SCHEMES,
+            args.equations or DEFAULT_EQUATIONS,
+            sizes,
+            kappas,
+            args.fifth or DEFAULT_F,
+        )
+        limits = measure_all(
+            selected,
+            on_limit=lambda lim: say(
+                f"measured {lim.case.scheme} {lim.case.equation} n = {lim.case.n} "
+                f"kappa = {lim.case.kappa:g}",
+                "bench --steps",
+            ),
+        )
+    except ConfigError as err:
+        say(f"error: {err}", "bench --steps")
+        return 2
+    print(format_limits(limits))
+    return 0
+
+
+def format_limits(limits: Sequence[Limit]) -> str:
+    """The measured limits, their spread per scheme, and the rule in use, as text."""
+    from ..simulation import STEP_RULE, STEP_SAFETY
+    from ..steplimits import ERROR_LIMIT, GROWTH, TRANSITS, WIDTHS, spread
+
+    lines = [
+        f"one soliton on {WIDTHS:g} widths of the kappa = 1 soliton, {TRANSITS:g} crossings of "
+        f"the box; unstable: blow-up, error growing > {GROWTH:g}x from half time, or > "
+        f"{ERROR_LIMIT:g}",
+        "nl = dt * nonlinear_rate, mixed = dt * sqrt(nonlinear_rate * linear_rate) at the "
+        "largest stable step",
+        "",
+        f"{'scheme':<8}{'equation':<9}{'f':>7}{'n':>6}{'kappa':>7}{'pts/w':>7}"
+        f"{'dt':>11}{'nl':>8}{'mixed':>9}{'error':>9}  unstable by",
+    ]
+    for lim in limits:
+        c = lim.case
+        lines.append(
+            f"{c.scheme:<8}{c.equation:<9}{c.f:>7g}{c.n:>6}{c.kappa:>7g}"
+            f"{c.points_per_width:>7.1f}{lim.dt_stable:>11.3g}{lim.nonlinear:>8.3f}"
+            f"{lim.mixed:>9.3f}{lim.error:>9.1e}  {lim.verdict}"
+        )
+    lines += ["", "spread per scheme (smallest .. largest):"]
+    for sp in spread(limits):
+        rule = STEP_RULE.get(sp.scheme)
+        used = (
+            f"; rule in use: nl <= {rule.nonlinear:.3g}"
+            + (f", mixed <= {rule.mixed:.3g}" if rule.mixed != math.inf else "")
+            if rule
+            else ""
+        )
+        lines.append(
+            f"  {sp.scheme:<8} {sp.cases} cases: nl {sp.nonlinear[0]:.3g} .. {sp.nonlinear[1]:.3g}"
+            f", mixed {sp.mixed[0]:.3g} .. {sp.mixed[1]:.3g}{used}"
+        )
+    lines.append(
+        f"the rule (kdvsweep.simulation.STEP_RULE) is {STEP_SAFETY:g} x the smallest limit measured"
+    )
     return "\n".join(lines)
 
 
@@ -259,4 +395,4 @@ def format_sweep(b: SweepBenchmark) -> str:
     return "\n".join(lines)
 
 
-__all__ = ["format_rows", "format_sweep", "register"]
+__all__ = ["format_limits", "format_rows", "format_sweep", "register"]
