@@ -247,3 +247,10 @@ def test_fifth_order_run_carries_the_wave(tmp_path: Path) -> None:
     assert float(np.max(np.abs(result.frames[-1] - u))) < 1e-8
     assert row["momentum_residual"] < 1e-10
     assert "\n" not in str(row.get("content_status", ""))
+
+
+@pytest.mark.parametrize("name", ["breather", "fifth-order-wave"])
+def test_example_sweeps_load_without_warnings(name: str) -> None:
+    sweep = load_sweep(Path(__file__).parent.parent / "sweeps" / f"{name}.toml")
+    assert sweep.warnings == ()
+    assert {s.initial.kind for s in sweep.runs} == {name}

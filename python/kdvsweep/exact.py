@@ -9,7 +9,7 @@ are reached by the exact scaling ``u = alpha w(x, d t)``.
 
 The breather (:func:`breather`, :func:`breather_profile`) and the ``sech^4`` wave
 (:func:`fifth_order_wave`, :class:`FifthOrderWave`) are closed forms evaluated in NumPy; the
-README section "Initial data kinds" says how a sweep starts from them.
+README section "Exact waves" says how a sweep starts from them.
 """
 
 from __future__ import annotations
