@@ -441,7 +441,9 @@ def _changes(
         ref = refs[i]
         d = ring_difference(tracks.x[:, i], ref.x, tracks.length)
         ratio = h / np.abs(ref.height) - 1.0
-        unwrapped = np.unwrap(ref.x, period=tracks.length)
+        unwrapped = np.full(ref.x.shape, np.nan)
+        seen = np.isfinite(ref.x)
+        unwrapped[seen] = np.unwrap(ref.x[seen], period=tracks.length)
         windows = []
         for mask in (before, after):
             use = mask & np.isfinite(d)

@@ -635,6 +635,7 @@ class Store:
         self._done: set[int] = set(check.kept)
         self._failed: set[int] = set(check.failed)
         self._references, notes = _reference_index(out / REFERENCES, set_aside=True)
+        self._reference_part: tuple[Path, dict[str, ReferenceTrack]] | None = None
         self.ignored += notes
         parts = part_files(out / REFERENCES)
         self._next_reference = (max(parts) + 1) if parts else 0
@@ -844,7 +845,12 @@ class Store:
         path = self._references.get(digest)
         if path is None:
             return None
-        found = _read_references(path, {digest}).get(digest)
+        if self._reference_part is None or self._reference_part[0] != path:
+            try:  # one part at a time in memory: a sweep asks for its references in order
+                self._reference_part = (path, _read_references(path))
+            except (_Broken, FileNotFoundError):
+                self._reference_part = (path, {})
+        found = self._reference_part[1].get(digest)
         if found is None:
             del self._references[digest]
         return found
