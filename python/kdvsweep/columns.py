@@ -27,6 +27,7 @@ from dataclasses import dataclass
 
 import pyarrow as pa
 
+from . import units as physunits
 from .model import COEFFICIENT_MEANINGS
 
 
@@ -308,6 +309,27 @@ CONTENT_SOLITON_COLUMNS: tuple[Column, ...] = (
 #: ``kappa_ist`` (one of :data:`CONTENT_SOLITON_COLUMNS`).
 KAPPA_IST = CONTENT_SOLITON_COLUMNS[7]
 
+#: Physical columns of the runs table (sweeps with ``[units]``; :mod:`kdvsweep.units`), in the
+#: system's units (the unit is each field's Parquet metadata ``unit``): converted model columns
+#: and the scales, then the parameters of the sweep's system (:data:`PHYS_PARAMETER_COLUMNS`).
+PHYS_RUN_COLUMNS: tuple[Column, ...] = tuple(
+    Column(name, _F, f"[units] {meaning}") for name, _, _, meaning in physunits.RUN_QUANTITIES
+)
+#: The parameters of every system as columns (only those of the sweep's system are in a store).
+PHYS_PARAMETER_COLUMNS: tuple[Column, ...] = tuple(
+    Column(name, _F, f"[units] {systems}: {meaning}")
+    for name, systems, meaning in physunits.parameter_columns()
+)
+#: Physical columns of the solitons table (sweeps with ``[units]``).
+PHYS_SOLITON_COLUMNS: tuple[Column, ...] = tuple(
+    Column(name, _F, f"[units] {meaning}") for name, _, _, meaning in physunits.SOLITON_QUANTITIES
+)
+#: Physical columns of the content's solitons (``[units]`` and the content).
+PHYS_CONTENT_SOLITON_COLUMNS: tuple[Column, ...] = tuple(
+    Column(name, _F, f"[units] {meaning}")
+    for name, _, _, meaning in physunits.CONTENT_SOLITON_QUANTITIES
+)
+
 
 @dataclass(frozen=True)
 class Layout:
@@ -322,11 +344,15 @@ class Layout:
     content
         The soliton content's columns: the initial data are not solitons, or
         ``run.predict_content`` is on.
+    units
+        The ``[units]`` system's name (:data:`kdvsweep.units.SYSTEMS`): the physical columns, with
+        their units in the Parquet field metadata; ``None`` without ``[units]``.
     """
 
     parameters: Mapping[str, str]
     analysis: bool
     content: bool
+    units: str | None = None
 
     def runs(self) -> tuple[Column, ...]:
         """The columns of the runs table, in order."""
@@ -340,33 +366,56 @@ class Layout:
             out += ANALYSIS_COLUMNS
         if self.content:
             out += CONTENT_COLUMNS
+        if self.units is not None:
+            own = {f"phys_{p.key}" for p in physunits.system_class(self.units).PARAMETERS}
+            out += PHYS_RUN_COLUMNS
+            out += [c for c in PHYS_PARAMETER_COLUMNS if c.name in own]
         return tuple(out)
 
     def solitons(self) -> tuple[Column, ...]:
         """The columns of the solitons table, in order."""
-        return (*SOLITON_COLUMNS, *CONTENT_SOLITON_COLUMNS) if self.content else SOLITON_COLUMNS
+        out = (*SOLITON_COLUMNS, *CONTENT_SOLITON_COLUMNS) if self.content else SOLITON_COLUMNS
+        if self.units is not None:
+            out += PHYS_SOLITON_COLUMNS
+            if self.content:
+                out += PHYS_CONTENT_SOLITON_COLUMNS
+        return out
 
     def schema(self, table: str) -> pa.Schema:
-        """The Arrow schema of ``"runs"`` or ``"solitons"``."""
+        """The Arrow schema of ``"runs"`` or ``"solitons"``; a physical column's field carries
+        its ``unit`` (and, for water-wave systems, the hazard ``caution``) as metadata."""
         cols = self.runs() if table == "runs" else self.solitons()
-        return pa.schema([pa.field(c.name, c.type) for c in cols])
+        return pa.schema([pa.field(c.name, c.type, metadata=self._unit(c.name)) for c in cols])
+
+    def _unit(self, name: str) -> dict[str, str] | None:
+        if self.units is None or not name.startswith("phys_"):
+            return None
+        meta = {"unit": physunits.column_unit(self.units, name)}
+        if physunits.system_class(self.units).WATER:
+            meta["caution"] = physunits.CAUTION
+        return meta
 
     def to_json(self) -> dict[str, object]:
-        """The layout as JSON data (kept in the store's manifest)."""
-        return {
+        """The layout as JSON data (kept in the store's manifest; ``units`` only when set)."""
+        out: dict[str, object] = {
             "parameters": dict(self.parameters),
             "analysis": self.analysis,
             "content": self.content,
         }
+        if self.units is not None:
+            out["units"] = self.units
+        return out
 
     @classmethod
     def from_json(cls, data: Mapping[str, object]) -> Layout:
         """The inverse of :meth:`to_json`."""
         params = data.get("parameters", {})
+        units = data.get("units")
         return cls(
             parameters=dict(params) if isinstance(params, Mapping) else {},
             analysis=bool(data.get("analysis", False)),
             content=bool(data.get("content", False)),
+            units=units if isinstance(units, str) and units in physunits.SYSTEMS else None,
         )
 
 
@@ -377,9 +426,19 @@ def has_content(predict_content: bool, soliton_data: bool) -> bool:
 
 
 def all_columns() -> tuple[Column, ...]:
-    """Every declared column of either table (each name once), for documentation."""
+    """Every declared column of the runs table (each name once), and the physical columns of
+    either table, for documentation."""
     seen: dict[str, Column] = {}
-    for col in (RUN_ID, *RUN_COLUMNS, *ANALYSIS_COLUMNS, *CONTENT_COLUMNS):
+    for col in (
+        RUN_ID,
+        *RUN_COLUMNS,
+        *ANALYSIS_COLUMNS,
+        *CONTENT_COLUMNS,
+        *PHYS_RUN_COLUMNS,
+        *PHYS_PARAMETER_COLUMNS,
+        *PHYS_SOLITON_COLUMNS,
+        *PHYS_CONTENT_SOLITON_COLUMNS,
+    ):
         seen.setdefault(col.name, col)
     return tuple(seen.values())
 
@@ -401,6 +460,10 @@ __all__ = [
     "KAPPA_IST",
     "MODEL_COLUMNS",
     "PARAMETER_TYPES",
+    "PHYS_CONTENT_SOLITON_COLUMNS",
+    "PHYS_PARAMETER_COLUMNS",
+    "PHYS_RUN_COLUMNS",
+    "PHYS_SOLITON_COLUMNS",
     "RUN_COLUMNS",
     "RUN_ID",
     "SOLITON_COLUMNS",

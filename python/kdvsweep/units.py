@@ -537,10 +537,10 @@ def from_plain(data: Mapping[str, Any]) -> System:
 #: The physical columns of the runs table and what each converts: ``(name, source, dimension,
 #: meaning)``; ``source`` is the canonical column, or ``""`` for a value of the system itself.
 RUN_QUANTITIES: tuple[tuple[str, str, str, str], ...] = (
-    ("phys_length", "length", "length", "period of the box"),
-    ("phys_dt", "dt", "time", "time step"),
-    ("phys_t_end", "t_end", "time", "end time of the run"),
-    ("phys_max_abs_u", "max_abs_u", "height", "max |u| of the final state"),
+    ("phys_length", "length", "length", "period of the box, X length"),
+    ("phys_dt", "dt", "time", "time step, T dt"),
+    ("phys_t_end", "t_end", "time", "end time of the run, T t_end"),
+    ("phys_max_abs_u", "max_abs_u", "height", "largest height of the final state, U max_abs_u"),
     ("phys_c0", "", "speed", "linear long-wave speed c0: the run's frame moves at it"),
     ("phys_height_scale", "", "height", "U: a canonical height u is U u"),
     ("phys_length_scale", "", "length", "X: a canonical length x is X x (x - c0 t in the lab)"),
@@ -549,19 +549,29 @@ RUN_QUANTITIES: tuple[tuple[str, str, str, str], ...] = (
 
 #: The physical columns of the solitons table (collision analysis and content alike).
 SOLITON_QUANTITIES: tuple[tuple[str, str, str, str], ...] = (
-    ("phys_amplitude", "amplitude", "height", "peak height |eta| (amplitude)"),
-    ("phys_speed", "speed", "speed", "laboratory speed c0 + speed X / T"),
-    ("phys_kappa", "kappa", "wavenumber", "kappa / X"),
-    ("phys_x0", "x0", "length", "centre at t = 0 (x0)"),
-    ("phys_shift_predicted", "shift_predicted", "length", "predicted phase shift"),
-    ("phys_shift_measured", "shift_measured", "length", "measured phase shift"),
-    ("phys_shift_uncertainty", "shift_uncertainty", "length", "error estimate of the shift"),
+    ("phys_amplitude", "amplitude", "height", "peak height, U amplitude"),
+    ("phys_speed", "speed", "speed", "laboratory speed, c0 + speed X / T"),
+    ("phys_kappa", "kappa", "wavenumber", "kappa per unit length, kappa / X"),
+    ("phys_x0", "x0", "length", "centre at t = 0, X x0"),
+    (
+        "phys_shift_predicted",
+        "shift_predicted",
+        "length",
+        "predicted phase shift, X shift_predicted",
+    ),
+    ("phys_shift_measured", "shift_measured", "length", "measured phase shift, X shift_measured"),
+    (
+        "phys_shift_uncertainty",
+        "shift_uncertainty",
+        "length",
+        "error estimate of the shift, X shift_uncertainty",
+    ),
 )
 
 #: Physical columns of the content's solitons (with the content columns only).
 CONTENT_SOLITON_QUANTITIES: tuple[tuple[str, str, str, str], ...] = (
-    ("phys_amplitude_ist", "amplitude_ist", "height", "predicted amplitude (amplitude_ist)"),
-    ("phys_speed_ist", "speed_ist", "speed", "predicted laboratory speed (speed_ist)"),
+    ("phys_amplitude_ist", "amplitude_ist", "height", "predicted peak height, U amplitude_ist"),
+    ("phys_speed_ist", "speed_ist", "speed", "predicted laboratory speed, c0 + speed_ist X / T"),
 )
 
 

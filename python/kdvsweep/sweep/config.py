@@ -27,6 +27,7 @@ import numpy as np
 
 from .. import exact, reference
 from .. import initial as init
+from .. import units as physunits
 from ..columns import Layout, has_content
 from ..exceptions import ConfigError, ShapeError
 from ..model import COEFFICIENTS, Equation, Grid, SolitonForm
@@ -44,7 +45,7 @@ PROVISIONAL_POINTS = 2048
 DEFAULT_TAIL = 1e-8
 PRESETS = ("kdv", "kdv-", "mkdv", "mkdv-", "gardner")
 
-_TOP = ("sweep", "model", "initial", "run", "vary", "derive", "sizing")
+_TOP = ("sweep", "model", "initial", "run", "vary", "derive", "sizing", "units")
 _SWEEP = ("name", "note")
 _MODEL = ("equation", "points", "length", "scheme", "dt", "tol")
 _EQUATION = ("preset", *COEFFICIENTS, "dealias")
@@ -205,16 +206,22 @@ class RunSpec:
     model: ModelSpec
     initial: init.InitialData
     run: RunSettings
+    #: The physical system of a sweep with ``[units]`` (:mod:`kdvsweep.units`), else ``None``.
+    units: physunits.System | None = None
 
     def plain(self) -> dict[str, Any]:
-        """As plain JSON data (the form the sweep digest is computed from)."""
-        return {
+        """As plain JSON data (the form the sweep digest is computed from; ``units`` only when
+        set, so sweeps without it keep their digests)."""
+        out = {
             "run_id": self.run_id,
             "params": dict(self.params),
             "model": self.model.plain(),
             "initial": self.initial.plain(),
             "run": self.run.plain(),
         }
+        if self.units is not None:
+            out["units"] = self.units.plain()
+        return out
 
 
 @dataclass(frozen=True)
@@ -341,7 +348,7 @@ class _Template:
     kinds: dict[str, str]
     axes: list[Axis]
     derived: list[tuple[str, _Num]]
-    equation: _Text | dict[str, _Num | _Text | None]
+    equation: _Text | dict[str, _Num | _Text | None] | None
     points: _Num | None
     length: _Num | None
     scheme: _Text
@@ -363,6 +370,8 @@ class _Template:
     min_amplitude: float | None = None
     max_end: float = DEFAULT_MAX_END
     radiation: float = DEFAULT_RADIATION
+    #: ``[units]``: the system's name and its keys (see :func:`_read_units`), or ``None``.
+    units: tuple[str, dict[str, _Num]] | None = None
     #: Predicted content of each distinct profile (sizing), by the profile's plain form.
     content_cache: dict[str, Any] = field(default_factory=dict)
 
@@ -404,8 +413,9 @@ def _read_template(src: Source, doc: dict[str, Any], base: Path, stem: str) -> _
         numbers = numbers | {dname}
     names = _Names(numbers, texts)
 
+    units = _read_units(src, top, names)
     model = Table(src, top.raw("model"), "model", _MODEL)
-    equation = _read_equation(src, model, names)
+    equation = None if units and not model.has("equation") else _read_equation(src, model, names)
     points = _num_or_auto(src, model.key("points"), model.raw("points"), names)
     length = _num_or_auto(src, model.key("length"), model.raw("length"), names)
     scheme = _text(src, model.key("scheme"), model.raw("scheme", DEFAULT_SCHEME), SCHEMES, names)
@@ -423,6 +433,12 @@ def _read_template(src: Source, doc: dict[str, Any], base: Path, stem: str) -> _
     itab = Table(src, top.raw("initial"), "initial", every_key)
     kind = itab.text("kind", tuple(_INITIAL))
     itab = Table(src, itab.data, "initial", _INITIAL[kind])
+    if units and kind not in _UNITS_KINDS:
+        raise itab.fail(
+            "kind",
+            kind,
+            f"one of {', '.join(_UNITS_KINDS)} with [units] (initial data in physical units)",
+        )
     initial = _read_initial(src, itab, kind, names, base)
 
     run = Table(src, top.raw("run"), "run", _RUN)
@@ -520,6 +536,7 @@ def _read_template(src: Source, doc: dict[str, Any], base: Path, stem: str) -> _
         min_amplitude=None if min_amplitude is None else float(min_amplitude),
         max_end=float(max_end),
         radiation=float(radiation),
+        units=units,
     )
 
 
@@ -528,6 +545,87 @@ def _kind(values: tuple[Value, ...]) -> str:
     if isinstance(values[0], str):
         return "text"
     return "int" if all(isinstance(v, int) for v in values) else "float"
+
+
+#: Initial data whose sizes convert under ``[units]`` (heights, lengths in physical units).
+_UNITS_KINDS = ("solitons", "multisoliton", "sech2", "gaussian", "box")
+
+
+def _read_units(src: Source, top: Table, names: _Names) -> tuple[str, dict[str, _Num]] | None:
+    """``[units]``: ``system`` (a name of :data:`kdvsweep.units.SYSTEMS`) and that system's keys,
+    numbers or expressions of the parameters (a swept depth, a depth ratio); ``None`` without it."""
+    if not top.has("units"):
+        return None
+    raw = top.raw("units")
+    head = Table(src, raw, "units", [*raw] if isinstance(raw, dict) else ())
+    name = head.text("system", tuple(physunits.SYSTEMS))
+    cls = physunits.SYSTEMS[name]
+    tab = Table(src, raw, "units", ("system", *(p.key for p in cls.PARAMETERS)))
+    values = {}
+    for p in cls.PARAMETERS:
+        if tab.has(p.key) or p.default is None:
+            values[p.key] = _num(src, tab.key(p.key), tab.raw(p.key), names)
+    return name, values
+
+
+def _system(tpl: _Template, ctx: _Run) -> physunits.System | None:
+    """The physical system of one run (``[units]``), its keys evaluated; ``None`` without it."""
+    if tpl.units is None:
+        return None
+    name, slots = tpl.units
+    values = {key: ctx.num(slot) for key, slot in slots.items()}
+    try:
+        return physunits.make_system(name, values)
+    except physunits.ParameterError as err:
+        slot = slots.get(err.key)
+        shown = err.given if slot is None else slot.given
+        raise ctx.fail(f"units.{err.key}", shown, err.expected) from None
+    except ConfigError as err:  # a system whose coefficients are not finite numbers
+        raise ctx.src.error(
+            "units", f"{values} in {ctx.label}", f"a valid system ({err})"
+        ) from None
+
+
+def _units_equation(tpl: _Template, ctx: _Run, system: physunits.System) -> Equation:
+    """The canonical equation of a run with ``[units]``: the system's ``a, b, d``; a given
+    ``model.equation`` may add ``f, g, v, dealias`` (canonical units) and may repeat ``a, b, d``
+    or name a preset only where they agree with the system's."""
+    target = system.equation()
+    spec = tpl.equation
+    extra: dict[str, float] = {}
+    given: dict[str, tuple[str, object, float]] = {}  # coefficient -> (key, as written, value)
+    if isinstance(spec, _Text):
+        preset = Equation.preset(ctx.text(spec, PRESETS))
+        given = {k: (spec.key, spec.given, getattr(preset, k)) for k in ("a", "b", "d")}
+    elif spec is not None:
+        slot = spec["preset"]
+        if isinstance(slot, _Text):
+            preset = Equation.preset(ctx.text(slot, PRESETS))
+            given = {k: (slot.key, slot.given, getattr(preset, k)) for k in ("a", "b", "d")}
+        for key, value in spec.items():
+            if not isinstance(value, _Num):
+                continue
+            if key in ("a", "b", "d"):
+                given[key] = (value.key, value.given, ctx.num(value))
+            else:
+                extra[key] = ctx.num(value)
+    for coef, (key, shown, number) in given.items():
+        want = getattr(target, coef)
+        if not math.isclose(number, want, rel_tol=1e-9, abs_tol=1e-300):
+            raise ctx.fail(
+                key,
+                shown,
+                f"{coef} = {want:.12g}, the value the [units] system {system.NAME!r} gives "
+                f"(leave {coef} out: with [units] the equation's a, b, d come from the system)",
+            )
+    if not extra:
+        return target
+    try:
+        return system.equation(**extra)
+    except ConfigError as err:
+        raise ctx.src.error(
+            "model.equation", f"{extra} in {ctx.label}", f"a valid equation ({err})"
+        ) from None
 
 
 def _read_equation(
@@ -719,8 +817,11 @@ class _Warnings:
         return tuple(out)
 
 
-def _equation(tpl: _Template, ctx: _Run) -> Equation:
+def _equation(tpl: _Template, ctx: _Run, system: physunits.System | None = None) -> Equation:
+    if system is not None:
+        return _units_equation(tpl, ctx, system)
     spec = tpl.equation
+    assert spec is not None  # only a sweep with [units] may leave the equation out
     coefs: dict[str, float] = {}
     if isinstance(spec, _Text):
         preset: str | None = ctx.text(spec, PRESETS)
@@ -832,6 +933,30 @@ def _check_scales(
         )
 
 
+def _check_units(
+    ctx: _Run,
+    warn: _Warnings,
+    system: physunits.System,
+    scales: physunits.Scales,
+    max_u: float,
+    width: float,
+) -> None:
+    """Warn when a run leaves the regime its physical model assumes: each ratio of
+    :meth:`kdvsweep.units.System.checks` (largest height, narrowest width) above its limit."""
+    height = physunits.to_physical(max_u, "height", scales)
+    length = physunits.to_physical(width, "length", scales)
+    for check in system.checks(height, length):
+        if check.exceeded:
+            warn.add(
+                f"units ({check.ratio})",
+                f"leave the range the {system.NAME} model assumes: {check.meaning}, "
+                f"{check.ratio} above {check.limit:g}",
+                ctx.run_id,
+                check.value,
+                f"{check.ratio} = {check.value:.3g}",
+            )
+
+
 def _record_times(end: float, every: float) -> list[float]:
     """``0, every, 2 every, ...`` up to ``end``, ending exactly at ``end``."""
     count = math.floor(end / every + 1e-9)
@@ -844,9 +969,10 @@ def _record_times(end: float, every: float) -> list[float]:
 
 
 def _solitons(
-    tpl: _Template, ctx: _Run, eq: Equation
+    tpl: _Template, ctx: _Run, eq: Equation, units: physunits.Scales | None = None
 ) -> tuple[SolitonForm, list[float], list[int]]:
-    """Soliton form, kappas and signs of a soliton initial datum."""
+    """Soliton form, kappas and signs of a soliton initial datum (``units``: ``[units]``, whose
+    amplitudes and laboratory speeds are converted here)."""
     spec = tpl.initial
     size = spec["size"]
     form = eq.soliton_form_or_none()
@@ -872,6 +998,16 @@ def _solitons(
     kappas = []
     for slot, sign in zip(spec["sizes"], signs, strict=True):
         value = ctx.num(slot, "positive")
+        if units is not None:  # amplitude: height; speed: laboratory; kappa: per metre
+            dim = {"amplitude": "height", "speed": "speed", "kappa": "wavenumber"}[size]
+            value = physunits.to_canonical(value, dim, units)
+            if not value > 0:  # a laboratory speed at or below the linear long-wave speed
+                raise ctx.fail(
+                    slot.key,
+                    slot.given,
+                    f"a laboratory speed above the linear long-wave speed c0 = {units.c0:.6g} "
+                    "(solitary waves are faster than linear waves)",
+                )
         try:
             if size == "amplitude":
                 value = form.kappa_from_amplitude(value, sign)
@@ -927,7 +1063,9 @@ def _solitons(
 def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
     for dname, slot in tpl.derived:
         ctx.env[dname] = ctx.num(slot)
-    eq = _equation(tpl, ctx)
+    system = _system(tpl, ctx)
+    scales = None if system is None else system.scales()
+    eq = _equation(tpl, ctx, system)
     scheme = ctx.text(tpl.scheme, SCHEMES)
     if scheme != ADAPTIVE:
         if tpl.dt is None:  # a sweep file names the step of a fixed-step scheme
@@ -953,7 +1091,7 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
     narrowest = math.inf
     max_u = 0.0
     if soliton:
-        form, kappas, signs = _solitons(tpl, ctx, eq)
+        form, kappas, signs = _solitons(tpl, ctx, eq, scales)
         speeds = [form.speed(k) for k in kappas]
         narrowest = min(form.width(k, s) for k, s in zip(kappas, signs, strict=True))
         amplitudes = [form.amplitude(k, s) for k, s in zip(kappas, signs, strict=True)]
@@ -979,6 +1117,8 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
             x0 = [canonical(p) for p in sizing.auto_positions(kappas, form, tpl.tail)]
         else:
             x0 = [ctx.num(slot) for slot in tpl.initial["position"]]
+            if scales is not None:  # metres (at t = 0 the run's frame and the lab's agree)
+                x0 = [canonical(physunits.to_canonical(p, "length", scales)) for p in x0]
             for i in range(1, len(x0)):
                 if not x0[i] > x0[i - 1]:
                     slot = tpl.initial["position"][i]
@@ -1065,6 +1205,9 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
                 if key in tpl.initial:
                     check = "positive" if key in ("scale", "half_width") else "finite"
                     values[key] = ctx.num(tpl.initial[key], check)
+                    if scales is not None:  # [units]: a height, or a length in metres
+                        dim = "height" if key == "height" else "length"
+                        values[key] = canonical(physunits.to_canonical(values[key], dim, scales))
             if values.get("edge", 0.0) < 0:
                 raise ctx.fail("initial.edge", values["edge"], "a number >= 0 (0 is a sharp edge)")
             if tpl.kind == "box":
@@ -1143,6 +1286,9 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
                 dt / limit,
                 f"{scheme}: dt = {dt:g}; use dt <= {limit:.3g}",
             )
+    if system is not None and scales is not None:
+        width = narrowest if soliton else min(narrowest, _profile_width(initial))
+        _check_units(ctx, warn, system, scales, max_u, width)
     times = _record_times(t_end, tpl.frame_every)
     model = ModelSpec(eq, grid, scheme, dt, tol)
     run = RunSettings(
@@ -1157,7 +1303,7 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
         drift_limit=tpl.drift_limit,
         max_amplitude=tpl.max_amplitude,
     )
-    return RunSpec(ctx.run_id, dict(ctx.params), model, initial, run)
+    return RunSpec(ctx.run_id, dict(ctx.params), model, initial, run, system)
 
 
 def _exact_wave(tpl: _Template, ctx: _Run, eq: Equation) -> tuple[init.InitialData, float, float]:
@@ -1489,6 +1635,7 @@ def load_sweep(path: str | Path) -> Sweep:
             parameters=tpl.kinds,
             analysis=tpl.kind in ("solitons", "multisoliton"),
             content=has_content(tpl.predict_content, tpl.kind in ("solitons", "multisoliton")),
+            units=None if tpl.units is None else tpl.units[0],
         ),
     )
 

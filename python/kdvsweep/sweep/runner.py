@@ -18,6 +18,7 @@ from typing import Any
 import numpy as np
 
 from .. import analysis, initial, theory
+from .. import units as physunits
 from ..analysis.tracks import ReferenceTrack
 from ..columns import FAILURE_KINDS, TIMING_COLUMNS, has_content
 from ..exceptions import ConfigError, NumericalError, TimeLimitError
@@ -694,12 +695,26 @@ def execute(
             row["steps"] = int(getattr(sim, "steps", 0))
         row["wall_time"] = time.perf_counter() - start
         row["cpu_time"] = time.thread_time() - cpu
-        return RunResult(row, [], None, None)
+        return _physical(spec, RunResult(row, [], None, None))
     # CPU time of this thread (the Rust stepping runs in it too): unlike the wall time it does not
     # grow when other processes compete for the cores.
     row["wall_time"] = time.perf_counter() - start
     row["cpu_time"] = time.thread_time() - cpu
-    return RunResult(row, solitons, kept, kept_times)
+    return _physical(spec, RunResult(row, solitons, kept, kept_times))
+
+
+def _physical(spec: RunSpec, result: RunResult) -> RunResult:
+    """The ``phys_*`` columns of a run with ``[units]`` (:mod:`kdvsweep.units`), beside the
+    canonical ones: the system's parameters and scales, and every converted canonical value."""
+    if spec.units is None:
+        return result
+    scales = spec.units.scales()
+    result.run_row.update(physunits.run_columns(spec.units))
+    result.run_row.update(physunits.convert_row(result.run_row, physunits.RUN_QUANTITIES, scales))
+    quantities = (*physunits.SOLITON_QUANTITIES, *physunits.CONTENT_SOLITON_QUANTITIES)
+    for row in result.soliton_rows:
+        row.update(physunits.convert_row(row, quantities, scales))
+    return result
 
 
 def execute_chunk(
