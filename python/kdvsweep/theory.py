@@ -51,12 +51,16 @@ checked); Hirota 1971 (Phys. Rev. Lett. 27, 1192) and 1972 (J. Phys. Soc. Jpn 33
 tau functions; Zakharov & Shabat 1972 (Sov. Phys. JETP 34, 62) for the mKdV/ZS shift. Pairwise
 additivity: Zakharov 1971. Interaction regimes: Lax 1968 (Comm. Pure Appl. Math. 21, 467).
 Bibliographic details (volumes, pages) are from memory.
+
+Adiabatic (slowly varying) solitons under damping ``-g u`` and viscosity ``v u_xx`` on the right of
+the equation: see :func:`adiabatic_kappa`.
 """
 
 from __future__ import annotations
 
 import math
 from collections.abc import Sequence
+from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -77,7 +81,8 @@ def _form(equation: str | Equation) -> SolitonForm:
     form = eq.soliton_form_or_none()
     if form is None:
         raise ConfigError(
-            "theory: soliton formulas cover KdV (a != 0, b = 0) and focusing mKdV (b d > 0); "
+            "theory: soliton formulas cover KdV (a != 0, b = 0), focusing mKdV (b d > 0) and "
+            "Gardner (a != 0, b != 0), with d != 0; "
             f"got {eq.describe()}"
         )
     return form
@@ -93,7 +98,8 @@ def _as_kappas(kappas: object, name: str = "kappas") -> np.ndarray:
 
 
 def family(equation: str | Equation) -> str:
-    """``"kdv"`` or ``"mkdv"``: which soliton formulas apply to ``equation`` (else ConfigError)."""
+    """``"kdv"``, ``"mkdv"`` or ``"gardner"``: which soliton formulas apply to ``equation`` (else
+    ConfigError)."""
     return _form(equation).family
 
 
@@ -249,9 +255,15 @@ def symmetric_phases(kappa1: float, kappa2: float) -> np.ndarray:
 
 
 __all__ = [
+    "ADIABATIC_SOURCE",
     "LAX_EXCHANGE_LIMIT",
     "LAX_SINGLE_PEAK_LIMIT",
     "REGIMES",
+    "adiabatic_amplitude",
+    "adiabatic_kappa",
+    "adiabatic_rate",
+    "adiabatic_reason",
+    "adiabatic_speed",
     "amplitude_ratio",
     "amplitudes",
     "family",
@@ -267,3 +279,216 @@ __all__ = [
     "symmetric_phases",
     "tail_lengths",
 ]
+
+
+# --- Adiabatic solitons under damping and viscosity -------------------------------------------
+
+#: Published sources of the adiabatic laws, for notes and figure captions.
+ADIABATIC_SOURCE = "Ott & Sudan 1970; Karpman & Maslov 1977"
+
+
+def adiabatic_reason(equation: str | Equation) -> str:
+    """Why :func:`adiabatic_kappa` has no prediction for ``equation`` (empty when it has one).
+
+    The prediction needs the soliton's shape: an equation with a :class:`~kdvsweep.model.
+    SolitonForm` (KdV, focusing mKdV, Gardner) and no fifth-order term (``f = 0``). With ``f != 0``
+    the shape is not the family's and its slowly varying state is not one kappa: no prediction here.
+    """
+    eq = Equation.coerce(equation, "theory")
+    if eq.soliton_form_or_none() is None:
+        return f"no adiabatic prediction: {eq.describe()} has no soliton form here"
+    if eq.f != 0:
+        return (
+            "no adiabatic prediction: fifth-order dispersion (f != 0) changes the soliton's shape"
+        )
+    return ""
+
+
+def _power_law(form: SolitonForm) -> tuple[float, float]:
+    """``(p, beta)`` with ``P(kappa) = P(1) kappa^p`` and ``S(kappa) = beta kappa^2 P(kappa)``
+    (KdV ``3, 4/5``; mKdV ``1, 4/3``), read off the form's own ``momentum`` and ``slope_norm``."""
+    p = math.log2(form.momentum(2.0) / form.momentum(1.0))
+    return p, form.slope_norm(1.0) / form.momentum(1.0)
+
+
+def _momentum_slope(form: SolitonForm, kappa: float, sign: int | None) -> float:
+    """``dP/dkappa`` of the form's momentum, by a central difference of its quadrature."""
+    h = 1e-4 * kappa
+    return (form.momentum(kappa + h, sign) - form.momentum(kappa - h, sign)) / (2.0 * h)
+
+
+def adiabatic_rate(kappa: float, equation: str | Equation, sign: int | None = None) -> float:
+    """``d kappa / dt`` of a soliton that keeps its shape while it loses momentum:
+    ``-(2 g P(kappa) + 2 v S(kappa)) / P'(kappa)`` (see :func:`adiabatic_kappa`)."""
+    eq = Equation.coerce(equation, "theory")
+    reason = adiabatic_reason(eq)
+    if reason:
+        raise ConfigError(f"theory: {reason}")
+    form = eq.soliton_form
+    pk = form.momentum(kappa, sign)
+    loss = 2.0 * eq.g * pk + 2.0 * eq.v * form.slope_norm(kappa, sign)
+    if form.family == "gardner":
+        return -loss / _momentum_slope(form, kappa, sign)
+    p, _ = _power_law(form)
+    return -loss * kappa / (p * pk)
+
+
+def _times(t: ArrayLike) -> np.ndarray:
+    arr = np.asarray(t, dtype=np.float64)
+    if not np.all(np.isfinite(arr)) or np.any(arr < 0):
+        raise ConfigError(f"theory: times must be finite and >= 0, got {arr.tolist()}")
+    return arr
+
+
+def adiabatic_kappa(
+    kappa0: float, t: ArrayLike, equation: str | Equation, sign: int | None = None
+) -> Any:
+    """The kappa at times ``t`` of a soliton (kappa ``kappa0`` at ``t = 0``) under weak damping
+    and viscosity, ``u_t + (a u + b u^2) u_x + d u_xxx = -g u + v u_xx``.
+
+    Principle (adiabatic, or slowly varying, approximation): for ``g, v`` small the soliton keeps
+    its family's shape with a slowly varying ``kappa(t)``, fixed by the balance of the momentum
+    ``P = int u^2 dx``, which the flux and the dispersion conserve. Multiplying the equation by
+    ``u`` and integrating, ``dP/dt = -2 g int u^2 - 2 v int u_x^2``, so
+
+        P'(kappa) dkappa/dt = -2 g P(kappa) - 2 v S(kappa),   S = int u_x^2 dx,
+
+    with ``P`` and ``S`` from :meth:`kdvsweep.model.SolitonForm.momentum` and
+    :meth:`~kdvsweep.model.SolitonForm.slope_norm`. The mass ``int u`` is not used: the soliton
+    sheds a shelf behind it that carries mass at first order but momentum only at second order
+    (Karpman & Maslov 1977, from memory).
+
+    Closed forms. KdV, ``u = alpha 2 kappa^2 sech^2(kappa (x - 4 d kappa^2 t))`` with ``alpha =
+    6 d / a``: ``P = alpha^2 16 kappa^3 / 3``, ``S = alpha^2 64 kappa^5 / 15``. Focusing mKdV,
+    ``u = alpha 2 kappa sech(2 kappa x)`` with ``alpha^2 = 6 d / b``: ``P = alpha^2 4 kappa``,
+    ``S = alpha^2 16 kappa^3 / 3``. Both are ``P ~ kappa^p``, ``S = beta kappa^2 P`` (KdV ``p = 3,
+    beta = 4/5``; mKdV ``p = 1, beta = 4/3``), so ``kappa'/kappa = -(2 g + 2 v beta kappa^2) / p``
+    and ``y = 1 / kappa^2`` obeys the linear ``y' = (4 g / p) y + 4 v beta / p``:
+
+        1/kappa^2 = e^{lambda t} / kappa0^2 + c (e^{lambda t} - 1) / lambda,
+        lambda = 4 g / p,  c = 4 v beta / p  (c t when g = 0).
+
+    ``alpha`` and ``d`` drop out: kappa(t) is the same for every ``a, b, d`` of the family. Cases:
+
+    * damped KdV: ``kappa = kappa0 e^{-2 g t / 3}``, amplitude ``A0 e^{-4 g t / 3}`` (Ott & Sudan
+      1970, Phys. Fluids 13, 1432; Karpman & Maslov 1977, Sov. Phys. JETP 46, 281; from memory);
+    * viscous KdV: ``1/kappa^2 = 1/kappa0^2 + 16 v t / 15``, derived the same way;
+    * damped mKdV: ``kappa = kappa0 e^{-2 g t}`` (amplitude too);
+    * viscous mKdV: ``1/kappa^2 = 1/kappa0^2 + 16 v t / 3``.
+
+    Gardner has no closed form here: the ODE is integrated with ``scipy.integrate.solve_ivp``
+    (``P'`` by a central difference of the quadrature). Its opposite-polarity branch (``mu > 0``)
+    keeps a momentum ``2 pi alpha^2 / mu^{3/2}`` as kappa -> 0 (the algebraic soliton): losing
+    more, the wave cannot keep its shape, and kappa falls to 0 in a finite time, ever faster: the
+    prediction is NaN once kappa is below a quarter of ``kappa0`` on that branch (a thousandth on
+    the KdV-like one), and once a growing (``g < 0``) wave reaches the table-top limit.
+
+    Fifth-order dispersion (``f != 0``) has no prediction here (:func:`adiabatic_reason`).
+
+    Parameters
+    ----------
+    kappa0
+        The soliton's kappa at ``t = 0`` (speed ``4 d kappa0^2``).
+    t
+        Times ``>= 0`` (scalar or array).
+    equation
+        A preset name or an :class:`~kdvsweep.Equation`; ``g = v = 0`` gives ``kappa0``.
+    sign
+        Polarity (Gardner only: selects the branch; None is the KdV-like one).
+
+    Returns
+    -------
+    float or numpy.ndarray
+        kappa at each time (the shape of ``t``).
+    """
+    eq = Equation.coerce(equation, "theory")
+    reason = adiabatic_reason(eq)
+    if reason:
+        raise ConfigError(f"theory: {reason}")
+    k0 = float(_as_kappas([kappa0], "kappa0")[0])
+    times = _times(t)
+    form = eq.soliton_form
+    form.amplitude(k0, sign)  # checks the branch exists
+    if not k0 < form.max_kappa:
+        raise ConfigError(f"theory: kappa0 {k0:g} is beyond the table-top limit {form.max_kappa:g}")
+    if eq.g == 0 and eq.v == 0:
+        out = np.full(times.shape, k0)
+    elif form.family == "gardner":
+        out = _gardner_kappa(form, k0, times, eq, sign)
+    else:
+        p, beta = _power_law(form)
+        lam, c = 4.0 * eq.g / p, 4.0 * eq.v * beta / p
+        grow = np.exp(lam * times)
+        spread = c * times if lam == 0 else c * np.expm1(lam * times) / lam
+        out = 1.0 / np.sqrt(grow / k0**2 + spread)
+    return float(out) if out.ndim == 0 else out
+
+
+def _gardner_kappa(
+    form: SolitonForm, k0: float, times: np.ndarray, eq: Equation, sign: int | None
+) -> np.ndarray:
+    """kappa(t) of a Gardner wave: the momentum balance integrated (NaN once it has no shape)."""
+    from scipy.integrate import solve_ivp  # loaded only for Gardner predictions
+
+    flat = times.ravel()
+    t_max = float(flat.max()) if flat.size else 0.0
+    # The opposite branch reaches kappa = 0 in a finite time, ever faster as P' -> 0: the
+    # prediction stops at a quarter of kappa0 there (at a thousandth on the KdV-like branch).
+    opposite = sign is not None and sign != form.sign
+    low, high = (0.25 if opposite else 1e-3) * k0, (1.0 - 1e-3) * form.max_kappa
+
+    def rate(_t: float, y: np.ndarray) -> list[float]:
+        # Trial points past an event are clamped: a tiny kappa would need a huge quadrature line.
+        kappa = min(max(float(y[0]), 0.5 * low), high)
+        slope = _momentum_slope(form, kappa, sign)
+        if not slope > 0:
+            return [0.0]
+        loss = 2.0 * eq.g * form.momentum(kappa, sign) + 2.0 * eq.v * form.slope_norm(kappa, sign)
+        return [-loss / slope]
+
+    def too_small(_t: float, y: np.ndarray) -> float:
+        return float(y[0]) - low
+
+    def too_large(_t: float, y: np.ndarray) -> float:
+        return high - float(y[0])
+
+    too_small.terminal = True  # type: ignore[attr-defined]
+    too_large.terminal = True  # type: ignore[attr-defined]
+    out = np.full(flat.shape, math.nan)
+    if t_max == 0:
+        out[:] = k0
+        return out.reshape(times.shape)
+    sol = solve_ivp(
+        rate,
+        (0.0, t_max),
+        [k0],
+        method="LSODA",
+        dense_output=True,
+        rtol=1e-9,
+        atol=1e-12 * k0,
+        events=(too_small, too_large),
+    )
+    if sol.sol is None:
+        raise ConfigError(f"theory: the Gardner momentum balance did not integrate: {sol.message}")
+    reached = float(sol.t[-1])
+    inside = flat <= reached
+    out[inside] = np.asarray(sol.sol(flat[inside]))[0]
+    return out.reshape(times.shape)
+
+
+def adiabatic_amplitude(
+    kappa0: float, t: ArrayLike, equation: str | Equation, sign: int | None = None
+) -> Any:
+    """Peak ``|u|`` of the adiabatic soliton at times ``t``: the form's amplitude of
+    :func:`adiabatic_kappa` (damped KdV: ``A0 e^{-4 g t / 3}``, Ott & Sudan 1970)."""
+    eq = Equation.coerce(equation, "theory")
+    kappa = adiabatic_kappa(kappa0, t, eq, sign)
+    return eq.soliton_form.amplitude(kappa, sign)
+
+
+def adiabatic_speed(
+    kappa0: float, t: ArrayLike, equation: str | Equation, sign: int | None = None
+) -> Any:
+    """Speed ``4 d kappa(t)^2`` of the adiabatic soliton at times ``t`` (:func:`adiabatic_kappa`)."""
+    eq = Equation.coerce(equation, "theory")
+    return eq.soliton_form.speed(adiabatic_kappa(kappa0, t, eq, sign))
