@@ -219,3 +219,26 @@ def test_a_failed_reference_leaves_the_shift_unmeasured_with_a_reason(tmp_path: 
         "soliton 1: reference run failed: NumericalError: blew up" in res.run_row["analysis_reason"]
     )
     assert math.isnan(res.run_row["radiated_energy"])
+
+
+def test_a_stored_reference_is_used_only_under_its_own_digest(tmp_path: Path) -> None:
+    # The store keeps a reference by the sha256 of its key; a row whose key does not hash to its
+    # digest (written wrongly, or edited) is never handed to a run: it counts as missing and is
+    # computed again (common practice, no source).
+    from conftest import pair_sweep
+
+    from kdvsweep.sweep.references import ReferenceResult
+    from kdvsweep.sweep.store import Store
+
+    spec = one_spec(tmp_path, pair_text('{ preset = "kdv", g = 1e-3 }', points=512, dt=0.01))
+    good = compute_reference(references_for(spec)[1])
+    forged = ReferenceResult("0" * 64, good.key, good.track)
+    sweep = pair_sweep(tmp_path / "sweep", "refs", [0.5])
+    with Store.open(tmp_path / "out", sweep) as store:
+        assert store.write_references([good, forged, good]) == 2
+        assert store.reference("0" * 64) is None
+        back = store.reference(good.digest)
+        assert back is not None
+        np.testing.assert_array_equal(back.x, good.track.x)
+        np.testing.assert_array_equal(back.last, good.track.last)
+    assert set(read_references(tmp_path / "out")) == {good.digest}
