@@ -5,12 +5,27 @@ Sources are named beside each check; [memory] marks formulas written from memory
 
 from __future__ import annotations
 
+import json
 import math
+from pathlib import Path
+from typing import Any
 
+import numpy as np
+import pyarrow.parquet as pq
 import pytest
+from conftest import make_store
+from test_columns import _table
 
-from kdvsweep import units
+from kdvsweep import columns, units
+from kdvsweep.columns import Layout
 from kdvsweep.exceptions import ConfigError
+from kdvsweep.results import load
+from kdvsweep.sweep import load_sweep
+from kdvsweep.sweep.runner import execute
+
+ROOT = Path(__file__).resolve().parent.parent
+SWEEPS = ROOT / "sweeps"
+README = ROOT / "README.md"
 
 SYSTEMS = [
     units.ShallowWater(depth=0.4, gravity=9.81),
@@ -171,3 +186,259 @@ def test_run_axes_from_a_runs_row() -> None:
     plasma = units.run_axes("ion-acoustic-plasma", units.run_columns(SYSTEMS[4]))
     assert plasma is not None
     assert plasma["u"].label.endswith("(V)")
+
+
+# ----------------------------------------------------------------------------- sweeps
+
+
+def _sweep(
+    tmp_path: Path,
+    units_table: str,
+    initial: str,
+    extra: str = "",
+    name: str = "u",
+    length: float = 160,
+) -> Any:
+    """A sweep file with ``[units]`` (one soliton by default, sized by hand: ``length`` with
+    ``6.4 length`` points), loaded."""
+    text = f"""\
+[sweep]
+name = "{name}"
+{extra}
+[units]
+{units_table}
+
+[model]
+points = {round(6.4 * length)}
+length = {length}
+dt = 0.01
+
+[initial]
+kind = "solitons"
+{initial}
+
+[run]
+end = 40
+frame_every = 1.0
+keep_frames = true
+"""
+    path = tmp_path / f"{name}.toml"
+    path.write_text(text, encoding="utf-8")
+    return load_sweep(path)
+
+
+def _lab_track(spec: Any, result: Any) -> tuple[np.ndarray, np.ndarray, np.ndarray, float]:
+    """The wave's laboratory centre (first moment of |u| in a window around its peak) and width
+    scale ``l`` of ``A sech^2(x / l)`` (second moment: ``<x^2> = pi^2 l^2 / 12``, since
+    ``int x^2 sech^2 x dx = pi^2 / 6`` and ``int sech^2 x dx = 2``), at each kept frame, with the
+    laboratory times and the peak height (physical units)."""
+    s = spec.units.scales()
+    grid = spec.model.grid
+    x = grid.x
+    centres, widths, peaks = [], [], []
+    for u in result.frames:
+        w = np.abs(u)
+        j = int(np.argmax(w))
+        z = (x - x[j] + 0.5 * grid.length) % grid.length - 0.5 * grid.length
+        win = np.abs(z) < 0.4 * grid.length
+        mass = np.sum(w[win])
+        zc = np.sum(z[win] * w[win]) / mass
+        centres.append(x[j] + zc)
+        widths.append(math.sqrt(12 * np.sum((z[win] - zc) ** 2 * w[win]) / mass) / math.pi)
+        peaks.append(float(u[j]))
+    t_lab = result.frame_times * s.time
+    x_lab = np.unwrap(np.asarray(centres), period=grid.length) * s.length + s.c0 * t_lab
+    return t_lab, x_lab, np.asarray(widths) * s.length, float(np.median(peaks)) * s.height
+
+
+def test_shallow_water_solitary_wave_speed_and_width(tmp_path: Path) -> None:
+    # Korteweg & de Vries 1895; Whitham 1974, Sec. 13.11 [memory]: a solitary wave of height A on
+    # depth h moves at c = sqrt(g h) (1 + A / (2 h)) and has the width scale
+    # l = sqrt(4 h^3 / (3 A)) of eta = A sech^2((x - c t) / l), to first order in A / h. The
+    # simulation (KdV, to which the run reduces) must agree to well within the next order,
+    # (A / h)^2; it agrees to its own accuracy (measured here: speed 1.4e-13 relative, the excess
+    # speed c - sqrt(g h) 3e-12, the width 1.1e-10).
+    h, g, A = 0.5, 9.81, 0.05
+    sweep = _sweep(
+        tmp_path, f"system = 'shallow-water'\ndepth = {h}\ngravity = {g}", f"amplitude = [{A}]"
+    )
+    assert sweep.warnings == ()
+    (spec,) = sweep.runs
+    result = execute(spec)
+    assert result.ok, result.run_row["reason"]
+    t, x, width, peak = _lab_track(spec, result)
+    speed = np.polyfit(t, x, 1)[0]
+    c = math.sqrt(g * h) * (1 + A / (2 * h))
+    l_theory = math.sqrt(4 * h**3 / (3 * A))
+    speed_err = abs(speed / c - 1)
+    width_err = float(np.max(np.abs(width / l_theory - 1)))
+    assert speed_err < 1e-9 < (A / h) ** 2
+    assert abs(speed - c) / (c - math.sqrt(g * h)) < 1e-9
+    assert width_err < 1e-8
+    assert abs(peak / A - 1) < 1e-3  # the grid's highest point (dx = 0.16 h, l = 3.7 h)
+    # the runs table in physical units
+    row = result.run_row
+    assert row["phys_depth"] == h
+    assert math.isclose(row["phys_c0"], math.sqrt(g * h), rel_tol=1e-15)
+    assert math.isclose(row["phys_length"], 160 * h, rel_tol=1e-15)
+    assert math.isclose(row["phys_t_end"], 40 * 6 * h / math.sqrt(g * h), rel_tol=1e-14)
+
+
+def test_two_layer_polarity_follows_the_critical_ratio(tmp_path: Path) -> None:
+    # Djordjevic & Redekopp 1978 [memory]: q changes sign at h1 / h2 = sqrt(rho1 / rho2); below it
+    # (thin upper layer) interfacial solitary waves are depressions, above it elevations. Run one
+    # wave of 1 m on each side and look at the sign of the simulated displacement.
+    rho1, rho2, total, A = 1000.0, 1030.0, 50.0, 1.0
+    critical = math.sqrt(rho1 / rho2)
+    text = (
+        f"system = 'two-layer-interface'\nupper_depth = 'h1'\nlower_depth = '{total} - h1'\n"
+        f"upper_density = {rho1}\nlower_density = {rho2}"
+    )
+    ratios = [0.6, 0.9, 1.1, 1.6]
+    h1 = [total * r / (1 + r) for r in ratios]
+    sweep = _sweep(tmp_path, text, f"amplitude = [{A}]", f"[[vary]]\nh1 = {h1}\n", "layers")
+    for spec, ratio in zip(sweep.runs, ratios, strict=True):
+        result = execute(spec)
+        assert result.ok, result.run_row["reason"]
+        expected = 1 if ratio > critical else -1
+        final = result.frames[-1] * spec.units.scales().height
+        extreme = final[np.argmax(np.abs(final))]
+        assert np.sign(extreme) == expected, ratio
+        assert math.isclose(abs(extreme), A, rel_tol=2e-3), (ratio, extreme)
+        assert result.soliton_rows[0]["sign"] == expected
+
+
+def test_ion_acoustic_soliton_speed(tmp_path: Path) -> None:
+    # Washimi & Taniuti 1966 [memory]: the KdV ion-acoustic soliton of peak potential phi_m moves
+    # at the Mach number M = 1 + phi_m / (3 T_e) (potential in volts, T_e in eV) and has the width
+    # lambda_D sqrt(2 / (M - 1)). Measured here: M to 2e-13, M - 1 to 5e-12, the width to 4e-11.
+    te, n0, mass, phi = 2.0, 1e16, 1.007276466621, 0.24
+    table = f"system = 'ion-acoustic-plasma'\nelectron_temperature = {te}\ndensity = {n0}"
+    sweep = _sweep(tmp_path, table, f"amplitude = [{phi}]", name="plasma", length=320)
+    (spec,) = sweep.runs
+    result = execute(spec)
+    assert result.ok, result.run_row["reason"]
+    t, x, width, _ = _lab_track(spec, result)
+    cs = math.sqrt(1.602176634e-19 * te / (mass * 1.66053906660e-27))  # CODATA 2018 [memory]
+    ld = math.sqrt(8.8541878128e-12 * te / (1.602176634e-19 * n0))
+    mach = np.polyfit(t, x, 1)[0] / cs
+    delta = phi / (3 * te)
+    assert abs(mach / (1 + delta) - 1) < 1e-9
+    assert abs((mach - 1) / delta - 1) < 1e-8  # the excess Mach number itself
+    assert float(np.max(np.abs(width / (ld * math.sqrt(2 / delta)) - 1))) < 1e-8
+
+
+def test_units_errors_name_the_key(tmp_path: Path) -> None:
+    table = "system = 'shallow-water'\ndepth = 1.0"
+    with pytest.raises(ConfigError, match=r"units\.system: given 'deep'"):
+        _sweep(tmp_path, "system = 'deep'\ndepth = 1.0", "amplitude = [0.1]")
+    with pytest.raises(ConfigError, match=r"units\.density: given an unknown key"):
+        _sweep(tmp_path, table + "\ndensity = 3", "amplitude = [0.1]")
+    with pytest.raises(ConfigError, match=r"units\.depth: given '-h' \(= -0.5\) in run 0"):
+        _sweep(
+            tmp_path,
+            "system = 'shallow-water'\ndepth = '-h'",
+            "amplitude = [0.1]",
+            "[[vary]]\nh = [0.5]\n",
+        )
+    with pytest.raises(ConfigError, match=r"units\.lower_density: .*stable stratification"):
+        _sweep(
+            tmp_path,
+            "system = 'two-layer-interface'\nupper_depth = 1\nlower_depth = 2\n"
+            "upper_density = 1000\nlower_density = 999",
+            "amplitude = [0.1]",
+        )
+    with pytest.raises(ConfigError, match=r"initial\.speed\[0\]: .*above the linear long-wave"):
+        _sweep(tmp_path, table, "speed = [3.0]")  # c0 = 3.13 m/s
+    # the equation comes from the system: a contradicting coefficient names its key
+    contradicting = edit_model(tmp_path, "equation = { a = 6, d = 2 }")
+    with pytest.raises(ConfigError, match=r"model\.equation\.d: given 2 in run 0, expected d = 1"):
+        load_sweep(contradicting)
+    with pytest.raises(
+        ConfigError, match=r"model\.equation: given 'mkdv' in run 0, expected a = 6"
+    ):
+        load_sweep(edit_model(tmp_path, "equation = 'mkdv'"))
+    # agreeing ones and canonical perturbations are accepted
+    s = load_sweep(edit_model(tmp_path, "equation = { preset = 'kdv', g = 1e-3 }"))
+    assert s.runs[0].model.equation.g == 1e-3
+    assert s.runs[0].model.equation.a == 6.0
+
+
+def edit_model(tmp_path: Path, line: str) -> Path:
+    """A shallow-water sweep file with ``line`` added to its [model] table."""
+    path = tmp_path / "model.toml"
+    path.write_text(
+        "[units]\nsystem = 'shallow-water'\ndepth = 1.0\n\n"
+        f"[model]\n{line}\npoints = 512\nlength = 80\ndt = 0.01\n\n"
+        "[initial]\nkind = 'solitons'\namplitude = [0.1]\n\n[run]\nend = 1\nframe_every = 1\n",
+        encoding="utf-8",
+    )
+    return path
+
+
+def test_validity_warnings_name_the_ratio(tmp_path: Path) -> None:
+    # A/h = 0.4: past our weakly nonlinear limit (0.3, common practice, no source); the solitary
+    # wave's h/l = sqrt(3 A / (4 h)) = 0.55 is past the long-wave limit 0.5 too
+    sweep = _sweep(tmp_path, "system = 'shallow-water'\ndepth = 1.0", "amplitude = [0.4]")
+    text = " | ".join(sweep.warnings)
+    assert "units (A/h): 1 of 1 runs leave the range the shallow-water model assumes" in text
+    assert "(worst run 0: A/h = 0.4)" in text
+    assert "units (h/l)" in text
+    assert "h/l = 0.548" in text
+    # a profile narrower than half the depth in the plasma: lambda_D / l
+    plasma = "system = 'ion-acoustic-plasma'\nelectron_temperature = 1.0\ndensity = 1e16"
+    path = tmp_path / "narrow.toml"
+    ld = units.IonAcousticPlasma(electron_temperature=1.0, density=1e16).debye_length()
+    path.write_text(
+        f"[units]\n{plasma}\n\n[model]\npoints = 1024\nlength = 200\ndt = 0.01\n\n"
+        f"[initial]\nkind = 'gaussian'\nheight = 0.05\nscale = {1.5 * ld}\n\n"
+        "[run]\nend = 1\nframe_every = 1\npredict_content = false\n",
+        encoding="utf-8",
+    )
+    warned = " | ".join(load_sweep(path).warnings)
+    assert "units (lambda_D/l)" in warned
+    assert "lambda_D/l = 0.667" in warned
+    assert "e phi/T_e" not in warned
+
+
+def test_store_keeps_units_in_the_field_metadata(tmp_path: Path) -> None:
+    text = (SWEEPS / "ion-acoustic.toml").read_text(encoding="utf-8")
+    text = text.replace("phi = [0.15, 0.25, 0.4]", "phi = [0.4]")
+    out = make_store(tmp_path, text, "plasma")
+    manifest = json.loads((out / "manifest.json").read_text(encoding="utf-8"))
+    assert manifest["layout"]["units"] == "ion-acoustic-plasma"
+    runs = pq.read_schema(next((out / "runs").glob("*.parquet")))
+    assert runs.field("phys_electron_temperature").metadata == {b"unit": b"eV"}
+    assert runs.field("phys_t_end").metadata == {b"unit": b"s"}
+    assert runs.field("t_end").metadata is None
+    sol = pq.read_schema(next((out / "solitons").glob("*.parquet")))
+    assert sol.field("phys_amplitude").metadata == {b"unit": b"V"}
+    res = load(out)
+    assert res.solitons["phys_amplitude"].tolist() == pytest.approx([0.4, 0.08], rel=1e-6)
+    axes = units.run_axes(manifest["layout"]["units"], res.runs.iloc[0])
+    assert axes is not None
+    assert axes["u"].label == "phi: electrostatic potential (V)"
+    # the water-wave systems carry the hazard caution with their columns
+    layout = Layout({}, analysis=True, content=False, units="shallow-water")
+    assert layout.schema("solitons").field("phys_speed").metadata[b"caution"] == (
+        units.CAUTION.encode()
+    )
+
+
+def test_example_sweeps_in_physical_units_state_the_caution() -> None:
+    for name in ("wave-tank", "interface-polarity"):
+        text = (SWEEPS / f"{name}.toml").read_text(encoding="utf-8")
+        assert "idealised model runs, not forecasts" in text
+        assert "tsunami" in text
+    readme = README.read_text(encoding="utf-8")
+    section = readme[readme.index("## Physical units") :]
+    assert "idealised model runs, not forecasts" in section[:600]
+    assert "not forecasts" in (units.__doc__ or "")
+
+
+def test_readme_lists_the_physical_columns() -> None:
+    readme = README.read_text(encoding="utf-8")
+    runs = (*columns.PHYS_RUN_COLUMNS, *columns.PHYS_PARAMETER_COLUMNS)
+    solitons = (*columns.PHYS_SOLITON_COLUMNS, *columns.PHYS_CONTENT_SOLITON_COLUMNS)
+    assert _table(runs) in readme
+    assert _table(solitons) in readme

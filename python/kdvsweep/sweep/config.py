@@ -578,8 +578,10 @@ def _system(tpl: _Template, ctx: _Run) -> physunits.System | None:
         return physunits.make_system(name, values)
     except physunits.ParameterError as err:
         slot = slots.get(err.key)
-        shown = err.given if slot is None else slot.given
-        raise ctx.fail(f"units.{err.key}", shown, err.expected) from None
+        shown = describe(err.given if slot is None else slot.given)
+        if slot is not None and slot.expr is not None:
+            shown += f" (= {err.given!r})"
+        raise ctx.src.error(f"units.{err.key}", f"{shown} in {ctx.label}", err.expected) from None
     except ConfigError as err:  # a system whose coefficients are not finite numbers
         raise ctx.src.error(
             "units", f"{values} in {ctx.label}", f"a valid system ({err})"
