@@ -28,7 +28,7 @@ import numpy as np
 
 from .exceptions import ConfigError, NumericalError
 from .model import Equation, Grid
-from .simulation import ADAPTIVE, SCHEMES, Simulation, linear_rate, nonlinear_rate
+from .simulation import ADAPTIVE, SCHEMES, STEP_RULE, Simulation, linear_rate, nonlinear_rate
 
 #: Box length in widths of the kappa = 1 soliton (its tails are below 1e-8 at the box's edge).
 WIDTHS = 40.0
@@ -41,7 +41,8 @@ NOISE = 1e-9
 #: A final relative L2 error above this counts as unstable whatever its growth (the soliton is
 #: lost: a stable but inaccurate step is the user's convergence study, not this rule's business).
 ERROR_LIMIT = 0.3
-#: The bisection's upper end is doubled while it is stable, up to this ratio.
+#: The search doubles a stable step up to this ``dt * nonlinear_rate`` (then reports it as the
+#: limit, with ``dt_unstable = inf``).
 CEILING = 256.0
 #: Frames at which the error is taken (the last two halves are compared).
 FRAMES = 10
@@ -156,9 +157,13 @@ def trial(case: Case, dt: float, reference: np.ndarray | None = None) -> tuple[b
     return True, last, STABLE
 
 
-def measure(case: Case, low: float = 0.02, high: float = 8.0) -> Limit:
-    """Bisect (geometrically) ``dt * nonlinear_rate`` in ``[low, high]`` for the largest stable
-    step of ``case``, to :data:`PRECISION`.
+def measure(case: Case, low: float = 0.01, start: float | None = None) -> Limit:
+    """The largest stable step of ``case``, to :data:`PRECISION`, by geometric bisection of
+    ``dt * nonlinear_rate``.
+
+    The search starts at ``start`` (default: the step rule in use, so that the first trials are
+    near the answer and cheap), halves it down to ``low`` until a step is stable, doubles it up to
+    :data:`CEILING` until one is not, and bisects between the two.
 
     Raises
     ------
@@ -171,9 +176,13 @@ def measure(case: Case, low: float = 0.02, high: float = 8.0) -> Limit:
             f"got {case.scheme!r}"
         )
     rate, lin = case.rates()
+    if start is None:
+        rule = STEP_RULE.get(case.scheme)
+        start = rule.limit(rate, lin) * rate if rule is not None else 1.0
+    start = min(max(start, low), CEILING)
     reference = None
     if case.f != 0:
-        reference = _frames(case, "etdrk4", 0.25 * low / rate)
+        reference = _frames(case, "etdrk4", 0.25 * min(start, 0.5) / rate)
         if reference is None:
             raise ConfigError(f"steplimits: the reference run of {case} is unstable too")
     runs = 0
@@ -183,26 +192,30 @@ def measure(case: Case, low: float = 0.02, high: float = 8.0) -> Limit:
         runs += 1
         return trial(case, ratio / rate, reference)
 
-    ok, error, _ = stable(low)
-    if not ok:
-        raise ConfigError(f"steplimits: {case} is unstable at dt * rate = {low:g} already")
-    good, bad, verdict = low, high, STABLE
-    while True:  # an upper end that is unstable (or the ceiling)
-        ok, top_error, verdict = stable(bad)
-        if not ok:
+    good, bad, error, verdict = 0.0, math.inf, math.nan, STABLE
+    ratio = start
+    while True:  # down to a stable step
+        ok, err, why = stable(ratio)
+        if ok:
+            good, error = ratio, err
             break
-        good, error = bad, top_error
-        if bad >= CEILING:
-            bad = math.inf
-            break
-        bad *= 2.0
+        bad, verdict = ratio, why
+        if ratio <= low:
+            raise ConfigError(f"steplimits: {case} is unstable at dt * rate = {low:g} already")
+        ratio = max(0.5 * ratio, low)
+    while bad == math.inf and good < CEILING:  # up to an unstable one
+        ok, err, why = stable(min(2.0 * good, CEILING))
+        if ok:
+            good, error = min(2.0 * good, CEILING), err
+        else:
+            bad, verdict = min(2.0 * good, CEILING), why
     while bad / good > PRECISION:
         mid = math.sqrt(good * bad)
-        ok, mid_error, mid_verdict = stable(mid)
+        ok, err, why = stable(mid)
         if ok:
-            good, error = mid, mid_error
+            good, error = mid, err
         else:
-            bad, verdict = mid, mid_verdict
+            bad, verdict = mid, why
     return Limit(
         case,
         good / rate,
