@@ -11,9 +11,11 @@ from memory).
 from __future__ import annotations
 
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
+from conftest import make_store
 from scipy.integrate import quad, solve_ivp
 
 import kdvsweep as kv
@@ -170,3 +172,54 @@ def test_simulated_decay_follows_the_adiabatic_law(
         return
     assert np.sign(ratios).min() == np.sign(ratios).max(), ratios
     assert max(np.abs(ratios)) < 2.0 * min(np.abs(ratios)), ratios
+
+
+def test_predicted_soliton_values_and_reasons() -> None:
+    # Integrable: the unperturbed values 2 kappa^2, 4 kappa^2 (Korteweg & de Vries 1895).
+    assert theory.predicted_soliton(0.9, 30.0, Equation.kdv()) == (2 * 0.81, 4 * 0.81, "")
+    amp, speed, why = theory.predicted_soliton(1.0, 30.0, Equation.kdv(g=0.01))
+    assert amp == pytest.approx(2 * math.exp(-0.4))  # Ott & Sudan 1970
+    assert speed == pytest.approx(4 * math.exp(-0.4))
+    assert why == ""
+    amp, speed, why = theory.predicted_soliton(1.0, 30.0, Equation.kdv(f=0.01))
+    assert math.isnan(amp)
+    assert math.isnan(speed)
+    assert "f != 0" in why
+
+
+SWEEP = """
+[sweep]
+name = "adiabatic"
+[[vary]]
+term = [{label}]
+[model]
+equation = {equation}
+points = 1024
+length = 100.0
+dt = 0.002
+[initial]
+kind = "solitons"
+kappa = [1.0]
+position = [-35.0]
+[run]
+end = 30.0
+frame_every = 0.5
+"""
+
+
+def test_solitons_table_has_end_values_beside_predictions(tmp_path: Path) -> None:
+    text = SWEEP.format(label='"g"', equation='{ preset = "kdv", g = 0.01 }')
+    res = kv.load(make_store(tmp_path, text, "damped"))
+    row = res.solitons.iloc[0]
+    # Ott & Sudan 1970: 2 exp(-4 g t / 3) at t = 30; the run is 0.27 g above it (test above).
+    assert row["amplitude_predicted"] == pytest.approx(2 * math.exp(-0.4), rel=1e-12)
+    assert row["amplitude_end"] == pytest.approx(row["amplitude_predicted"], rel=0.5 * 0.01)
+    assert row["amplitude_end"] != pytest.approx(row["amplitude_predicted"], rel=1e-4)
+    assert row["speed_end"] == pytest.approx(row["speed_predicted"], rel=0.01)
+
+    text = SWEEP.format(label='"f"', equation='{ preset = "kdv", f = 0.001 }')
+    res = kv.load(make_store(tmp_path, text, "fifth"))
+    row = res.solitons.iloc[0]
+    assert math.isnan(row["amplitude_predicted"])
+    assert math.isfinite(row["amplitude_end"])
+    assert "f != 0" in res.runs.iloc[0]["reason"]

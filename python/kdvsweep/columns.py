@@ -245,6 +245,25 @@ SOLITON_COLUMNS: tuple[Column, ...] = (
         "mean peak height |u| in the fit windows (content: of the fitted shape; breather: of "
         "its envelope)",
     ),
+    Column(
+        "amplitude_end",
+        _F,
+        "soliton data: peak height |u| at the last frame, a quadratic fit to the tracked heights over"
+        " the last tenth of the frames (at least 3); NaN unless the solitons are apart in all",
+    ),
+    Column(
+        "speed_end",
+        _F,
+        "speed at the last frame: slope there of a quadratic fit to the tracked positions over the"
+        " frames of amplitude_end",
+    ),
+    Column(
+        "amplitude_predicted",
+        _F,
+        "predicted |u| at the last frame: unperturbed (integrable) or adiabatic under g, v (README"
+        " 'Perturbed equations'); NaN where none, the reason in the run's reason",
+    ),
+    Column("speed_predicted", _F, "predicted speed at the last frame, as amplitude_predicted"),
     Column("collisions", _I, "collisions the soliton took part in"),
     Column("offset_before", _F, "x^-: position at t = 0 of the asymptote before the collisions"),
     Column("offset_after", _F, "x^+: position at t = 0 of the asymptote after the collisions"),

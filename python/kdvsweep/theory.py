@@ -274,6 +274,7 @@ __all__ = [
     "peaks_at_closest_approach",
     "phase_shifts",
     "polarities",
+    "predicted_soliton",
     "shift_balance",
     "speeds",
     "symmetric_phases",
@@ -472,7 +473,8 @@ def _gardner_kappa(
         raise ConfigError(f"theory: the Gardner momentum balance did not integrate: {sol.message}")
     reached = float(sol.t[-1])
     inside = flat <= reached
-    out[inside] = np.asarray(sol.sol(flat[inside]))[0]
+    if inside.any():
+        out[inside] = np.asarray(sol.sol(flat[inside]))[0]
     return out.reshape(times.shape)
 
 
@@ -492,3 +494,24 @@ def adiabatic_speed(
     """Speed ``4 d kappa(t)^2`` of the adiabatic soliton at times ``t`` (:func:`adiabatic_kappa`)."""
     eq = Equation.coerce(equation, "theory")
     return eq.soliton_form.speed(adiabatic_kappa(kappa0, t, eq, sign))
+
+
+def predicted_soliton(
+    kappa0: float, t: float, equation: str | Equation, sign: int | None = None
+) -> tuple[float, float, str]:
+    """``(amplitude, speed, reason)`` of a soliton (kappa ``kappa0`` at ``t = 0``) at time ``t``:
+    the unperturbed values for an integrable equation, the adiabatic ones under damping or
+    viscosity (:func:`adiabatic_kappa`); NaN with the one-line reason where there is no prediction
+    (``f != 0``, no soliton form, a Gardner wave past the end of its adiabatic branch)."""
+    eq = Equation.coerce(equation, "theory")
+    reason = adiabatic_reason(eq)
+    if reason:
+        return math.nan, math.nan, reason
+    try:
+        kappa = float(adiabatic_kappa(kappa0, t, eq, sign))
+    except ConfigError as exc:
+        return math.nan, math.nan, str(exc)
+    if not math.isfinite(kappa):
+        return math.nan, math.nan, "no adiabatic prediction: the wave left its branch's shape"
+    form = eq.soliton_form
+    return float(form.amplitude(kappa, sign)), float(form.speed(kappa)), ""

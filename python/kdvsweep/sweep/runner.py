@@ -347,7 +347,8 @@ def _collision_rows(
         )
     except Exception as exc:  # an analysis error is recorded; the run's numbers are still valid
         reason = f"analysis: {type(exc).__name__}: {exc}"
-        return _input_soliton_rows(spec, equation), {"reason": reason}
+        rows = _input_soliton_rows(spec, equation)
+        return rows, {"reason": _join(reason, _end_values(rows, None, times, equation))}
     extra = {
         str(k): _plain(v)
         for k, v in found.summary.items()
@@ -356,7 +357,9 @@ def _collision_rows(
     if not found.ok:
         reason = f"analysis {found.summary.get('analysis_status')}: "
         reason += str(found.summary.get("analysis_reason", ""))
-        return _input_soliton_rows(spec, equation), {**extra, "reason": reason}
+        rows = _input_soliton_rows(spec, equation)
+        note = _end_values(rows, found.tracks, times, equation)
+        return rows, {**extra, "reason": _join(reason, note)}
     rows = []
     for rec in found.table.to_dict("records"):
         row: dict[str, Any] = {"run_id": int(spec.run_id)}
@@ -365,7 +368,66 @@ def _collision_rows(
     if len(rows) == len(solitons):  # numbered left to right at the start, as the input
         for row, given in zip(rows, solitons, strict=True):
             row["x0"] = given["x0"]
+    note = _end_values(rows, found.tracks, times, equation)
+    if note:
+        extra["reason"] = _join(str(extra.get("reason") or ""), note)
     return rows, extra
+
+
+#: Share of the record's frames (at least 3) over which the end-of-run values are fitted.
+END_WINDOW = 0.1
+
+
+def _join(*notes: str) -> str:
+    """Non-empty one-line notes joined by ``"; "``."""
+    return "; ".join(n for n in notes if n)
+
+
+def _end_values(
+    rows: list[dict[str, Any]], tracks: Any, times: np.ndarray, equation: Equation
+) -> str:
+    """``amplitude_end`` and ``speed_end`` (measured at the last frame) and ``amplitude_predicted``
+    and ``speed_predicted`` (:func:`kdvsweep.theory.predicted_soliton` at the same time) on each
+    row, in place; returns why the predictions are NaN (empty when they are not).
+
+    Measured: quadratic fits to the tracked peak heights ``|u|`` and unwrapped positions over the
+    last :data:`END_WINDOW` of the frames (at least 3), valued (heights) and differentiated
+    (positions) at the last frame; NaN unless every frame of that window has the solitons apart.
+    """
+    t_end = float(times[-1])
+    m = int(times.size)
+    k = min(m, max(3, math.ceil(END_WINDOW * m)))
+    window = slice(m - k, m)
+    usable = (
+        tracks is not None
+        and not tracks.reason
+        and tracks.times.size == m
+        and k >= 3
+        and bool(np.all(tracks.separated[window]))
+    )
+    reasons = []
+    for row in rows:
+        i = int(row.get("soliton", -1))
+        amp = speed = math.nan
+        if usable and 0 <= i < tracks.n_solitons:
+            t = tracks.times[window] - t_end
+            h = np.abs(tracks.height[window, i])
+            x = tracks.position[window, i]
+            if np.all(np.isfinite(h)) and np.all(np.isfinite(x)):
+                amp = float(np.polyval(np.polyfit(t, h, 2), 0.0))
+                speed = float(np.polyfit(t, x, 2)[1])  # d/dt at t = t_end (t shifted to 0 there)
+        row["amplitude_end"], row["speed_end"] = amp, speed
+        kappa, sign = row.get("kappa"), row.get("sign")
+        if kappa is None or not math.isfinite(float(kappa)):
+            pred_a, pred_c, why = math.nan, math.nan, "no kappa given"
+        else:
+            pred_a, pred_c, why = theory.predicted_soliton(
+                float(kappa), t_end, equation, None if sign is None else int(sign)
+            )
+        row["amplitude_predicted"], row["speed_predicted"] = pred_a, pred_c
+        if why and why not in reasons:
+            reasons.append(why)
+    return _join(*reasons)
 
 
 def _predicted_content(
@@ -678,6 +740,8 @@ def execute(
         else:
             solitons, extra = _content_rows(spec, frames, times, grid, equation, predicted, u0)
         row["analysis_time"] = time.perf_counter() - analysing
+        if row.get("reason") and extra.get("reason"):  # keep an earlier note (IST) beside it
+            extra["reason"] = _join(str(row["reason"]), str(extra["reason"]))
         row.update(extra)
         kept, kept_times = None, None
         if run.store_frames:
