@@ -67,7 +67,7 @@ PROTON_MASS_U = 1.007276466621  # proton mass in atomic mass units
 STANDARD_GRAVITY = 9.80665  # m/s^2 (standard gravity, a defined value)
 
 #: The dimensions of physical columns and quantities: how each converts (see :func:`to_physical`).
-DIMENSIONS = ("height", "length", "time", "speed", "wavenumber")
+DIMENSIONS = ("height", "length", "time", "speed", "speed_difference", "wavenumber", "frequency")
 
 
 class ParameterError(ConfigError):
@@ -220,7 +220,8 @@ def physical_equation(equation: Equation, scales: Scales) -> PhysicalEquation:
 def to_physical(value: float, dimension: str, scales: Scales) -> float:
     """A canonical quantity in laboratory units: ``height`` times U, ``length`` (a length at one
     time: box, width, shift, position at t = 0) times X, ``time`` times T, ``speed`` as
-    ``c0 + V X / T`` (the laboratory speed), ``wavenumber`` over X."""
+    ``c0 + V X / T`` (the laboratory speed), ``speed_difference`` (an uncertainty, a change) times
+    ``X / T``, ``wavenumber`` over X, ``frequency`` over T."""
     if dimension == "height":
         return value * scales.height
     if dimension == "length":
@@ -229,8 +230,12 @@ def to_physical(value: float, dimension: str, scales: Scales) -> float:
         return value * scales.time
     if dimension == "speed":
         return scales.c0 + value * scales.length / scales.time
+    if dimension == "speed_difference":
+        return value * scales.length / scales.time
     if dimension == "wavenumber":
         return value / scales.length
+    if dimension == "frequency":
+        return value / scales.time
     raise ConfigError(f"units: dimension {dimension!r}; expected one of {', '.join(DIMENSIONS)}")
 
 
@@ -244,8 +249,12 @@ def to_canonical(value: float, dimension: str, scales: Scales) -> float:
         return value / scales.time
     if dimension == "speed":
         return (value - scales.c0) * scales.time / scales.length
+    if dimension == "speed_difference":
+        return value * scales.time / scales.length
     if dimension == "wavenumber":
         return value * scales.length
+    if dimension == "frequency":
+        return value * scales.time
     raise ConfigError(f"units: dimension {dimension!r}; expected one of {', '.join(DIMENSIONS)}")
 
 
@@ -541,6 +550,7 @@ RUN_QUANTITIES: tuple[tuple[str, str, str, str], ...] = (
     ("phys_dt", "dt", "time", "time step, T dt"),
     ("phys_t_end", "t_end", "time", "end time of the run, T t_end"),
     ("phys_max_abs_u", "max_abs_u", "height", "largest height of the final state, U max_abs_u"),
+    ("phys_t_closest", "t_closest", "time", "time of a pair's closest approach, T t_closest"),
     ("phys_c0", "", "speed", "linear long-wave speed c0: the run's frame moves at it"),
     ("phys_height_scale", "", "height", "U: a canonical height u is U u"),
     ("phys_length_scale", "", "length", "X: a canonical length x is X x (x - c0 t in the lab)"),
@@ -552,6 +562,25 @@ SOLITON_QUANTITIES: tuple[tuple[str, str, str, str], ...] = (
     ("phys_amplitude", "amplitude", "height", "peak height, U amplitude"),
     ("phys_speed", "speed", "speed", "laboratory speed, c0 + speed X / T"),
     ("phys_kappa", "kappa", "wavenumber", "kappa per unit length, kappa / X"),
+    ("phys_kappa_measured", "kappa_measured", "wavenumber", "measured kappa, kappa_measured / X"),
+    ("phys_speed_before", "speed_before", "speed", "laboratory speed before the collisions"),
+    ("phys_speed_after", "speed_after", "speed", "laboratory speed after the collisions"),
+    ("phys_amplitude_end", "amplitude_end", "height", "peak height at the end, U amplitude_end"),
+    ("phys_speed_end", "speed_end", "speed", "laboratory speed at the end (speed_end)"),
+    (
+        "phys_amplitude_predicted",
+        "amplitude_predicted",
+        "height",
+        "predicted peak height at the end, U amplitude_predicted",
+    ),
+    (
+        "phys_speed_predicted",
+        "speed_predicted",
+        "speed",
+        "predicted laboratory speed at the end (speed_predicted)",
+    ),
+    ("phys_offset_before", "offset_before", "length", "x^- in the run's frame, X offset_before"),
+    ("phys_offset_after", "offset_after", "length", "x^+ in the run's frame, X offset_after"),
     ("phys_x0", "x0", "length", "centre at t = 0, X x0"),
     (
         "phys_shift_predicted",
@@ -572,6 +601,20 @@ SOLITON_QUANTITIES: tuple[tuple[str, str, str, str], ...] = (
 CONTENT_SOLITON_QUANTITIES: tuple[tuple[str, str, str, str], ...] = (
     ("phys_amplitude_ist", "amplitude_ist", "height", "predicted peak height, U amplitude_ist"),
     ("phys_speed_ist", "speed_ist", "speed", "predicted laboratory speed, c0 + speed_ist X / T"),
+    (
+        "phys_amplitude_uncertainty",
+        "amplitude_uncertainty",
+        "height",
+        "error estimate of the amplitude, U amplitude_uncertainty",
+    ),
+    (
+        "phys_speed_uncertainty",
+        "speed_uncertainty",
+        "speed_difference",
+        "error estimate of the speed, X / T speed_uncertainty",
+    ),
+    ("phys_t_separated", "t_separated", "time", "time it stands clear, T t_separated"),
+    ("phys_frequency", "frequency", "frequency", "breather: frequency / T"),
 )
 
 
