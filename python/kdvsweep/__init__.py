@@ -1,7 +1,8 @@
 """kdvsweep: parameter sweeps of soliton interactions in the KdV family.
 
 A Rust pseudo-spectral core stepped from Python; see the README for the job and the quick start.
-The submodules (``analysis``, ``exact``, ``initial``, ``spectrum``, ``sweep``, ``theory``) and
+The submodules (``analysis``, ``exact``, ``initial``, ``spectrum``, ``sweep``, ``theory``,
+``units``) and
 ``load``/``Results`` are imported on first use, so ``import kdvsweep`` (and the command line) does
 not pay for pandas, scipy or dask until they are needed.
 """
@@ -26,7 +27,7 @@ from .model import Equation, Grid
 from .simulation import SCHEMES, SetupWarning, Simulation, invariants
 
 if TYPE_CHECKING:  # the names the lazy loader below gives, for type checkers
-    from . import analysis, exact, initial, spectrum, sweep, theory
+    from . import analysis, exact, initial, spectrum, sweep, theory, units
     from .results import Results, load
 
 __version__ = importlib.metadata.version("kdvsweep")
@@ -39,6 +40,7 @@ _LAZY: dict[str, tuple[str, str | None]] = {
     "spectrum": (".spectrum", None),
     "sweep": (".sweep", None),
     "theory": (".theory", None),
+    "units": (".units", None),
     "Results": (".results", "Results"),
     "load": (".results", "load"),
 }
@@ -84,4 +86,5 @@ __all__ = [
     "spectrum",
     "sweep",
     "theory",
+    "units",
 ]
