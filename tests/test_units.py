@@ -350,6 +350,14 @@ def test_units_errors_name_the_key(tmp_path: Path) -> None:
         )
     with pytest.raises(ConfigError, match=r"initial\.speed\[0\]: .*above the linear long-wave"):
         _sweep(tmp_path, table, "speed = [3.0]")  # c0 = 3.13 m/s
+    path = tmp_path / "kind.toml"
+    path.write_text(
+        f"[units]\n{table}\n\n[model]\npoints = 256\nlength = 40\ndt = 0.01\n\n[initial]\n"
+        "kind = 'breather'\neta = 0.5\nxi = 0.2\n\n[run]\nend = 1\nframe_every = 1\n",
+        encoding="utf-8",
+    )
+    with pytest.raises(ConfigError, match=r"initial\.kind: given 'breather', expected one of"):
+        load_sweep(path)
     # the equation comes from the system: a contradicting coefficient names its key
     contradicting = edit_model(tmp_path, "equation = { a = 6, d = 2 }")
     with pytest.raises(ConfigError, match=r"model\.equation\.d: given 2 in run 0, expected d = 1"):
@@ -362,6 +370,25 @@ def test_units_errors_name_the_key(tmp_path: Path) -> None:
     s = load_sweep(edit_model(tmp_path, "equation = { preset = 'kdv', g = 1e-3 }"))
     assert s.runs[0].model.equation.g == 1e-3
     assert s.runs[0].model.equation.a == 6.0
+
+
+def test_initial_sizes_in_physical_units(tmp_path: Path) -> None:
+    # amplitude (metres), kappa (per metre), laboratory speed (m/s) and position (metres) of the
+    # same solitary wave give the same canonical soliton (the maps of kdvsweep.units)
+    h = 2.0
+    s = units.ShallowWater(depth=h)
+    sc = s.scales()
+    kappa = 0.3  # canonical
+    form = s.equation().soliton_form
+    amp = units.to_physical(form.amplitude(kappa), "height", sc)
+    speed = units.to_physical(form.speed(kappa), "speed", sc)
+    table = f"system = 'shallow-water'\ndepth = {h}"
+    for i, initial in enumerate(
+        (f"amplitude = [{amp!r}]", f"kappa = [{kappa / h!r}]", f"speed = [{speed!r}]")
+    ):
+        spec = _sweep(tmp_path, table, initial + "\nposition = [-20.0]", name=f"s{i}").runs[0]
+        assert math.isclose(spec.initial.kappa[0], kappa, rel_tol=1e-11), initial
+        assert spec.initial.x0 == (-10.0,)  # metres over X = h
 
 
 def edit_model(tmp_path: Path, line: str) -> Path:
