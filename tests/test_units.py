@@ -171,6 +171,8 @@ def test_parameters_out_of_range_name_the_key() -> None:
         )
     with pytest.raises(ConfigError, match=r"expected one of shallow-water"):
         units.system_class("deep-water")
+    with pytest.raises(ConfigError, match=r"depth = 1e-200, .* not finite positive numbers"):
+        units.make_system("shallow-water", {"depth": 1e-200})  # beta underflows to 0
 
 
 def test_run_axes_from_a_runs_row() -> None:

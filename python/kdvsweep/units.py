@@ -32,9 +32,9 @@ Systems (``[units] system = ...`` in a sweep file; README, "Physical units"):
 - ``"ion-acoustic-plasma"`` (:class:`IonAcousticPlasma`): ion-acoustic waves in a plasma of cold
   ions and Boltzmann electrons (Washimi & Taniuti 1966).
 
-Formulas and citations marked [memory] were written from memory of the published papers and
-textbooks, not copied from them; the tests check the consequences (speed, width, polarity) by
-simulation.
+Every formula, constant and citation in this module was written from memory of the published
+papers and textbooks [memory], not copied from them; the tests check the consequences (speed,
+width, polarity) by simulation.
 
 **Caution.** These are idealised model runs, not forecasts: results in physical water-wave units
 must not be used for coastal, tsunami or any other hazard assessment, engineering design or safety
@@ -45,14 +45,14 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping
-from dataclasses import dataclass, fields
+from dataclasses import astuple, dataclass, fields
 from typing import Any, ClassVar
 
 from .exceptions import ConfigError
 from .model import Equation
 
-#: The hazard caution repeated wherever physical water-wave units appear (README, examples, the
-#: warnings of a sweep with a water-wave system).
+#: The hazard caution repeated wherever physical water-wave units appear (README, the example
+#: sweeps, and the Parquet field metadata ``caution`` of a water-wave store's ``phys_*`` columns).
 CAUTION = (
     "idealised model runs, not forecasts: do not use them for coastal, tsunami or any other hazard "
     "assessment, engineering design or safety decisions; defer to qualified practitioners and "
@@ -531,7 +531,20 @@ def make_system(name: str, values: Mapping[str, float]) -> System:
             f"units: unknown key {unknown[0]!r} for system {name!r}; expected one of "
             f"{', '.join(p.key for p in cls.PARAMETERS)}"
         )
-    return cls(**values)
+    system = cls(**values)
+    try:  # parameters so extreme that a scale under- or overflows float64
+        scales = system.scales()
+        system.equation()
+        ok = all(math.isfinite(v) and v > 0 for v in (*astuple(scales),))
+    except (ArithmeticError, ValueError, ConfigError):
+        ok = False
+    if not ok:
+        shown = ", ".join(f"{k} = {v:.3g}" for k, v in system.plain().items() if k != "system")
+        raise ConfigError(
+            f"units: {shown} give scales or coefficients that are not finite positive numbers "
+            "in float64; expected parameters of a physical size"
+        )
+    return system
 
 
 def from_plain(data: Mapping[str, Any]) -> System:
