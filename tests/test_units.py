@@ -444,9 +444,14 @@ def test_store_keeps_units_in_the_field_metadata(tmp_path: Path) -> None:
     assert sol.field("phys_amplitude").metadata == {b"unit": b"V"}
     res = load(out)
     assert res.solitons["phys_amplitude"].tolist() == pytest.approx([0.4, 0.08], rel=1e-6)
-    axes = units.run_axes(manifest["layout"]["units"], res.runs.iloc[0])
+    axes = units.axes_for_run(res.manifest, res.runs, 0)
     assert axes is not None
     assert axes["u"].label == "phi: electrostatic potential (V)"
+    assert axes["x"].scale == res.runs["phys_length_scale"].iloc[0]
+    assert units.axes_for_run(res.manifest, res.runs, 7) is None
+    assert units.column_label(res.manifest, "phys_shift_measured") == "phys_shift_measured (m)"
+    assert units.column_label(res.manifest, "shift_measured") == "shift_measured"
+    assert units.store_system({"layout": {"parameters": {}}}) is None
     # the water-wave systems carry the hazard caution with their columns
     layout = Layout({}, analysis=True, content=False, units="shallow-water")
     assert layout.schema("solitons").field("phys_speed").metadata[b"caution"] == (

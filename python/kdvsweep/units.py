@@ -732,6 +732,35 @@ def run_axes(system_name: str | None, row: Mapping[str, Any]) -> dict[str, AxisS
     }
 
 
+def store_system(manifest: Mapping[str, Any]) -> str | None:
+    """The ``[units]`` system of a store (``Results.manifest``), or ``None`` without units."""
+    layout = manifest.get("layout")
+    name = layout.get("units") if isinstance(layout, Mapping) else None
+    return name if isinstance(name, str) and name in SYSTEMS else None
+
+
+def axes_for_run(
+    manifest: Mapping[str, Any], runs: Any, run_id: int
+) -> dict[str, AxisScale] | None:
+    """:func:`run_axes` of run ``run_id`` of a store: ``manifest`` and ``runs`` are
+    ``Results.manifest`` and ``Results.runs`` (a DataFrame); ``None`` without units or without
+    that run."""
+    name = store_system(manifest)
+    if name is None:
+        return None
+    rows = runs[runs["run_id"] == run_id]
+    return run_axes(name, rows.iloc[0]) if len(rows) == 1 else None
+
+
+def column_label(manifest: Mapping[str, Any], column: str) -> str:
+    """An axis label for a column of a store's tables: ``phys_speed (m/s)`` for a physical
+    column of a store with units, the column's name otherwise."""
+    name = store_system(manifest)
+    if name is None or not column.startswith("phys_"):
+        return column
+    return f"{column} ({column_unit(name, column)})"
+
+
 __all__ = [
     "CAUTION",
     "DIMENSIONS",
@@ -746,6 +775,8 @@ __all__ = [
     "ShallowWater",
     "System",
     "TwoLayerInterface",
+    "axes_for_run",
+    "column_label",
     "column_unit",
     "convert_row",
     "from_plain",
@@ -754,6 +785,7 @@ __all__ = [
     "physical_equation",
     "run_axes",
     "run_columns",
+    "store_system",
     "system_class",
     "to_canonical",
     "to_physical",
