@@ -1,9 +1,10 @@
 """The ``kdvsweep`` command: every argument parser, printed line and progress bar of the package.
 
-Commands (one module each): ``run``, ``demo``, ``table``, ``status`` (:mod:`.sweeps`), ``plot``
-(:mod:`.plot`), ``spectrum`` (:mod:`.spectrum`) and ``bench`` (:mod:`.bench`). They call the
-library, which returns data; tables go to stdout, the progress bar and messages to stderr. An error
-of the user's input is one line, ``kdvsweep: error: ...``, and exit status 2.
+Commands (one module each): ``run``, ``demo``, ``table``, ``status`` (:mod:`.sweeps`), ``check``
+(:mod:`.check`), ``plot`` (:mod:`.plot`), ``spectrum`` (:mod:`.spectrum`) and ``bench``
+(:mod:`.bench`). They call the library, which returns data; tables go to stdout, the progress bar
+and messages to stderr. An error of the user's input is one line, ``kdvsweep: error: ...``, and
+exit status 2.
 """
 
 from __future__ import annotations
@@ -13,12 +14,12 @@ import sys
 from collections.abc import Sequence
 
 from ..exceptions import KdvsweepError
-from . import bench, plot, spectrum, sweeps
+from . import bench, check, plot, spectrum, sweeps
 from .common import PROG, say
 from .sweeps import demo_file
 
 #: The command modules, in the order of ``kdvsweep --help``.
-COMMANDS = (sweeps, plot, spectrum, bench)
+COMMANDS = (sweeps, check, plot, spectrum, bench)
 
 
 def build_parser() -> argparse.ArgumentParser:

@@ -1,12 +1,14 @@
-"""Sweeps: sweep files (``load_sweep``) and running them: ``run`` (a file into a store, on this
-machine, an existing dask cluster or batch jobs; what ``kdvsweep run`` calls) and ``run_sweep``
-(a loaded sweep on a dask client of your own)."""
+"""Sweeps: sweep files (``load_sweep``), their plan before they run (``make_plan``: runs, sizes,
+steps, memory, estimated core-seconds; what ``kdvsweep check`` prints) and running them: ``run``
+(a file into a store, on this machine, an existing dask cluster or batch jobs; what ``kdvsweep
+run`` calls) and ``run_sweep`` (a loaded sweep on a dask client of your own)."""
 
 from typing import Any
 
 from .config import RunSpec, Sweep, load_sweep
+from .plan import Plan, make_plan
 
-__all__ = ["RunSpec", "Sweep", "load_sweep", "run", "run_sweep"]
+__all__ = ["Plan", "RunSpec", "Sweep", "load_sweep", "make_plan", "run", "run_sweep"]
 
 
 def __getattr__(name: str) -> Any:
