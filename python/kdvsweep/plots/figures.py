@@ -7,7 +7,9 @@
 * :func:`shift_comparison`: measured against predicted shift over a sweep, with the identity line;
 * :func:`relative_error`: relative shift error against a swept parameter;
 * :func:`content_comparison`: measured against predicted amplitude and speed of the solitons and
-  breathers that emerge from profile data, with the identity line and a residual panel.
+  breathers that emerge from profile data, with the identity line and a residual panel;
+* :func:`adiabatic_decay`: measured against adiabatic end-of-run amplitude of solitons under
+  damping or viscosity, and the deviation against the perturbation.
 
 Figures are built on :class:`matplotlib.figure.Figure` directly (no pyplot state), so plotting is
 safe from worker threads and never opens a window. :func:`save` writes PNG and PDF.
@@ -378,6 +380,8 @@ _LINES = ("-", "--", ":", "-.")
 #: Axis labels with their symbols (mathtext).
 PREDICTED_LABEL = r"predicted phase shift $\Delta x_{\mathrm{theory}}$"
 MEASURED_LABEL = r"measured phase shift $\Delta x_{\mathrm{meas}}$"
+#: The horizontal axis when perturbed runs are drawn: the pair formula of the integrable equation.
+INTEGRABLE_LABEL = r"integrable phase shift $\Delta x_{\mathrm{theory}}$ (pair formula)"
 RELATIVE_LABEL = (
     r"relative error $|\Delta x_{\mathrm{meas}} - \Delta x_{\mathrm{theory}}|"
     r"\,/\,|\Delta x_{\mathrm{theory}}|$"
@@ -417,7 +421,10 @@ def _groups(df: pd.DataFrame, by: Sequence[str]) -> list[tuple[str, pd.DataFrame
 
 
 def shift_comparison(
-    solitons: pd.DataFrame, group_by: Sequence[str] = (), residuals: bool = True
+    solitons: pd.DataFrame,
+    group_by: Sequence[str] = (),
+    residuals: bool = True,
+    color_by: str | None = None,
 ) -> Figure:
     """Measured against predicted phase shift, one marker per soliton of each run.
 
@@ -436,13 +443,23 @@ def shift_comparison(
         Add a row below with the relative error on a log scale (on the identity line alone,
         errors of 1e-6 are invisible), and there the relative uncertainty of each measurement as a
         grey bar: an error below its bar is within the resolution of the measurement.
+    color_by
+        A numeric column (a perturbation sweep's ``g``, say) to colour the points by, in both rows,
+        with a colour bar; groups then differ by panel only. ``shift_predicted`` is then read as
+        the integrable pair formula's value, which the perturbed shifts tend to.
 
     Returns
     -------
     matplotlib.figure.Figure
-        The first axes hold the first group's comparison (one errorbar container per soliton).
+        The first axes hold the first group's comparison (one errorbar container per soliton; one
+        scattered collection per soliton with ``color_by``).
     """
+    if color_by is not None and color_by not in solitons.columns:
+        raise ConfigError(
+            f"shift_comparison: no column {color_by!r}; expected one of {list(solitons.columns)}"
+        )
     df = _with_errors(solitons.dropna(subset=["shift_predicted", "shift_measured"]))
+    norm = color_norm(df[color_by]) if color_by is not None and len(df) else None
     groups = _groups(df, group_by)
     panels = len(groups) if len(groups) <= MAX_PANELS else 1
     fig = _figure(max(6.5, 4.2 * panels + 1.0), 7.5 if residuals else 6.0)
@@ -474,6 +491,23 @@ def shift_comparison(
             if sub.empty:
                 continue
             marker = _MARKERS[int(s) % len(_MARKERS)]
+            if norm is not None:
+                assert color_by is not None
+                ax.scatter(
+                    sub["shift_predicted"],
+                    sub["shift_measured"],
+                    c=sub[color_by],
+                    cmap=COLOR_MAP,
+                    norm=norm,
+                    marker=marker,
+                    s=60,
+                    edgecolors="0.15",
+                    linewidths=0.7,
+                    zorder=2 + g,
+                )
+                if low is not None:
+                    _residuals(low, sub, marker, color, (color_by, norm))
+                continue
             ax.errorbar(
                 sub["shift_predicted"],
                 sub["shift_measured"],
@@ -511,8 +545,9 @@ def shift_comparison(
             labels.append(f"soliton {s}")
     tops[0].legend(handles, labels, loc="upper left", fontsize=10)
     bottom = lows if residuals else tops
+    predicted = PREDICTED_LABEL if norm is None else INTEGRABLE_LABEL
     for ax in bottom:
-        ax.set_xlabel(PREDICTED_LABEL if panels == 1 else r"$\Delta x_{\mathrm{theory}}$")
+        ax.set_xlabel(predicted if panels == 1 else r"$\Delta x_{\mathrm{theory}}$")
     if residuals:
         lows[0].set_ylabel("relative error")
         for low in lows:
@@ -524,24 +559,49 @@ def shift_comparison(
             )
             lows[0].legend(loc="best", fontsize=9)
     if panels > 1:
-        fig.supxlabel(PREDICTED_LABEL, fontsize=14)
+        fig.supxlabel(predicted, fontsize=14)
+    if norm is not None:
+        fig.colorbar(
+            _mappable(norm), ax=list(grid.ravel()), label=color_by, pad=0.015, fraction=0.05
+        )
     return fig
 
 
-def _residuals(low: Axes, sub: pd.DataFrame, marker: str, color: str) -> None:
-    """Relative errors, and beside them the relative uncertainty of the measurement (grey)."""
+def _residuals(
+    low: Axes,
+    sub: pd.DataFrame,
+    marker: str,
+    color: str,
+    colored: tuple[str, mcolors.Normalize] | None = None,
+) -> None:
+    """Relative errors, and beside them the relative uncertainty of the measurement (grey);
+    ``colored`` = (column, norm) colours the errors by that column."""
     keep = sub["shift_rel_error"] > 0
-    low.plot(
-        sub["shift_predicted"][keep],
-        sub["shift_rel_error"][keep],
-        ls="none",
-        marker=marker,
-        ms=6,
-        mfc="none",
-        mew=1.4,
-        color=color,
-        zorder=3,
-    )
+    if colored is not None:
+        low.scatter(
+            sub["shift_predicted"][keep],
+            sub["shift_rel_error"][keep],
+            c=sub[colored[0]][keep],
+            cmap=COLOR_MAP,
+            norm=colored[1],
+            marker=marker,
+            s=40,
+            edgecolors="0.15",
+            linewidths=0.6,
+            zorder=3,
+        )
+    else:
+        low.plot(
+            sub["shift_predicted"][keep],
+            sub["shift_rel_error"][keep],
+            ls="none",
+            marker=marker,
+            ms=6,
+            mfc="none",
+            mew=1.4,
+            color=color,
+            zorder=3,
+        )
     if "shift_uncertainty" in sub:
         rel = sub["shift_uncertainty"].abs() / sub["shift_predicted"].abs()
         ok = np.isfinite(rel) & (rel > 0)
@@ -607,7 +667,7 @@ def relative_error(
         fig = ax.get_figure()  # type: ignore[assignment]
     norm = None
     if color_by is not None and len(df):
-        norm = mcolors.Normalize(float(df[color_by].min()), float(df[color_by].max()))
+        norm = color_norm(df[color_by])
     groups = _groups(df, group_by)
     joined: set[int] = set()  # solitons drawn as curves somewhere
     for g, (_, part) in enumerate(groups):
@@ -633,7 +693,7 @@ def relative_error(
                     sol[parameter],
                     sol["shift_rel_error"],
                     c=sol[color_by],
-                    cmap="viridis",
+                    cmap=COLOR_MAP,
                     norm=norm,
                     marker=marker,
                     s=42,
@@ -844,11 +904,181 @@ def content_comparison(
     return fig
 
 
+DECAY_MEASURED_LABEL = r"measured amplitude at the end $|u|_{\mathrm{end}}$"
+DECAY_PREDICTED_LABEL = r"adiabatic amplitude at the end $|u|_{\mathrm{theory}}$"
+
+
+def adiabatic_decay(
+    solitons: pd.DataFrame,
+    parameter: str | None = None,
+    color_by: str | None = None,
+    title: str = "",
+) -> Figure:
+    """Measured against predicted end-of-run amplitude of decaying solitons, and the deviation.
+
+    Left: ``amplitude_end`` against ``amplitude_predicted`` (the adiabatic law at the last frame,
+    :func:`kdvsweep.theory.adiabatic_kappa`) with the identity line, and the starting amplitude of
+    each soliton as a faint cross, so the decay and its agreement with the law show together.
+    Right: the relative deviation ``|end / predicted - 1|`` against ``parameter`` (the perturbation
+    strength, log-log, with a dotted slope-1 guide: the adiabatic law is exact to first order, so
+    its error should fall like the perturbation), or against the predicted amplitude when no
+    parameter is given. Filled markers: measured above the law; open: below.
+
+    Parameters
+    ----------
+    solitons
+        Columns ``amplitude_end``, ``amplitude_predicted`` (optionally ``soliton`` for the marker,
+        ``amplitude_start`` for the crosses, and the columns ``parameter`` and ``color_by``).
+    parameter
+        The horizontal axis of the deviation panel (values <= 0 are not drawn on its log axis).
+    color_by
+        A numeric column to colour the points by, with a colour bar.
+    title
+        The figure's title.
+    """
+    for name in (parameter, color_by):
+        if name is not None and name not in solitons.columns:
+            raise ConfigError(
+                f"adiabatic_decay: no column {name!r}; expected one of {list(solitons.columns)}"
+            )
+    df = solitons.dropna(subset=["amplitude_end", "amplitude_predicted"])
+    df = df[df["amplitude_predicted"] > 0].copy()
+    df["deviation"] = df["amplitude_end"] / df["amplitude_predicted"] - 1.0
+    norm = color_norm(df[color_by]) if color_by is not None and len(df) else None
+    fig = _figure(12.5, 5.6)
+    left, right = fig.subplots(1, 2, gridspec_kw={"width_ratios": (1.0, 1.1)})
+    values = [df["amplitude_end"], df["amplitude_predicted"]]
+    if "amplitude_start" in df:
+        values.append(df["amplitude_start"])
+    both = np.concatenate([np.asarray(v, dtype=float) for v in values]) if len(df) else np.ones(1)
+    lo, hi = float(np.nanmin(both)), float(np.nanmax(both))
+    pad = 0.06 * (hi - lo or hi or 1.0)
+    ends = [max(0.0, lo - pad), hi + pad]
+    left.plot(ends, ends, color="0.5", lw=1.2, zorder=1, label="measured = predicted")
+    seen = sorted(int(v) for v in df["soliton"].unique()) if "soliton" in df else [0]
+    x_right = parameter or "amplitude_predicted"
+    for s in seen:
+        sub = df[df["soliton"] == s] if "soliton" in df else df
+        marker = _MARKERS[s % len(_MARKERS)]
+        color = SOLITON_COLORS[s % len(SOLITON_COLORS)]
+        kw: dict[str, Any] = (
+            {"c": sub[color_by], "cmap": COLOR_MAP, "norm": norm}
+            if norm is not None and color_by is not None
+            else {"color": color}
+        )
+        left.scatter(
+            sub["amplitude_predicted"],
+            sub["amplitude_end"],
+            marker=marker,
+            s=60,
+            edgecolors="0.15",
+            linewidths=0.7,
+            zorder=3,
+            **kw,
+        )
+        if "amplitude_start" in sub:
+            left.plot(
+                sub["amplitude_start"],
+                sub["amplitude_start"],
+                ls="none",
+                marker="x",
+                ms=7,
+                color="0.55",
+                zorder=2,
+            )
+        pts = sub[(sub[x_right] > 0) & (sub["deviation"] != 0)]
+        above = pts["deviation"] > 0
+        for part, filled in ((pts[above], True), (pts[~above], False)):
+            if part.empty:
+                continue
+            pkw: dict[str, Any] = (
+                {"c": part[color_by], "cmap": COLOR_MAP, "norm": norm}
+                if norm is not None and color_by is not None
+                else {"color": color}
+            )
+            if not filled:  # open marker: edge in the point's colour
+                pkw = {"facecolors": "none"}
+                pkw["edgecolors"] = (
+                    _mappable(norm).to_rgba(part[color_by])
+                    if norm is not None and color_by is not None
+                    else color
+                )
+            right.scatter(
+                part[x_right],
+                part["deviation"].abs(),
+                marker=marker,
+                s=60,
+                linewidths=1.4 if not filled else 0.7,
+                zorder=3,
+                **({"edgecolors": "0.15"} | pkw),
+            )
+    left.set_xlim(*ends)
+    left.set_ylim(*ends)
+    left.set_xlabel(DECAY_PREDICTED_LABEL)
+    left.set_ylabel(DECAY_MEASURED_LABEL)
+    left.grid(alpha=0.3)
+    handles, labels = left.get_legend_handles_labels()
+    if "amplitude_start" in df:
+        handles += left.plot([], [], ls="none", marker="x", ms=7, color="0.55")
+        labels.append("at the start")
+    for s in seen if len(seen) > 1 else []:
+        handles += left.plot(
+            [], [], ls="none", marker=_MARKERS[s % len(_MARKERS)], mfc="none", color="0.3"
+        )
+        labels.append(f"soliton {s}")
+    left.legend(handles, labels, loc="upper left", fontsize=10)
+    right.set_ylabel(r"relative deviation $|\,|u|_{\mathrm{end}} / |u|_{\mathrm{theory}} - 1|$")
+    right.set_yscale("log")
+    right.grid(alpha=0.3, which="both")
+    if parameter is not None:
+        right.set_xscale("log")
+        right.set_xlabel(parameter)
+        pts = df[(df[parameter] > 0) & (df["deviation"] != 0)]
+        if len(pts) >= 2 and pts[parameter].nunique() >= 2:
+            xs = np.geomspace(float(pts[parameter].min()), float(pts[parameter].max()), 2)
+            ref = float(np.exp(np.mean(np.log(pts["deviation"].abs() / pts[parameter]))))
+            right.plot(xs, ref * xs, ls=":", color="0.4", lw=1.5, label="slope 1 (first order)")
+            right.legend(loc="upper left", fontsize=10)
+    else:
+        right.set_xlabel(DECAY_PREDICTED_LABEL)
+    right.plot([], [], ls="none", marker="o", color="0.3", label="above the law")
+    right.plot([], [], ls="none", marker="o", mfc="none", color="0.3", label="below the law")
+    right.legend(loc="best", fontsize=10)
+    if norm is not None:
+        fig.colorbar(_mappable(norm), ax=[left, right], label=color_by, pad=0.015, fraction=0.04)
+    if title:
+        fig.suptitle(title)
+    return fig
+
+
 def _mappable(norm: mcolors.Normalize) -> Any:
-    """A colour-bar source for points coloured with ``viridis`` under ``norm``."""
+    """A colour-bar source for points coloured with :data:`COLOR_MAP` under ``norm``."""
     from matplotlib.cm import ScalarMappable
 
-    return ScalarMappable(norm=norm, cmap="viridis")
+    return ScalarMappable(norm=norm, cmap=COLOR_MAP)
+
+
+#: The colour map of points coloured by a parameter.
+COLOR_MAP = "viridis"
+
+
+def color_norm(values: Any) -> mcolors.Normalize:
+    """The colour scale of a parameter's values: logarithmic when they are positive and span a
+    decade or more (a perturbation swept as 1e-3, 3e-3, 1e-2), symmetric-logarithmic when such
+    values come with zero (an unperturbed run beside them), else linear."""
+    v = np.asarray(values, dtype=np.float64)
+    v = v[np.isfinite(v)]
+    if v.size == 0:
+        return mcolors.Normalize(0.0, 1.0)
+    lo, hi = float(v.min()), float(v.max())
+    positive = v[v > 0]
+    if lo > 0 and hi >= 10 * lo:
+        return mcolors.LogNorm(lo, hi)
+    if lo == 0 and positive.size >= 2 and hi >= 10 * float(positive.min()):
+        return mcolors.SymLogNorm(float(positive.min()), linscale=0.5, vmin=0.0, vmax=hi)
+    if lo == hi:
+        return mcolors.Normalize(lo - 0.5 * (abs(lo) or 1.0), hi + 0.5 * (abs(hi) or 1.0))
+    return mcolors.Normalize(lo, hi)
 
 
 def check_formats(formats: Sequence[str]) -> None:

@@ -23,6 +23,7 @@ from ..exceptions import ConfigError, KdvsweepError
 from ..model import Equation, Grid
 from .figures import (
     FORMATS,
+    adiabatic_decay,
     check_formats,
     content_comparison,
     figure_style,
@@ -156,6 +157,7 @@ def plan_figures(
             f"{', '.join(params) or 'none'}"
         )
     plans = _shift_plans(results, ok, params, parameter) if _collisions(results) else []
+    plans.append(_decay_plan(results, ok, params))
     if _content(results):
         plans.append(_content_plan(results, ok, params))
     for run_id in (
@@ -182,17 +184,12 @@ def _shift_plans(
     equations, missing = _equations(ok)
     if missing:
         return none_drawn(missing)
-    kept = [rid for rid, eq in equations.items() if eq.integrable]
-    left = [equations[rid] for rid in equations if rid not in set(kept)]
+    kept, why_not = _shift_runs(solitons, equations)
     notes: tuple[str, ...] = ()
-    if left:
-        why = (
-            "theory predicts phase shifts for unperturbed KdV and focusing mKdV only; "
-            f"{len(left)} run(s) have {_describe_equations(left)}"
-        )
+    if why_not:
         if not kept:
-            return none_drawn(why)
-        notes = (f"left out: {why}",)
+            return none_drawn("; ".join(why_not))
+        notes = tuple(f"left out: {why}" for why in why_not)
     measured = solitons[solitons["run_id"].isin(kept)].dropna(
         subset=["shift_predicted", "shift_measured"]
     )
@@ -201,16 +198,129 @@ def _shift_plans(
             "no run has measured shifts (see the reason column of `kdvsweep table OUT --runs`)"
         )
     sub = ok[ok["run_id"].isin(kept)]
+    perturbation = perturbation_column(sub, params, {r: equations[r] for r in kept})
     plans = []
     for stem, kind, p in stems:
         series = tuple(_series_columns(sub, params, p if p else (axes[0] if axes else None)))
-        color_by = None
-        if p is not None:
+        if perturbation is not None:  # the colour tells the perturbation; panels stay for others
+            series = tuple(c for c in series if c != perturbation)
+        color_by = perturbation if perturbation != p else None
+        if p is not None and color_by is None:
             others = [q for q in _axis_parameters(sub, params) if q != p and q not in series]
             if others:
                 color_by = others[0]
         plans.append(FigurePlan(stem, kind, p, None, series, color_by, "", notes))
     return plans
+
+
+#: The coefficients of the perturbation terms (fifth-order dispersion, damping, viscosity).
+PERTURBATION_TERMS = ("f", "g", "v")
+
+
+def _shift_runs(
+    solitons: pd.DataFrame, equations: dict[int, Equation]
+) -> tuple[list[int], list[str]]:
+    """The runs of the shift figures, and why others are left out (one line each): runs whose
+    equation has no soliton form, and perturbed runs whose shifts were not measured against
+    reference runs (lines fitted before and after do not share a slope there)."""
+    formed = _with_form(equations)
+    nothing = [equations[r] for r in equations if r not in set(formed)]
+    reference = set()
+    if "shift_method" in solitons:
+        reference = set(solitons.loc[solitons["shift_method"] == "reference", "run_id"].tolist())
+    asymptotes = [r for r in formed if equations[r].perturbed and r not in reference]
+    kept = [r for r in formed if r not in set(asymptotes)]
+    notes = []
+    if nothing:
+        notes.append(
+            "phase shifts are predicted for KdV, focusing mKdV and Gardner solitons only; "
+            f"{len(nothing)} run(s) have {_describe_equations(nothing)}"
+        )
+    if asymptotes:
+        notes.append(
+            f"{len(asymptotes)} perturbed run(s) have no shift measured against reference runs "
+            f"({_describe_equations([equations[r] for r in asymptotes])})"
+        )
+    return kept, notes
+
+
+def _with_form(equations: dict[int, Equation]) -> list[int]:
+    """Runs whose equation has a soliton form (KdV, focusing mKdV, Gardner; perturbed or not)."""
+    return [rid for rid, eq in equations.items() if eq.soliton_form_or_none() is not None]
+
+
+def perturbation_column(
+    runs: pd.DataFrame, params: Sequence[str], equations: dict[int, Equation]
+) -> str | None:
+    """The column that tells a perturbation sweep's runs apart: the swept parameter equal to the
+    first of ``f, g, v`` that differs between the runs, else that coefficient's ``eq_<term>``
+    column; None when every run has the same ``f, g, v``."""
+    for term in PERTURBATION_TERMS:
+        values = {rid: getattr(eq, term) for rid, eq in equations.items()}
+        if len(set(values.values())) <= 1:
+            continue
+        rows = runs[runs["run_id"].isin(list(values))]
+        wanted = rows["run_id"].map(values).to_numpy(dtype=float)
+        for p in params:
+            if p in rows and pd.api.types.is_numeric_dtype(rows[p]):
+                if np.array_equal(rows[p].to_numpy(dtype=float), wanted):
+                    return p
+        return f"eq_{term}"
+    return None
+
+
+def _decay_plan(results: Results, ok: pd.DataFrame, params: Sequence[str]) -> FigurePlan:
+    """The adiabatic-decay figure: end-of-run amplitudes of damped or viscous solitons."""
+    stem = "adiabatic_decay"
+    sol = results.solitons
+    if not _collisions(results):
+        return FigurePlan(
+            stem,
+            stem,
+            reason="end-of-run amplitudes are measured for soliton initial data only; this "
+            "store's data are profiles or files (see content_comparison)",
+        )
+    if "amplitude_end" not in sol or "amplitude_predicted" not in sol:
+        return FigurePlan(
+            stem,
+            stem,
+            reason="the store has no amplitude_end column (written before end-of-run values were "
+            "measured); run the sweep again into a new folder",
+        )
+    equations, missing = _equations(ok)
+    if missing:
+        return FigurePlan(stem, stem, reason=missing)
+    decaying = [r for r, eq in equations.items() if eq.g != 0 or eq.v != 0]
+    if not decaying:
+        return FigurePlan(
+            stem,
+            stem,
+            reason="no run has damping or viscosity (g = v = 0 in every run): nothing decays",
+        )
+    kept = [r for r in _with_form(equations) if equations[r].f == 0]
+    rows = sol[sol["run_id"].isin(kept)].dropna(subset=["amplitude_end", "amplitude_predicted"])
+    rows = rows[rows["run_id"].isin(decaying)]
+    if rows.empty:
+        return FigurePlan(
+            stem,
+            stem,
+            reason="no damped or viscous soliton has both amplitude_end and amplitude_predicted "
+            "(see the reason column of `kdvsweep table OUT --runs`)",
+        )
+    notes = []
+    fifth = [r for r in decaying if equations[r].f != 0]
+    if fifth:
+        notes.append(f"left out: no adiabatic prediction with f != 0 ({len(fifth)} run(s))")
+    shown = sol[sol["run_id"].isin(kept)]
+    lacking = int(shown[["amplitude_end", "amplitude_predicted"]].isna().any(axis=1).sum())
+    if lacking:
+        notes.append(
+            f"{lacking} soliton(s) without an end amplitude or a prediction (not apart in the "
+            "last frames, or no prediction: see the runs' reason)"
+        )
+    decay_runs = {r: equations[r] for r in kept if r in set(decaying)}
+    perturbation = perturbation_column(ok, params, decay_runs)
+    return FigurePlan(stem, stem, parameter=perturbation, color_by=perturbation, notes=tuple(notes))
 
 
 def _layout(results: Results) -> dict[str, object]:
@@ -294,13 +404,47 @@ def _default_runs(runs: pd.DataFrame, series: Sequence[str]) -> list[int]:
     return [firsts[round(i)] for i in np.linspace(0, len(firsts) - 1, 4)]
 
 
-def _joined(results: Results) -> pd.DataFrame:
-    """Soliton rows of the ok runs with their runs' parameters."""
+def _joined(results: Results, *extra: str | None) -> pd.DataFrame:
+    """Soliton rows of the ok runs with their runs' parameters (and the runs' columns ``extra``,
+    e.g. ``eq_g``)."""
     params = results.parameters
     table = results.runs
     ok = table[table["status"] == "ok"] if "status" in table else table
-    keep = ["run_id", *(c for c in ok.columns if c in params or c == "equation")]
+    wanted = {c for c in extra if c and c not in results.solitons.columns}
+    keep = ["run_id", *(c for c in ok.columns if c in params or c == "equation" or c in wanted)]
     return results.solitons.merge(ok[list(dict.fromkeys(keep))], on="run_id", how="inner")
+
+
+def _decay_figure(
+    results: Results,
+    merged: pd.DataFrame,
+    plan: FigurePlan,
+    equations: dict[int, Equation],
+    notes: list[str],
+) -> Figure:
+    """The adiabatic-decay figure of the runs with damping or viscosity (and none with f)."""
+    keep = [r for r, eq in equations.items() if (eq.g != 0 or eq.v != 0) and eq.f == 0]
+    rows = merged[merged["run_id"].isin(keep)].copy()
+    rows["amplitude_start"] = [
+        _start_amplitude(equations[int(r)], k, sg)
+        for r, k, sg in zip(rows["run_id"], rows["kappa"], rows["sign"], strict=True)
+    ]
+    if plan.parameter is not None and (rows[plan.parameter] <= 0).any():
+        notes.append(f"runs with {plan.parameter} <= 0 are on the left panel only (log axis)")
+    count = rows["run_id"].nunique()
+    title = (
+        f"{results.manifest.get('sweep_name', '')}: amplitude at the end of {count} damped or "
+        "viscous run(s) against the adiabatic law"
+    )
+    return adiabatic_decay(rows, plan.parameter, plan.color_by, title=title)
+
+
+def _start_amplitude(eq: Equation, kappa: float, sign: float) -> float:
+    """The soliton's amplitude at t = 0 from its kappa (NaN when unknown)."""
+    try:
+        return float(eq.soliton_form.amplitude(float(kappa), int(sign)))
+    except (ConfigError, ValueError, TypeError):
+        return float("nan")
 
 
 def draw(results: Results, plan: FigurePlan) -> tuple[Figure, list[str]]:
@@ -329,11 +473,14 @@ def draw(results: Results, plan: FigurePlan) -> tuple[Figure, list[str]]:
     table = results.runs
     ok = table[table["status"] == "ok"] if "status" in table else table
     equations, _ = _equations(ok)
-    kept = [rid for rid, eq in equations.items() if eq.integrable]
-    merged = _joined(results)
+    merged = _joined(results, plan.color_by, plan.parameter)
+    if plan.kind == "adiabatic_decay":
+        merged = merged[merged["run_id"].isin(_with_form(equations))]
+        return _decay_figure(results, merged, plan, equations, notes), notes
+    kept, _ = _shift_runs(results.solitons, equations)
     merged = merged[merged["run_id"].isin(kept)]
     if plan.kind == "shift_comparison":
-        return shift_comparison(merged, plan.group_by), notes
+        return shift_comparison(merged, plan.group_by, color_by=plan.color_by), notes
     assert plan.parameter is not None
     fig = relative_error(merged, plan.parameter, plan.group_by, color_by=plan.color_by)
     return fig, notes
