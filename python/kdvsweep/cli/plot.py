@@ -18,7 +18,8 @@ def register(sub: Any) -> None:
         help="measured vs predicted shifts or soliton content, space-time diagrams",
         description="Figures of a sweep store: measured against predicted phase shifts and their "
         "relative error against a swept parameter (soliton initial data), or measured against "
-        "predicted amplitudes and speeds of the emerging solitons (profile data); space-time "
+        "predicted amplitudes and speeds of the emerging solitons (profile data); the end "
+        "amplitude of damped or viscous solitons against the adiabatic law; space-time "
         "diagrams of stored runs with every soliton followed. Each run's equation is read from "
         "the store. A figure that cannot be drawn is named with the reason.",
     )
