@@ -7,6 +7,7 @@ printed all the same), 2 for a mistake in the file (one line, as ``kdvsweep run`
 from __future__ import annotations
 
 import argparse
+import textwrap
 from pathlib import Path
 from typing import Any
 
@@ -122,7 +123,8 @@ def _check(args: argparse.Namespace) -> int:
         f"total   {_seconds(plan.total_seconds)} of one core for {plan.runs} runs{references}, "
         f"{plan.total_steps} steps; at most {_bytes(plan.peak_memory)} per run"
     )
-    print(f"        {plan.calibration.describe()}")
+    for line in textwrap.wrap(plan.calibration.describe(), 92):
+        print(f"        {line}")
     print(f"warnings {len(plan.warnings)}" + (" (above, on stderr)" if plan.warnings else ""))
     return 1 if plan.warnings else 0
 

@@ -362,14 +362,21 @@ def _speed(timings: dict[tuple[int, str], StepTiming]) -> float:
     return float(np.median(ratios)) if ratios else 1.0
 
 
-def _adaptive_steps(spec: RunSpec, budget: float) -> int:
+def _adaptive_steps(spec: RunSpec, budget: float, probes: dict[tuple[Any, ...], float]) -> int:
     """Steps the adaptive scheme would take over the run, from its mean step in a short probe of
-    the run's own initial data (at least one step per frame interval)."""
+    the run's own initial data (at least one step per frame interval). After
+    :data:`MAX_CALIBRATIONS` probes (``probes``: mean step by family and tolerance, updated) a run
+    takes the mean step of the probes of its family and tolerance."""
+    key = (spec.model.equation.family, spec.model.tol)
+    end = spec.run.t_end
+    floor = len(spec.run.record_times) - 1
+    if len(probes) >= MAX_CALIBRATIONS:
+        same = [h for k, h in probes.items() if k[:2] == key] or list(probes.values())
+        return max(math.ceil(end / float(np.mean(same))), floor)
     sim = _simulation(spec)
     sim.set_state(_profile(spec))
     clock = time.thread_time
     t0 = clock()
-    end = spec.run.t_end
     span = min(end, 64 * spec.model.dt)
     try:
         while clock() - t0 < budget and sim.time < end:
@@ -378,7 +385,8 @@ def _adaptive_steps(spec: RunSpec, budget: float) -> int:
     except Exception:  # unstable: the steps so far are what is known
         pass
     per_step = sim.time / sim.steps if sim.steps else spec.model.dt
-    return max(math.ceil(end / per_step), len(spec.run.record_times) - 1)
+    probes[(*key, spec.run_id)] = per_step
+    return max(math.ceil(end / per_step), floor)
 
 
 def _predicts(spec: RunSpec) -> bool:
@@ -414,6 +422,7 @@ def make_plan(source: str | Path | Sweep) -> Plan:
         groups.setdefault(_group_key(spec), []).append(spec)
     calibration = calibrate(sweep.runs, _CACHE)
     seen: set[str] = set()
+    probes: dict[tuple[Any, ...], float] = {}
     out = []
     for specs in groups.values():
         first = specs[0]
@@ -421,7 +430,7 @@ def make_plan(source: str | Path | Sweep) -> Plan:
         frames = len(run.record_times)
         adaptive = model.scheme == ADAPTIVE
         if adaptive:
-            steps = _adaptive_steps(first, CALIBRATION_SECONDS)
+            steps = _adaptive_steps(first, CALIBRATION_SECONDS, probes)
         else:
             steps = fixed_steps(run.record_times, model.dt)
         seconds = _run_seconds(first, steps, calibration)
