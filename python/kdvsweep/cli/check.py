@@ -11,8 +11,6 @@ import textwrap
 from pathlib import Path
 from typing import Any
 
-from .common import say
-
 
 def register(sub: Any) -> None:
     """Add ``check`` to the ``kdvsweep`` sub-parsers."""
@@ -91,8 +89,6 @@ def _check(args: argparse.Namespace) -> int:
     from ..sweep.plan import make_plan
 
     plan = make_plan(args.file)
-    for warning in plan.warnings:
-        say(f"warning: {warning}")
     rows: list[dict[str, object]] = []
     for g in plan.groups:
         rows.append(
@@ -120,12 +116,15 @@ def _check(args: argparse.Namespace) -> int:
     print()
     references = f" and {plan.references} reference runs" if plan.references else ""
     print(
-        f"total   {_seconds(plan.total_seconds)} of one core for {plan.runs} runs{references}, "
+        f"total   {_seconds(plan.total_seconds)} of one core (estimated) for {plan.runs} "
+        f"runs{references}, "
         f"{plan.total_steps} steps; at most {_bytes(plan.peak_memory)} per run"
     )
     for line in textwrap.wrap(plan.calibration.describe(), 92):
         print(f"        {line}")
-    print(f"warnings {len(plan.warnings)}" + (" (above, on stderr)" if plan.warnings else ""))
+    print(f"warnings {len(plan.warnings)}")
+    for warning in plan.warnings:
+        print(f"  {warning}")
     return 1 if plan.warnings else 0
 
 
