@@ -8,7 +8,6 @@ from typing import Any
 
 from ..exceptions import ConfigError
 from .common import print_frame, say
-from .progress import Progress
 
 DEMO_OUT = Path("results") / "demo"
 
@@ -118,6 +117,7 @@ def register(sub: Any) -> None:
 def _run(args: argparse.Namespace, file: Path) -> int:
     from ..sweep.config import load_sweep
     from ..sweep.farm import CHUNK_SECONDS, run
+    from .progress import Progress
 
     sweep = load_sweep(file)
     for warning in sweep.warnings:
@@ -195,28 +195,34 @@ def _first_line(text: str, limit: int = 100) -> str:
 
 
 def _status(out: Path) -> int:
-    from ..results import load
+    # The manifest and the runs parts' checks only (pyarrow): no pandas, no analysis.
+    from collections import Counter
 
-    res = load(out, skip_damaged=True)
-    counts = res.counts()
-    print(f"sweep   {res.manifest.get('sweep_name')} ({res.manifest.get('sweep_file')})")
+    from ..sweep.store import check_store, read_manifest
+
+    manifest = read_manifest(out)
+    check = check_store(out)
+    failed = len(check.failed)
+    ok = len(check.kept) - failed
+    print(f"sweep   {manifest.get('sweep_name')} ({manifest.get('sweep_file')})")
     print(f"store   {out.resolve()}")
-    print(f"done    {counts['ok']}")
-    print(f"failed  {counts['failed']}")
-    print(f"pending {counts['pending']}")
-    print(f"total   {counts['total']}")
-    if counts["failed"]:
-        failed = res.runs.loc[res.runs["status"] != "ok"]
-        kind = failed["failure"].fillna("").replace("", "other")
+    print(f"done    {ok}")
+    print(f"failed  {failed}")
+    print(f"pending {check.total - ok - failed}")
+    print(f"total   {check.total}")
+    if failed:
+        kinds = Counter((check.failures[rid][0] or "other") for rid in sorted(check.failed))
+        example: dict[str, str] = {}
+        for rid in sorted(check.failed):
+            example.setdefault(check.failures[rid][0] or "other", check.failures[rid][1])
         print("failures by kind:")
-        for name, count in kind.value_counts().items():
-            example = failed.loc[kind == name, "reason"].iloc[0]
-            print(f"  {count:6d}  {name:<13}  e.g. {_first_line(str(example))}")
-    if res.check is not None and res.check.damaged:
-        print(f"damage  {res.check.summary()}")
-    for line in res.check.ignored if res.check is not None else ():
+        for name, count in kinds.most_common():
+            print(f"  {count:6d}  {name:<13}  e.g. {_first_line(example[name])}")
+    if check.damaged:
+        print(f"damage  {check.summary()}")
+    for line in check.ignored:
         print(f"ignored {line}")
-    return 1 if res.check is not None and res.check.damaged else 0
+    return 1 if check.damaged else 0
 
 
 __all__ = ["DEMO_OUT", "demo_file", "register"]

@@ -20,14 +20,11 @@ import json
 import time
 from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-import numpy as np
-
-from .. import initial
-from ..analysis.tracks import ReferenceTrack, reference_track
-from ..simulation import Simulation
-from .config import ModelSpec, RunSpec
+if TYPE_CHECKING:  # the store reads references without the analysis (scipy) or the core loaded
+    from ..analysis.tracks import ReferenceTrack
+    from .config import ModelSpec, RunSpec
 
 #: Version of what a reference computes (its initial data's construction, its tracking): part of
 #: every reference's key, so a change of those rules gives new digests and stored references of
@@ -99,6 +96,8 @@ class ReferenceResult:
 
 def needs_references(spec: RunSpec) -> bool:
     """True when the run's collision shifts are measured against reference runs."""
+    from .. import initial
+
     data = spec.initial
     return (
         spec.model.equation.perturbed
@@ -110,6 +109,8 @@ def needs_references(spec: RunSpec) -> bool:
 
 def references_for(spec: RunSpec) -> list[ReferenceSpec]:
     """The reference runs a run needs, one per soliton left to right (empty when none)."""
+    from .. import initial
+
     if not needs_references(spec):
         return []
     data = spec.initial
@@ -130,6 +131,12 @@ def references_for(spec: RunSpec) -> list[ReferenceSpec]:
 
 def compute_reference(ref: ReferenceSpec) -> ReferenceResult:
     """Run one soliton alone and follow it; a failure (blow-up, time limit) is a failed track."""
+    import numpy as np
+
+    from .. import initial
+    from ..analysis.tracks import ReferenceTrack, reference_track
+    from ..simulation import Simulation
+
     start = time.perf_counter()
     model = ref.model
     try:
@@ -162,6 +169,8 @@ def compute_references(refs: list[ReferenceSpec]) -> list[ReferenceResult]:
 def tracks_for(spec: RunSpec, known: Mapping[str, ReferenceTrack]) -> list[ReferenceTrack] | None:
     """The reference tracks of a run from ``known`` (by digest), None when it needs none; a missing
     one is a failed track that says so."""
+    from ..analysis.tracks import ReferenceTrack
+
     refs = references_for(spec)
     if not refs:
         return None

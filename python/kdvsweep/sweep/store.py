@@ -50,19 +50,23 @@ import time
 from collections.abc import Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
-import pandas as pd
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from ..analysis.tracks import ReferenceTrack
 from ..columns import PARAMETER_TYPES, Layout, reserved_names
 from ..exceptions import ConfigError, StoreBusyError, StoreError
 from .config import RunSpec, Sweep
-from .references import ReferenceResult, key_digest
-from .runner import RunResult
+from .references import key_digest
+
+if TYPE_CHECKING:  # readers (kdvsweep status) load neither pandas nor the analysis (scipy)
+    import pandas as pd
+
+    from ..analysis.tracks import ReferenceTrack
+    from .references import ReferenceResult
+    from .runner import RunResult
 
 try:  # advisory lock; absent on Windows, where a second writer is simply not detected
     import fcntl
@@ -331,6 +335,8 @@ class StoreCheck:
         Stored run id -> the batch its row is read from (the first stored row of the run).
     failed
         Stored runs whose status is not "ok".
+    failures
+        Of each failed run: its kind of failure (``failure`` column, "" when unset) and reason.
     damaged
         Batches that are not whole (their runs are not in ``kept``).
     ignored
@@ -342,6 +348,7 @@ class StoreCheck:
     total: int
     kept: dict[int, int] = field(default_factory=dict)
     failed: set[int] = field(default_factory=set)
+    failures: dict[int, tuple[str, str]] = field(default_factory=dict)
     damaged: list[Damage] = field(default_factory=list)
     ignored: list[str] = field(default_factory=list)
 
@@ -484,17 +491,20 @@ def _scan(
             check.damaged.append(Damage(seq, Path(where), str(problem)))
             continue
         outside = duplicate = 0
-        for rid, status in zip(
-            runs.column("run_id").to_pylist(), runs.column("status").to_pylist(), strict=True
-        ):
+        statuses = runs.column("status").to_pylist()
+        for i, rid in enumerate(runs.column("run_id").to_pylist()):
             if rid is None or not 0 <= rid < check.total:
                 outside += 1
             elif rid in check.kept:
                 duplicate += 1
             else:
                 check.kept[rid] = seq
-                if status != "ok":
+                if statuses[i] != "ok":
                     check.failed.add(rid)
+                    check.failures[rid] = (
+                        str(runs.column("failure")[i].as_py() or ""),
+                        str(runs.column("reason")[i].as_py() or ""),
+                    )
         name = f"runs/{path.name}"
         if outside:
             check.ignored.append(
@@ -918,6 +928,8 @@ def _read_references(path: Path, wanted: set[str] | None = None) -> dict[str, Re
     """The whole reference runs of one part (those of ``wanted`` digests, or all), each checked:
     its key hashes to its digest and its arrays agree in length. Raises :class:`_Broken` for a
     part that is not readable Parquet of :data:`REFERENCE_SCHEMA`."""
+    from ..analysis.tracks import ReferenceTrack
+
     table = _parse(_read_bytes(path), REFERENCE_SCHEMA)
     out: dict[str, ReferenceTrack] = {}
     for row in table.to_pylist():
