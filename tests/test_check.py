@@ -190,3 +190,15 @@ def test_every_example_sweep_plans(file: Path) -> None:
         assert group.steps > 0
         assert group.seconds > 0
     assert plan.warnings == sweep.warnings
+
+
+def test_a_step_that_blows_up_still_plans(tmp_path: Path) -> None:
+    # Strang splitting far above its stable step: the run would fail, the plan is still made
+    text = PAIRS.format(dt=0.2).replace('scheme = "etdrk4"', 'scheme = "strang"')
+    plan = planning.make_plan(_write(tmp_path, text))
+    assert plan.warnings
+    group = plan.groups[0]
+    assert group.steps == planning.fixed_steps(
+        load_sweep(tmp_path / "pairs.toml").runs[0].run.record_times, 0.2
+    )
+    assert group.seconds > 0
