@@ -57,8 +57,8 @@ MAX_CALIBRATIONS = 8
 #: executed serially in one process: each run's thread CPU time minus its steps times the step
 #: time measured as here (and the setup), over frames x n. Medians: 2.3e-7 on the demo sweep (27
 #: pairs, n = 384..2048; a least-squares fit gives 1.3e-7 plus 0.013 s a run), 2.2e-7 on
-#: ``three-solitons.toml`` (3 runs, 510 frames), 2.2e-7 on ``sech2-damped.toml`` (profile data,
-#: n = 8192).
+#: ``three-solitons.toml`` (3 of its runs, 510..582 frames), 2.2e-7 on ``sech2-damped.toml``
+#: (profile data, n = 8192).
 FRAME_SECONDS = 2.0e-7
 #: Core-seconds of a run besides its steps and frames (initial data, rows), same measurement.
 OVERHEAD = 0.005
