@@ -512,6 +512,11 @@ def predicted_soliton(
     except ConfigError as exc:
         return math.nan, math.nan, str(exc)
     if not math.isfinite(kappa):
-        return math.nan, math.nan, "no adiabatic prediction: the wave left its branch's shape"
+        return (
+            math.nan,
+            math.nan,
+            "no adiabatic prediction: the Gardner wave's kappa falls below kappa0 / 4 by then "
+            "(its branch keeps a finite momentum as kappa -> 0)",
+        )
     form = eq.soliton_form
     return float(form.amplitude(kappa, sign)), float(form.speed(kappa)), ""

@@ -184,6 +184,11 @@ def _shift_plans(
     equations, missing = _equations(ok)
     if missing:
         return none_drawn(missing)
+    if solitons.groupby("run_id").size().max() < 2:
+        return none_drawn(
+            "every run has one soliton: no collision, so no phase shift (its decay under g or v "
+            "is in adiabatic_decay)"
+        )
     kept, why_not = _shift_runs(solitons, equations)
     notes: tuple[str, ...] = ()
     if why_not:
@@ -300,17 +305,20 @@ def _decay_plan(results: Results, ok: pd.DataFrame, params: Sequence[str]) -> Fi
     kept = [r for r in _with_form(equations) if equations[r].f == 0]
     rows = sol[sol["run_id"].isin(kept)].dropna(subset=["amplitude_end", "amplitude_predicted"])
     rows = rows[rows["run_id"].isin(decaying)]
+    fifth = [r for r in decaying if equations[r].f != 0]
+    no_prediction = f"no adiabatic prediction with f != 0 ({len(fifth)} run(s))"
     if rows.empty:
         return FigurePlan(
             stem,
             stem,
-            reason="no damped or viscous soliton has both amplitude_end and amplitude_predicted "
+            reason=no_prediction
+            if len(fifth) == len(decaying)
+            else "no damped or viscous soliton has both amplitude_end and amplitude_predicted "
             "(see the reason column of `kdvsweep table OUT --runs`)",
         )
     notes = []
-    fifth = [r for r in decaying if equations[r].f != 0]
     if fifth:
-        notes.append(f"left out: no adiabatic prediction with f != 0 ({len(fifth)} run(s))")
+        notes.append(f"left out: {no_prediction}")
     shown = sol[sol["run_id"].isin(kept)]
     lacking = int(shown[["amplitude_end", "amplitude_predicted"]].isna().any(axis=1).sum())
     if lacking:
@@ -510,7 +518,7 @@ def _spacetime_of_run(results: Results, run_id: int, notes: list[str]) -> Figure
             kappas = None
         try:
             analysis = analyse_run(frames.u, frames.times, grid, eq, kappas)
-        except KdvsweepError as err:
+        except (KdvsweepError, ValueError) as err:  # the field is still worth drawing
             notes.append(f"field only: the collision analysis failed: {err}")
         else:
             if analysis.tracks.reason:
