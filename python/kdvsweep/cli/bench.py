@@ -302,8 +302,14 @@ def format_limits(limits: Sequence[Limit]) -> str:
             f"  {sp.scheme:<8} {sp.cases} cases: nl {sp.nonlinear[0]:.3g} .. {sp.nonlinear[1]:.3g}"
             f", mixed {sp.mixed[0]:.3g} .. {sp.mixed[1]:.3g}{used}"
         )
+        lines.append(
+            f"  {'':<8} {sp.resolved} resolved: nl {sp.resolved_nonlinear[0]:.3g} .. "
+            f"{sp.resolved_nonlinear[1]:.3g}, mixed {sp.resolved_mixed[0]:.3g} .. "
+            f"{sp.resolved_mixed[1]:.3g}"
+        )
     lines.append(
-        f"the rule (kdvsweep.simulation.STEP_RULE) is {STEP_SAFETY:g} x the smallest limit measured"
+        f"resolved: no resolution warning; the rule (kdvsweep.simulation.STEP_RULE) is "
+        f"{STEP_SAFETY:g} x the smallest resolved limit (ETDRK4: see its comment)"
     )
     return "\n".join(lines)
 
