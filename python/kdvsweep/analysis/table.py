@@ -10,7 +10,7 @@ asymptotic fit, solitons lost): it reports ``analysis_status`` ``"ok"``, ``"too_
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -22,7 +22,7 @@ from ..columns import SOLITON_COLUMNS
 from ..exceptions import ConfigError, ShapeError
 from ..model import Equation, Grid
 from .fits import MIN_FRAMES, AsymptoticFit, fit_asymptotes
-from .peaks import count_peaks
+from .peaks import count_peaks, find_peaks_many
 from .tracks import ReferenceTrack, Tracks, check_record, ring_difference, track
 
 DEFAULT_SEPARATION = 16.0
@@ -38,6 +38,20 @@ SHIFT_METHODS = ("asymptotes", "reference")
 #: ``e^-10`` (5e-5) of its peak (common practice, no source). What lies outside counts as radiation,
 #: so the values depend on it: compare runs measured with the same window.
 RADIATION_WINDOW = 10.0
+
+#: ``restart(state, t0, times) -> frames``: step a copy of the run from ``state`` (a stored frame)
+#: at time ``t0`` and return its states at ``times`` (increasing, after ``t0``), shape
+#: ``(len(times), n)``. :func:`analyse_run` uses it to look at a pair's closest approach between
+#: the stored frames.
+Restart = Callable[[np.ndarray, float, np.ndarray], np.ndarray]
+
+#: Fine frames of a restarted collision: this many per time the pair takes to move one tail length
+#: ``1/(2 kappa)`` of the wider soliton against each other (Lax's two-peak window at the symmetric
+#: instant is only included exactly, as the time ``t_closest`` itself), at most
+#: ``CLOSE_MAX_FRAMES`` in all, restarted in chunks of ``_CLOSE_CHUNK``.
+CLOSE_FRAMES_PER_TAIL = 64
+CLOSE_MAX_FRAMES = 4096
+_CLOSE_CHUNK = 256
 
 #: Columns of a collision table: the solitons table's, less the run's id and the input centre.
 TABLE_COLUMNS = tuple(c.name for c in SOLITON_COLUMNS if c.name not in ("run_id", "x0"))
@@ -118,19 +132,58 @@ def _windows(tracks: Tracks) -> tuple[np.ndarray, np.ndarray, np.ndarray, str, s
                 f"{s:g} tail lengths apart after meeting (record ends at t = {tracks.times[-1]:g})"
             ),
         )
-    nb, na = int(before.sum()), int(after.sum())
-    if nb < MIN_FRAMES or na < MIN_FRAMES:
-        return (
-            before,
-            after,
-            counts,
-            "too_short",
-            (
-                f"record too short for an asymptotic fit: {nb} frame(s) before and {na} after the "
-                f"collision have the solitons {s:g} tail lengths apart; need {MIN_FRAMES} in each"
-            ),
-        )
+    # Too few frames here is judged per soliton (_soliton_windows): with three or more solitons
+    # each one's windows end at its own collisions, not at the first and last of the run.
     return before, after, counts, "ok", ""
+
+
+def _soliton_windows(
+    tracks: Tracks, before: np.ndarray, after: np.ndarray
+) -> list[tuple[np.ndarray, np.ndarray]]:
+    """Each soliton's own fit windows: the frames where it is ``alone`` (``separation`` tail
+    lengths from every other soliton) before the first and after the last collision it takes
+    part in.
+
+    A pair's collisions are located between the frames where both solitons were located: the lap
+    index ``floor((X_i - X_j)/L)`` changes between them. A soliton that meets no other keeps the
+    run's windows ``before`` and ``after`` (every pair apart, before and after every collision).
+    """
+    t = tracks.times
+    laps = tracks.laps()
+    alone = tracks.alone if tracks.alone.shape == tracks.x.shape else tracks.separated[:, None]
+    starts = np.full(tracks.n_solitons, np.inf)
+    ends = np.full(tracks.n_solitons, -np.inf)
+    for p, (i, j) in enumerate(tracks.pairs()):
+        known = np.flatnonzero(np.isfinite(laps[:, p]))
+        if known.size < 2:
+            continue
+        change = np.flatnonzero(np.diff(laps[known, p]) != 0)
+        if change.size == 0:
+            continue
+        first, last = float(t[known[change[0]]]), float(t[known[change[-1] + 1]])
+        for k in (i, j):
+            starts[k], ends[k] = min(starts[k], first), max(ends[k], last)
+    out = []
+    for k in range(tracks.n_solitons):
+        mine = np.broadcast_to(alone, tracks.x.shape)[:, k] & np.isfinite(tracks.position[:, k])
+        if math.isfinite(starts[k]):
+            out.append((mine & (t <= starts[k]), mine & (t >= ends[k])))
+        else:
+            out.append((before.copy(), after.copy()))
+    return out
+
+
+def _short_windows(windows: list[tuple[np.ndarray, np.ndarray]], s: float) -> str:
+    """Why a soliton's windows are too short for a fit (empty when none is)."""
+    for k, (b, a) in enumerate(windows):
+        nb, na = int(b.sum()), int(a.sum())
+        if nb < MIN_FRAMES or na < MIN_FRAMES:
+            return (
+                f"record too short for an asymptotic fit: soliton {k} is {s:g} tail lengths from "
+                f"every other in {nb} frame(s) before its first collision and {na} after its last; "
+                f"need {MIN_FRAMES} in each (record frames more often or run longer)"
+            )
+    return ""
 
 
 def _collision_matrix(n: int, pairs: Sequence[tuple[int, int]], counts: np.ndarray) -> np.ndarray:
@@ -230,6 +283,54 @@ def _peak_census(
     return float(count_peaks(u[f], tracks.length, tracks.threshold, signs)), min_peaks
 
 
+def _fine_census(
+    u: np.ndarray,
+    tracks: Tracks,
+    t_closest: float,
+    before: np.ndarray,
+    after: np.ndarray,
+    signs: tuple[int, ...],
+    restart: Restart,
+    tail: float,
+    speed_difference: float,
+) -> tuple[float, float]:
+    """:func:`_peak_census` on a fine grid of times: the run restarted from the last linked frame
+    before the closest approach, recorded to the first linked frame after it and at ``t_closest``
+    itself; the fewest peaks also over the stored frames between the windows."""
+    t = tracks.times
+    last_b, first_a = int(np.flatnonzero(before)[-1]), int(np.flatnonzero(after)[0])
+    linked = np.flatnonzero(tracks.linked)
+    lo = linked[(linked >= last_b) & (t[linked] <= t_closest)]
+    hi = linked[(linked <= first_a) & (t[linked] >= t_closest)]
+    f_lo = int(lo[-1]) if lo.size else last_b
+    t_lo = float(t[f_lo])
+    t_hi = float(t[int(hi[0])]) if hi.size else float(t[first_a])
+    if not (t_lo < t_closest < t_hi):
+        raise ConfigError(
+            f"closest approach at t = {t_closest:.6g} is not between the linked frames around it"
+        )
+    step = tail / abs(speed_difference) / CLOSE_FRAMES_PER_TAIL
+    count = min(CLOSE_MAX_FRAMES, max(2, math.ceil((t_hi - t_lo) / step)))
+    times = np.union1d(np.linspace(t_lo, t_hi, count + 1)[1:], [t_closest])
+    state, t0 = u[f_lo], t_lo
+    counts = np.empty(times.size, dtype=np.int64)
+    for b in range(0, times.size, _CLOSE_CHUNK):
+        chunk = times[b : b + _CLOSE_CHUNK]
+        frames = np.asarray(restart(state, t0, chunk), dtype=np.float64)
+        if frames.shape != (chunk.size, u.shape[1]) or not np.all(np.isfinite(frames)):
+            raise ShapeError(
+                f"restart returned frames of shape {frames.shape} (or non-finite values); "
+                f"expected finite frames of shape {(chunk.size, u.shape[1])}"
+            )
+        peaks = find_peaks_many(frames, tracks.length, tracks.threshold, signs)
+        counts[b : b + chunk.size] = [len(p) for p in peaks]
+        state, t0 = frames[-1], float(chunk[-1])
+    stored = tracks.peak_count[last_b + 1 : first_a]
+    fewest = int(min(counts.min(), stored.min())) if stored.size else int(counts.min())
+    at_closest = int(counts[int(np.searchsorted(times, t_closest))])
+    return float(at_closest), float(fewest)
+
+
 def analyse_run(
     frames: object,
     times: object,
@@ -240,6 +341,7 @@ def analyse_run(
     threshold: float | None = None,
     invariants: Mapping[str, object] | Sequence[Mapping[str, float]] | None = None,
     references: Sequence[ReferenceTrack] | None = None,
+    restart: Restart | None = None,
 ) -> RunAnalysis:
     """Track the solitons of a record, fit their asymptotes and set the shifts against theory.
 
@@ -282,6 +384,13 @@ def analyse_run(
         shifts, ``amplitude_change``, ``speed_change`` and ``radiated_mass`` /
         ``radiated_energy``; without them a perturbed run's shift is by asymptotes and
         ``analysis_reason`` says so. Ignored for integrable equations.
+    restart
+        Steps a copy of the run from a stored frame (:data:`Restart`). With it, a pair's
+        ``peaks_at_closest`` is counted at ``t_closest`` itself and ``min_peaks`` over fine frames
+        (:data:`CLOSE_FRAMES_PER_TAIL`) from the last linked frame before the closest approach to
+        the first after, so neither depends on the frame interval. Without it both come from the
+        stored frames: the frame nearest ``t_closest``, and the fewest over the frames between the
+        fit windows (a two-peak instant narrower than the frame interval can be missed).
 
     Returns
     -------
@@ -332,9 +441,18 @@ def analyse_run(
     _fill_speeds(rows, tracks, before | after, eq)
     if status != "ok":
         return RunAnalysis(_frame(rows), summary, tracks, [], before, after)
+    windows = _soliton_windows(tracks, before, after)
+    short = _short_windows(windows, separation)
+    summary.update(
+        frames_before=min(int(b.sum()) for b, _ in windows),
+        frames_after=min(int(a.sum()) for _, a in windows),
+    )
+    if short:
+        summary.update(analysis_status="too_short", analysis_reason=short)
+        return RunAnalysis(_frame(rows), summary, tracks, [], before, after)
     fits = [
-        fit_asymptotes(t[before], tracks.position[before, i], t[after], tracks.position[after, i])
-        for i in range(n_sol)
+        fit_asymptotes(t[b], tracks.position[b, i], t[a], tracks.position[a, i])
+        for i, (b, a) in enumerate(windows)
     ]
     measured = theory.kappa_from_speed([f.speed for f in fits], eq)
     use = given if given is not None else measured
@@ -366,8 +484,10 @@ def analyse_run(
         )
         if given is None:
             row["kappa"] = float(measured[i])
-    notes = _changes(rows, tracks, fits, before, after, eq, references)
-    summary.update(_pair_summary(u, tracks, fits, before, after, use, eq))
+    notes = _changes(rows, tracks, fits, windows, eq, references)
+    pair, note = _pair_summary(u, tracks, fits, before, after, use, eq, restart)
+    summary.update(pair)
+    notes += [note] if note else []
     energy, fraction = _radiation(u[-1], grid, t[-1], measured, fits, tracks.sign, eq)
     summary.update(radiation_energy=energy, radiation_fraction=fraction)
     tails = np.asarray(eq.soliton_form.tail_length(measured if given is None else given))
@@ -409,8 +529,7 @@ def _changes(
     rows: list[dict[str, Any]],
     tracks: Tracks,
     fits: list[AsymptoticFit],
-    before: np.ndarray,
-    after: np.ndarray,
+    spans: list[tuple[np.ndarray, np.ndarray]],
     eq: Equation,
     references: Sequence[ReferenceTrack] | None,
 ) -> list[str]:
@@ -426,6 +545,7 @@ def _changes(
     notes = [why] if why else []
     for i, (row, fit) in enumerate(zip(rows, fits, strict=True)):
         h = np.abs(tracks.height[:, i])
+        before, after = spans[i]
         if refs is None:
             hb, ha = float(np.mean(h[before])), float(np.mean(h[after]))
             row["amplitude_change"] = ha / hb - 1.0
@@ -576,22 +696,37 @@ def _pair_summary(
     after: np.ndarray,
     kappas: np.ndarray,
     eq: Equation,
-) -> dict[str, Any]:
+    restart: Restart | None = None,
+) -> tuple[dict[str, Any], str]:
+    """The pair's closest approach and Lax regime (the fewest peaks for more solitons), and a note
+    when a restart of the collision failed (the stored frames are used then)."""
     out: dict[str, Any] = {}
     if len(fits) != 2:
+        if not (before.any() and after.any()):
+            return out, ""
         between = np.arange(int(np.flatnonzero(before)[-1]) + 1, int(np.flatnonzero(after)[0]))
         if between.size:
             out["min_peaks"] = float(tracks.peak_count[between].min())
-        return out
+        return out, ""
     t_c = _closest_approach(tracks, fits, before, after)
-    at_closest, fewest = _peak_census(u, tracks, t_c, before, after, theory.polarities(eq))
+    signs = theory.polarities(eq)
+    note = ""
+    at_closest, fewest = _peak_census(u, tracks, t_c, before, after, signs)
+    if restart is not None and math.isfinite(t_c) and np.all(np.isfinite(kappas)):
+        tail = float(np.max(eq.soliton_form.tail_length(kappas)))
+        try:
+            at_closest, fewest = _fine_census(
+                u, tracks, t_c, before, after, signs, restart, tail, fits[0].speed - fits[1].speed
+            )
+        except Exception as exc:  # the stored frames still give the census
+            note = f"closest approach from the stored frames: restart failed: {exc}"
     out.update(t_closest=t_c, peaks_at_closest=at_closest, min_peaks=fewest)
     if theory.family(eq) == "kdv" and np.all(np.isfinite(kappas)) and kappas[0] != kappas[1]:
         out.update(
             regime=theory.interaction_regime(kappas[0], kappas[1]),
             amplitude_ratio=theory.amplitude_ratio(kappas[0], kappas[1]),
         )
-    return out
+    return out, note
 
 
 def _frame(rows: list[dict[str, Any]]) -> pd.DataFrame:

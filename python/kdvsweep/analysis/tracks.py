@@ -49,7 +49,8 @@ class Tracks:
     length
         Domain length ``L``.
     x
-        Peak positions in ``[-L/2, L/2)``, shape ``(m, N)``; NaN in frames that are not linked.
+        Peak positions in ``[-L/2, L/2)``, shape ``(m, N)``; NaN where the soliton was not located
+        (frames that are not linked, unless it is ``alone`` there).
     position
         The same positions unwrapped (continuous across the periodic boundary).
     height
@@ -70,6 +71,13 @@ class Tracks:
         Empty, or why tracking failed.
     extrema
         Every extremum above ``threshold``, per frame (including merged humps mid-collision).
+    alone
+        Shape ``(m, N)``: frames where soliton ``i`` is ``separation`` tail lengths from every
+        other soliton (linked frames), or, in frames where others are too close to each other
+        to be linked, from every other extremum by that many of the widest soliton's tail lengths
+        plus the largest pair shift (where the colliding solitons' asymptotes may lie). Its
+        position and height are then filled in even in frames that are not linked: the fit
+        windows of a soliton need only it to be alone (:func:`kdvsweep.analysis.table.analyse_run`).
     """
 
     times: np.ndarray
@@ -85,6 +93,7 @@ class Tracks:
     separation: float
     reason: str = ""
     extrema: list[Peaks] = field(default_factory=list)
+    alone: np.ndarray = field(default_factory=lambda: np.zeros((0, 0), dtype=bool))
 
     @property
     def n_solitons(self) -> int:
@@ -96,7 +105,8 @@ class Tracks:
         return list(combinations(range(self.n_solitons), 2))
 
     def laps(self) -> np.ndarray:
-        """``floor((X_i - X_j) / L)`` per frame and pair, shape ``(m, P)``; NaN where not linked.
+        """``floor((X_i - X_j) / L)`` per frame and pair, shape ``(m, P)``; NaN where either soliton
+        was not located.
 
         Soliton ``i`` passes soliton ``j`` each time ``X_i - X_j`` crosses a multiple of ``L``, so
         a change of this index between two separated frames counts the collisions in between.
@@ -274,7 +284,79 @@ def track(
     _link(result, kin, link_separation, separation)
     if not linked[1:].any() and m > 1:
         result.reason = "the solitons of the first frame could not be matched in any later frame"
+        return result
+    _locate_alone(result, kin, separation)
     return result
+
+
+def _widest_shift(kappas: list[float]) -> float:
+    """The largest ``|pair_shift|`` over the pairs of ``kappas`` (0 for fewer than two)."""
+    out = 0.0
+    for a, b in combinations(kappas, 2):
+        if a != b and a > 0 and b > 0:
+            out = max(out, abs(theory.pair_shift(a, b)), abs(theory.pair_shift(b, a)))
+    return out
+
+
+def _locate_alone(tracks: Tracks, kin: _Kinematics, separation: float) -> None:
+    """Fill ``tracks.alone``, and the position and height of each soliton that is alone in a frame
+    that is not linked (two other solitons colliding far from it), in place.
+
+    Linked frames: soliton ``i`` is alone when every pair ``(i, j)`` is ``separation`` tail lengths
+    (the longer of the two) apart both ways round. Other frames: the extremum of the soliton's sign
+    and height (within ``HEIGHT_TOLERANCE`` in log) nearest to where its last position and speed put
+    it, if it is the only one within ``POSITION_SCALE`` tail lengths, and every other extremum is
+    ``separation`` tail lengths of the widest soliton plus the largest pair shift away.
+    """
+    t, length, half = tracks.times, tracks.length, 0.5 * tracks.length
+    m, n = tracks.x.shape
+    alone = np.zeros((m, n), dtype=bool)
+    tracks.alone = alone
+    h0 = tracks.height[0].tolist()
+    tails = [kin.tail(h) for h in h0]
+    speeds = kin.speeds(tracks.height[0]).tolist()
+    reach = separation * max(tails) + _widest_shift(kin.kappa(np.abs(tracks.height[0])).tolist())
+    for f in np.flatnonzero(tracks.linked).tolist():
+        xs = tracks.x[f].tolist()
+        for i in range(n):
+            alone[f, i] = all(
+                abs((xs[i] - xs[j] + half) % length - half) >= separation * max(tails[i], tails[j])
+                for j in range(n)
+                if j != i
+            )
+    if n < 3:  # a pair that is not linked is colliding: neither soliton is alone
+        return
+    last_f = [0] * n
+    for f in range(1, m):
+        if tracks.linked[f]:
+            last_f = [f] * n
+            continue
+        pk = tracks.extrema[f]
+        cx, ch, cs = pk.x.tolist(), pk.height.tolist(), pk.sign.tolist()
+        for i in range(n):
+            p = last_f[i]
+            pred = float(tracks.position[p, i]) + speeds[i] * (float(t[f]) - float(t[p]))
+            ref = math.log(abs(float(tracks.height[p, i])))
+            near = [
+                j
+                for j in range(len(cx))
+                if abs((cx[j] - pred + half) % length - half) < POSITION_SCALE * tails[i]
+            ]
+            if len(near) != 1:
+                continue
+            c = near[0]
+            if cs[c] != tracks.sign[i] or abs(math.log(abs(ch[c])) - ref) > HEIGHT_TOLERANCE:
+                continue
+            if any(
+                abs((cx[j] - cx[c] + half) % length - half) < reach
+                for j in range(len(cx))
+                if j != c
+            ):
+                continue
+            tracks.x[f, i], tracks.height[f, i] = cx[c], ch[c]
+            tracks.position[f, i] = pred + ((cx[c] - pred + half) % length - half)
+            alone[f, i] = True
+            last_f[i] = f
 
 
 def _link(tracks: Tracks, kin: _Kinematics, link_separation: float, separation: float) -> None:

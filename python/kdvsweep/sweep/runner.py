@@ -330,8 +330,10 @@ def _collision_rows(
     grid: Grid,
     equation: Equation,
     references: list[ReferenceTrack] | None = None,
+    restart: Callable[[np.ndarray, float, np.ndarray], np.ndarray] | None = None,
 ) -> tuple[list[dict[str, Any]], dict[str, Any]]:
-    """Rows of the solitons table, measured by the collision analysis.
+    """Rows of the solitons table, measured by the collision analysis (``restart``: steps a copy
+    of the run from a stored frame, for a pair's closest approach; see :func:`_restarter`).
 
     Returns the rows and extra columns for the run's row: the analysis summary, and a ``reason``
     note when the analysis could not measure the shifts. The input solitons are stored then and
@@ -343,7 +345,7 @@ def _collision_rows(
     kappas = [s["kappa"] for s in solitons]
     try:
         found = analysis.analyse_run(
-            frames, times, grid, equation, kappas, references=references
+            frames, times, grid, equation, kappas, references=references, restart=restart
         )
     except Exception as exc:  # an analysis error is recorded; the run's numbers are still valid
         reason = f"analysis: {type(exc).__name__}: {exc}"
@@ -645,6 +647,22 @@ def _core_simulation(
     )
 
 
+def _restarter(
+    make: SimulationFactory, spec: RunSpec
+) -> Callable[[np.ndarray, float, np.ndarray], np.ndarray]:
+    """``restart(state, t0, times)``: a new simulation of the run's model set to a stored frame
+    ``state`` at ``t0`` and recorded at ``times`` (the analysis looks at a pair's closest approach
+    between the stored frames with it: :func:`kdvsweep.analysis.table.analyse_run`)."""
+    model = spec.model
+
+    def restart(state: np.ndarray, t0: float, times: np.ndarray) -> np.ndarray:
+        sim = make(model.grid, model.equation, model.scheme, model.dt, model.tol)
+        sim.set_state(state, t0)
+        return np.asarray(sim.record(times))
+
+    return restart
+
+
 def execute(
     spec: RunSpec,
     simulation: SimulationFactory | None = None,
@@ -730,7 +748,10 @@ def execute(
         analysing = time.perf_counter()
         stage = "analysis"
         if soliton_data:
-            solitons, extra = _collision_rows(spec, frames, times, grid, equation, references)
+            restart = _restarter(make, spec)
+            solitons, extra = _collision_rows(
+                spec, frames, times, grid, equation, references, restart
+            )
             if predicted is not None:
                 _attach_predicted(solitons, [float(k) for k in predicted.kappas])
             if run.predict_content:
