@@ -179,3 +179,22 @@ def test_triple_too_few_frames_names_the_soliton() -> None:
     assert "soliton 0" in reason
     assert "before its first collision" in reason
     assert np.all(np.isnan(found.table["shift_measured"]))
+
+
+def test_accuracy_blanks_shifts_whose_windows_cannot_show_it() -> None:
+    grid, frames, times = _triple_record(75.0)
+    expected = _formula_shifts(TRIPLE)
+    fine = analyse_run(frames, times, grid, KDV, list(TRIPLE), accuracy=1e-5)
+    assert fine.summary["analysis_reason"] == ""
+    np.testing.assert_allclose(fine.table["shift_measured"], expected, rtol=1e-6)
+    # Frames every time unit: the fast pair has 3 frames apart before its collision, too few for
+    # the fit's bias check; the slowest soliton has its own longer windows and is kept.
+    coarse = analyse_run(frames[::4], times[::4], grid, KDV, list(TRIPLE), accuracy=1e-5)
+    shifts = coarse.table["shift_measured"].to_numpy()
+    assert np.isnan(shifts[:2]).all()
+    assert shifts[2] == pytest.approx(expected[2], rel=1e-6)
+    reason = coarse.summary["analysis_reason"]
+    assert "soliton 0: shift not reported" in reason
+    assert "soliton 2" not in reason
+    with pytest.raises(kv.ConfigError, match="accuracy must be a positive number"):
+        analyse_run(frames, times, grid, KDV, list(TRIPLE), accuracy=-1.0)

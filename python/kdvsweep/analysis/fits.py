@@ -15,6 +15,8 @@ import numpy as np
 from ..exceptions import ShapeError
 
 MIN_FRAMES = 3
+#: Frames each window needs for the far-half check of the bias (``shift_bias``: two per half).
+MIN_BIAS_FRAMES = 4
 # One pass of outlier rejection: residuals beyond this many robust standard deviations.
 _OUTLIER_SIGMAS = 8.0
 _MAX_REJECTED_FRACTION = 0.2
@@ -38,7 +40,8 @@ class AsymptoticFit:
         Standard error of the shift from the fit residuals.
     shift_bias
         Change of the shift when only the far half of each window is used: an estimate of the
-        bias left by tail overlap or by a slow drift of the speed.
+        bias left by tail overlap or by a slow drift of the speed (NaN for windows of fewer than
+        ``MIN_BIAS_FRAMES`` frames).
     shift_drift
         ``|speed_after - speed_before|`` times half the time between the windows' centres: how much
         the shift depends on when it is read if the collision changed the speed (a perturbed
@@ -139,7 +142,7 @@ def fit_asymptotes(
     # Far halves: the earlier half of the window before, the later half of the window after.
     hb, ha = tb.size // 2, ta.size // 2
     bias = np.nan
-    if hb >= 2 and ha >= 2:
+    if tb.size >= MIN_BIAS_FRAMES and ta.size >= MIN_BIAS_FRAMES:
         bias = abs(_shift_of(tb[:hb], xb[:hb], ta[-ha:], xa[-ha:]) - shift)
     c_before, c_after = _line_speed(tb, xb), _line_speed(ta, xa)
     drift = abs(c_after - c_before) * 0.5 * (float(ta.mean()) - float(tb.mean()))
@@ -179,4 +182,4 @@ def _reject_outliers(t: np.ndarray, x: np.ndarray, after: np.ndarray) -> np.ndar
     return keep
 
 
-__all__ = ["MIN_FRAMES", "AsymptoticFit", "fit_asymptotes"]
+__all__ = ["MIN_BIAS_FRAMES", "MIN_FRAMES", "AsymptoticFit", "fit_asymptotes"]

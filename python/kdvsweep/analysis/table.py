@@ -21,7 +21,7 @@ from .. import theory
 from ..columns import SOLITON_COLUMNS
 from ..exceptions import ConfigError, ShapeError
 from ..model import Equation, Grid
-from .fits import MIN_FRAMES, AsymptoticFit, fit_asymptotes
+from .fits import MIN_BIAS_FRAMES, MIN_FRAMES, AsymptoticFit, fit_asymptotes
 from .peaks import count_peaks, find_peaks_many
 from .tracks import ReferenceTrack, Tracks, check_record, ring_difference, track
 
@@ -342,6 +342,7 @@ def analyse_run(
     invariants: Mapping[str, object] | Sequence[Mapping[str, float]] | None = None,
     references: Sequence[ReferenceTrack] | None = None,
     restart: Restart | None = None,
+    accuracy: float | None = None,
 ) -> RunAnalysis:
     """Track the solitons of a record, fit their asymptotes and set the shifts against theory.
 
@@ -391,6 +392,11 @@ def analyse_run(
         the first after, so neither depends on the frame interval. Without it both come from the
         stored frames: the frame nearest ``t_closest``, and the fewest over the frames between the
         fit windows (a two-peak instant narrower than the frame interval can be missed).
+    accuracy
+        The relative accuracy wanted in the shifts. A shift whose ``shift_uncertainty`` is above
+        it (relative to the predicted shift, or the measured one without a prediction), or whose
+        windows are too short for the bias check (fewer than ``MIN_BIAS_FRAMES`` frames), is not
+        reported (``shift_measured`` NaN, its uncertainty kept) and ``analysis_reason`` says why.
 
     Returns
     -------
@@ -402,6 +408,8 @@ def analyse_run(
         raise ConfigError(f"analysis: grid must be a kdvsweep.Grid, got {type(grid).__name__}")
     if not (math.isfinite(separation) and separation > 0):
         raise ConfigError(f"analysis: separation must be a positive number, got {separation}")
+    if accuracy is not None and not (math.isfinite(accuracy) and accuracy > 0):
+        raise ConfigError(f"analysis: accuracy must be a positive number or None, got {accuracy}")
     eq = _equation(equation)
     u, t = check_record(frames, times, grid.n)
     given = None if kappas is None else np.atleast_1d(np.asarray(kappas, dtype=np.float64))
@@ -485,6 +493,8 @@ def analyse_run(
         if given is None:
             row["kappa"] = float(measured[i])
     notes = _changes(rows, tracks, fits, windows, eq, references)
+    if accuracy is not None:
+        notes += _inaccurate(rows, fits, accuracy)
     pair, note = _pair_summary(u, tracks, fits, before, after, use, eq, restart)
     summary.update(pair)
     notes += [note] if note else []
@@ -591,6 +601,46 @@ def _changes(
             amplitude_change=aa - ab,
             speed_change=(ca - cb) / c_ref if c_ref != 0 else math.nan,
         )
+    return notes
+
+
+#: What to change when one term dominates a shift's uncertainty (see AsymptoticFit).
+_REMEDIES = {
+    "shift_se": "scatter of the positions: record frames more often",
+    "shift_bias": "tail overlap or a drift in the windows: start the solitons farther apart",
+    "shift_drift": "the speed changed across the collisions: a smaller time step or finer grid",
+}
+
+
+def _inaccurate(
+    rows: list[dict[str, Any]], fits: list[AsymptoticFit], accuracy: float
+) -> list[str]:
+    """Blank the shifts that do not reach ``accuracy`` (in place); one note for each."""
+    notes = []
+    for i, (row, fit) in enumerate(zip(rows, fits, strict=True)):
+        shift, pred = row["shift_measured"], row["shift_predicted"]
+        if not math.isfinite(shift):
+            continue
+        scale = abs(pred) if math.isfinite(pred) and pred != 0 else abs(shift)
+        rel = row["shift_uncertainty"] / scale if scale > 0 else math.inf
+        frames = (
+            f"{fit.n_before} frame(s) before its first collision and {fit.n_after} after its last"
+        )
+        asymptotes = row["shift_method"] == "asymptotes"
+        if asymptotes and not math.isfinite(fit.shift_bias):
+            why = (
+                f"{frames} are too few to check the fit's bias (need {MIN_BIAS_FRAMES} in each): "
+                "record frames more often or run longer"
+            )
+        elif not rel <= accuracy:
+            why = f"its uncertainty {rel:.2g} of the shift exceeds the accuracy {accuracy:g}"
+            if asymptotes:
+                terms = {k: float(getattr(fit, k)) for k in _REMEDIES}
+                why += f", mostly {_REMEDIES[max(terms, key=lambda k: terms[k])]} ({frames})"
+        else:
+            continue
+        notes.append(f"soliton {i}: shift not reported: {why}")
+        row.update(shift_measured=math.nan, shift_error=math.nan, shift_rel_error=math.nan)
     return notes
 
 
