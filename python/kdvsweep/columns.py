@@ -145,8 +145,8 @@ ANALYSIS_COLUMNS: tuple[Column, ...] = (
     Column(
         "amplitude_ratio", _F, "KdV pair: larger over smaller amplitude, (kappa_max / kappa_min)^2"
     ),
-    Column("peaks_at_closest", _F, "peaks counted at the closest approach of a pair"),
-    Column("min_peaks", _F, "fewest peaks counted between the fit windows"),
+    Column("peaks_at_closest", _F, "peaks at a pair's closest approach (run restarted there)"),
+    Column("min_peaks", _F, "fewest peaks between the fit windows (a pair: fine frames)"),
     Column("t_closest", _F, "time of the closest approach of a pair"),
     Column(
         "radiation_energy",
@@ -167,8 +167,8 @@ ANALYSIS_COLUMNS: tuple[Column, ...] = (
         "int r^2 over the same region (the L2 energy, as radiation_energy, but of what the"
         " collisions alone sent away)",
     ),
-    Column("frames_before", _I, "frames in the fit window before the collisions"),
-    Column("frames_after", _I, "frames in the fit window after the collisions"),
+    Column("frames_before", _I, "fewest frames in a soliton's fit window before its collisions"),
+    Column("frames_after", _I, "fewest frames in a soliton's fit window after its collisions"),
     Column("separation", _F, "tail lengths apart that the solitons must be in a fit window"),
 )
 
@@ -301,8 +301,8 @@ SOLITON_COLUMNS: tuple[Column, ...] = (
         "relative change of the speed through the collisions, measured as amplitude_change",
     ),
     Column("fit_residual", _F, "rms residual of the shared-speed line fit"),
-    Column("frames_before", _I, "frames used in the fit before the collisions"),
-    Column("frames_after", _I, "frames used in the fit after the collisions"),
+    Column("frames_before", _I, "frames used in the fit before its first collision"),
+    Column("frames_after", _I, "frames used in the fit after its last collision"),
 )
 
 #: Solitons columns of the content (see :data:`CONTENT_COLUMNS`): measured beside predicted, the
