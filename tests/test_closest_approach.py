@@ -29,14 +29,17 @@ from __future__ import annotations
 
 import functools
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
+from conftest import pair_sweep
 
 import kdvsweep as kv
 from kdvsweep import theory
 from kdvsweep.analysis.peaks import count_peaks, find_peaks_many
 from kdvsweep.analysis.table import analyse_run
+from kdvsweep.sweep.runner import execute
 
 LENGTH, POINTS, DT = 80.0, 512, 2e-3
 T_SYM = 8.0113  # 0.0113 after a frame at every interval below, 0.0087 before the next at 0.02
@@ -198,3 +201,15 @@ def test_accuracy_blanks_shifts_whose_windows_cannot_show_it() -> None:
     assert "soliton 2" not in reason
     with pytest.raises(kv.ConfigError, match="accuracy must be a positive number"):
         analyse_run(frames, times, grid, KDV, list(TRIPLE), accuracy=-1.0)
+
+
+def test_runner_restarts_the_collision(tmp_path: Path) -> None:
+    """A sweep run (frames every 0.5) reports Lax's two peaks just below ratio 3."""
+    k2 = 0.8 / math.sqrt(2.95)
+    spec = pair_sweep(tmp_path, "close", [k2], frame_every=0.5).runs[0]
+    row = execute(spec).run_row
+    assert row["status"] == "ok", row["reason"]
+    assert row["analysis_status"] == "ok", row["analysis_reason"]
+    assert row["regime"] == "mixed"
+    assert row["peaks_at_closest"] == 2 == theory.peaks_at_closest_approach(0.8, k2)
+    assert row["min_peaks"] == 1
