@@ -75,7 +75,9 @@ class RunAnalysis:
     fits
         The asymptotic fit of each soliton (empty unless the status is ``"ok"``).
     before, after
-        Boolean masks of the frames used in the fit windows.
+        Boolean masks of the run's windows: every pair apart, before the first collision and
+        after the last (each soliton's fit uses its own windows, often longer: ``frames_before``
+        and ``frames_after`` of ``table``).
     """
 
     table: pd.DataFrame
@@ -371,9 +373,11 @@ def analyse_run(
         The solitons' kappas, left to right at the first frame. They give ``shift_predicted``
         (else the measured kappas do) and the expected number and heights of solitons.
     separation
-        Fit windows are the frames where every pair is at least this many tail lengths
-        ``1/(2 kappa)`` (of the wider soliton) apart both ways round the domain: the tail overlap
-        then biases positions by about ``exp(-separation)`` of a width.
+        A soliton's fit windows are the frames where it is at least this many tail lengths
+        ``1/(2 kappa)`` (of the wider soliton of each pair) from every other soliton both ways
+        round the domain, before the first and after the last collision it takes part in (with
+        three or more solitons, frames where two others collide far from it count): the tail
+        overlap then biases positions by about ``exp(-separation)`` of a width.
     threshold
         Ignore extrema lower than this (default: a quarter of the smallest soliton's height).
     invariants
@@ -546,7 +550,8 @@ def _changes(
     """Fill ``amplitude_change``, ``speed_change`` (and for a perturbed run with references the
     reference shift) of each row; return notes for ``analysis_reason``.
 
-    Integrable (or no references): after-window against before-window of the run itself, the
+    Each soliton's own windows (``spans``). Integrable (or no references): after-window against
+    before-window of the run itself, the
     mean peak height and the fitted speeds. Perturbed with references: the run against its
     reference runs at the same times, after the collisions, less the same before.
     """

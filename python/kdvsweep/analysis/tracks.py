@@ -6,7 +6,9 @@ left to right. Each later frame is *linked* when every soliton can be matched to
 at least ``link_separation`` tail lengths apart: closer than that the humps trade mass (Lax's
 exchange regime) and a match by position could swap identities, so such frames are skipped and the
 identities are recovered by height once the solitons separate. Extrema that match no soliton are
-radiation or noise and are ignored; so is a soliton-like bump that does not persist.
+radiation or noise and are ignored; so is a soliton-like bump that does not persist. With three
+or more solitons, a soliton far from every other extremum is also located in the frames where two
+others collide (``Tracks.alone``), so its fit windows need not stop at collisions it takes no part in.
 
 Positions are unwrapped on the periodic domain: each match moves the soliton by its predicted
 displacement plus the shortest arc to the extremum found.
