@@ -55,34 +55,45 @@ class StepRule:
         return min(self.nonlinear / rate_nl, self.mixed / math.sqrt(rate_nl * rate_lin))
 
 
-#: Safety factor: each constant of :data:`STEP_RULE` is this times the smallest limit measured.
+#: Safety factor: the Strang and IFRK4 constants of :data:`STEP_RULE` are this times the smallest
+#: limit measured on resolved grids.
 STEP_SAFETY = 0.8
 
-#: The fixed-step schemes' step rules (the adaptive scheme chooses its own step).
+#: The smallest limits measured on grids that resolve the soliton (no resolution warning):
+#: Strang's ``dt * rate_nl`` and IFRK4's ``dt * sqrt(rate_nl * rate_lin)`` (see :data:`STEP_RULE`).
+MEASURED_STRANG = 2.86
+MEASURED_IFRK4 = 5.17
+
+#: The fixed-step schemes' step rules (the adaptive scheme chooses its own step and has none).
 #:
-#: Our measurement (2026-12-02, ``kdvsweep bench --steps``, :mod:`kdvsweep.steplimits`): the
-#: largest step, by bisection to 10 %, with which one soliton of KdV and of focusing mKdV
-#: (kappa = 0.5, 1, 2; n = 256 to 4096 on a box of 40 widths of the kappa = 1 soliton, 4 to 100
-#: points per width) crosses its box twice with neither a blow-up, nor an error against the exact
-#: soliton that keeps growing (more than 8 times from half time to the end), nor one above 30 %.
-#: Each constant is :data:`STEP_SAFETY` times the smallest limit found.
+#: Our measurement (2026-12-02, ``kdvsweep bench --steps`` with its defaults and with
+#: ``--fifth=-0.001,0.001,0.01``; :mod:`kdvsweep.steplimits`): the largest step, by bisection to
+#: 10 %, with which one soliton of KdV and of focusing mKdV (kappa = 0.5, 1, 2; n = 256 to 4096 on
+#: a box of 40 widths of the kappa = 1 soliton: 6 to 100 points per width) crosses its box twice
+#: with neither a blow-up, nor an error against the exact soliton that keeps growing (above 1e-6
+#: and 8 times the largest of the first half), nor one above 30 %. "Resolved": grids with no
+#: resolution warning (11.2 points per width for KdV, 14.9 for mKdV).
 #:
-#: - ETDRK4 never became unstable: its limits are where the soliton is lost (error above 30 %),
-#:   dt * rate_nl = 2.9 to 12 (growing with n: an accuracy limit of the soliton's own time
-#:   scale, about dt = 0.019 for kappa = 1).
-#: - Strang (an RK4 substep of the nonlinear flow) blows up at dt * rate_nl = 3.1 to 3.4 on fine
-#:   grids, the RK4 bound ``2 sqrt 2`` on the imaginary axis; on coarse ones the soliton is lost
-#:   first (1.8 to 2.2).
-#: - IFRK4 blows up, or its error grows exponentially, at a step that falls like 1/n: its limit
-#:   is the product form dt * sqrt(rate_nl * rate_lin) = 4.2 to 8.2 (dt * rate_nl alone ranged over
-#:   0.1 to 1.6). The integrating factor turns the coupling of a mode k to the data's modes q at
-#:   the frequency ``omega'(k) q``, which the RK4 stages sample; fifth-order dispersion that
-#:   slows the group velocity at the cutoff raised the limit as :func:`linear_rate` predicts. Its
-#:   nonlinear bound is the RK4 substep's, as for Strang (not binding on the solitons measured).
+#: - ETDRK4 never became unstable: every limit found is where the soliton is lost (error above
+#:   30 %), at a fixed dt for each soliton (0.0184 for the KdV kappa = 1 one, whatever n): an
+#:   accuracy limit, dt * rate_nl = 4.6 to 47 on resolved grids (2.1 to 3 on the coarsest). Its
+#:   rule keeps the former rule of thumb ``2 sqrt 2``, below all of those but the unresolved ones.
+#: - Strang (an RK4 substep of the nonlinear flow) blows up at dt * rate_nl = 2.86 to 3.4 on
+#:   resolved grids, tending to the RK4 bound ``2 sqrt 2`` on the imaginary axis as n grows;
+#:   fifth-order dispersion does not change it. On unresolved grids the soliton is lost first
+#:   (1.3 to 2.4).
+#: - IFRK4 blows up, or its error grows exponentially, at a step that falls like 1/n: dt * rate_nl
+#:   ranged over 0.16 to 1.6, while the product form dt * sqrt(rate_nl * rate_lin) stayed within
+#:   5.2 to 9.5 on resolved grids (4.3 to 6.3 on unresolved ones), KdV and mKdV alike. The
+#:   integrating factor turns the coupling of a mode k to the data's modes q at the frequency
+#:   ``omega'(k) q``, which the RK4 stages sample. Fifth-order dispersion enters through
+#:   :func:`linear_rate`: f = +-0.001 kept the product form within the spread (8.0, 8.7 at n = 512),
+#:   f = 0.01 raised it (12): the rule is cautious there. Its bound on rate_nl alone is the RK4
+#:   substep's, as for Strang (it never bound on the solitons measured).
 STEP_RULE: dict[str, StepRule] = {
-    "etdrk4": StepRule(nonlinear=STEP_SAFETY * 2.86),
-    "ifrk4": StepRule(nonlinear=STEP_SAFETY * 1.79, mixed=STEP_SAFETY * 4.19),
-    "strang": StepRule(nonlinear=STEP_SAFETY * 1.79),
+    "etdrk4": StepRule(nonlinear=2.0 * math.sqrt(2.0)),
+    "ifrk4": StepRule(nonlinear=STEP_SAFETY * MEASURED_STRANG, mixed=STEP_SAFETY * MEASURED_IFRK4),
+    "strang": StepRule(nonlinear=STEP_SAFETY * MEASURED_STRANG),
 }
 
 
@@ -456,6 +467,8 @@ __all__ = [
     "DEFAULT_SCHEME",
     "DEFAULT_TOL",
     "INVARIANTS",
+    "MEASURED_IFRK4",
+    "MEASURED_STRANG",
     "REFUSE_DECADES",
     "SCHEMES",
     "STEP_RULE",
