@@ -52,7 +52,8 @@ class StepRule:
         """The largest safe step for these rates (inf when the nonlinear rate is 0)."""
         if not rate_nl > 0:
             return math.inf
-        return min(self.nonlinear / rate_nl, self.mixed / math.sqrt(rate_nl * rate_lin))
+        product = math.sqrt(rate_nl * rate_lin)
+        return min(self.nonlinear / rate_nl, self.mixed / product if product > 0 else math.inf)
 
 
 #: Safety factor: the Strang and IFRK4 constants of :data:`STEP_RULE` are this times the smallest
@@ -168,7 +169,10 @@ def resolution_warning(u: object, equation: Equation, grid: Grid) -> str | None:
     form = equation.soliton_form_or_none()
     top = float(np.max(np.abs(np.asarray(u, dtype=np.float64))))
     if form is not None and top > 0:
-        width = float(form.width(form.kappa_of_height(top)))
+        try:
+            width = float(form.width(form.kappa_of_height(top)))
+        except (ConfigError, ValueError, ArithmeticError):  # no soliton of that height
+            return text
         text += f" (a soliton of height {top:.3g} has {width / grid.dx:.1f} points per width)"
     return text
 
