@@ -203,3 +203,14 @@ def test_bench_steps_command(capsys: pytest.CaptureFixture[str]) -> None:
     assert "--runs applies to the farm benchmark (--sweep) only" in capsys.readouterr().err
     assert cli.main([*args, "--equations", "kdv-x"]) == 2
     assert "unknown preset 'kdv-x'" in capsys.readouterr().err
+
+
+def test_rule_edge_cases() -> None:
+    # adaptive: its own error control; linear equation: no nonlinear rate; no dispersion: the
+    # product bound drops out and the RK4 bound on rate_nl alone remains (common practice)
+    assert dt_limit("adaptive", 2.0, KDV, GRID.dx) == math.inf
+    assert dt_limit("ifrk4", 2.0, kv.Equation(d=1.0), GRID.dx) == math.inf
+    burgers = kv.Equation(a=6.0, d=0.0)
+    rate = nonlinear_rate(2.0, 6.0, 0.0, burgers.dealias_fraction, GRID.dx)
+    rule = simulation.STEP_RULE["ifrk4"]
+    assert dt_limit("ifrk4", 2.0, burgers, GRID.dx) == pytest.approx(rule.nonlinear / rate)
