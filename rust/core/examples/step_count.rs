@@ -12,9 +12,10 @@ use std::hint::black_box;
 use std::process::ExitCode;
 
 use kdvsweep_core::schemes::{stepper, IfRk43};
+use kdvsweep_core::spectral::Transforms;
 use kdvsweep_core::{exact, Equation, Grid, Result, Scheme};
 use num_complex::Complex64;
-use realfft::RealFftPlanner;
+use rustfft::FftPlanner;
 
 const POINTS: usize = 512;
 const LENGTH: f64 = 40.0;
@@ -26,10 +27,9 @@ fn run(scheme: Scheme, steps: usize) -> Result<f64> {
     let x = grid.x();
     let mut u = vec![0.0; POINTS];
     exact::kdv_multisoliton(&x, 0.0, &[1.0], &[-5.0], 6.0, 1.0, &mut u)?;
-    let mut planner = RealFftPlanner::<f64>::new();
-    let r2c = planner.plan_fft_forward(POINTS);
+    let mut planner = FftPlanner::<f64>::new();
     let mut v = vec![Complex64::new(0.0, 0.0); grid.modes()];
-    r2c.process(&mut u, &mut v)?;
+    Transforms::new(&mut planner, POINTS).forward(&u, &mut v)?;
     match scheme {
         Scheme::Adaptive => {
             let mut pair = IfRk43::new(&mut planner, &grid, &eq);

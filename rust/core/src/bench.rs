@@ -3,7 +3,7 @@
 use std::time::Instant;
 
 use num_complex::Complex64;
-use realfft::RealFftPlanner;
+use rustfft::FftPlanner;
 
 use crate::error::{CoreError, Result};
 use crate::memory::try_filled;
@@ -22,7 +22,7 @@ pub fn fft_floor(n: usize, forward: usize, inverse: usize, repeats: usize) -> Re
     if repeats == 0 {
         return Err(CoreError::invalid("repeats", repeats, "at least 1"));
     }
-    let mut tr = Transforms::try_new(&mut RealFftPlanner::new(), n)?;
+    let mut tr = Transforms::try_new(&mut FftPlanner::new(), n)?;
     let mut phys = try_filled("the field", n, 0.0)?;
     phys.iter_mut()
         .enumerate()
@@ -35,10 +35,10 @@ pub fn fft_floor(n: usize, forward: usize, inverse: usize, repeats: usize) -> Re
     for _ in 0..repeats {
         for i in 0..forward.max(inverse) {
             if i < forward {
-                tr.forward(&mut phys, &mut spec)?;
+                tr.forward(&phys, &mut spec)?;
             }
             if i < inverse {
-                tr.inverse(&mut spec, &mut phys)?;
+                tr.inverse(&spec, &mut phys)?;
             }
         }
         phys.iter_mut().for_each(|x| *x *= rescale);

@@ -142,9 +142,3 @@ pub fn human_bytes(bytes: u128) -> String {
         format!("{value:.2} {}", UNITS[unit])
     }
 }
-
-impl From<realfft::FftError> for CoreError {
-    fn from(e: realfft::FftError) -> Self {
-        CoreError::Fft(e.to_string())
-    }
-}

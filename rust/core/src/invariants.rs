@@ -6,12 +6,12 @@
 //! `int (u^3 - u_x^2/2)`, the third invariant of Miura, Gardner & Kruskal (1968).
 
 use num_complex::Complex64;
-use realfft::RealFftPlanner;
+use rustfft::FftPlanner;
 
 use crate::equation::Equation;
 use crate::error::{CoreError, Result};
 use crate::grid::Grid;
-use crate::memory::{try_copy, try_filled};
+use crate::memory::try_filled;
 use crate::spectral::Transforms;
 
 /// Mass, momentum and energy of one profile.
@@ -40,16 +40,15 @@ pub fn invariants(u: &[f64], grid: &Grid, eq: &Equation) -> Result<Invariants> {
         });
     }
     let c = eq.coefficients();
-    let mut tr = Transforms::try_new(&mut RealFftPlanner::new(), n)?;
-    let mut buf = try_copy("the profile", u)?;
+    let mut tr = Transforms::try_new(&mut FftPlanner::new(), n)?;
     let mut spec = try_filled("the spectrum", grid.modes(), Complex64::new(0.0, 0.0))?;
-    tr.forward(&mut buf, &mut spec)?;
+    tr.forward(u, &mut spec)?;
     let k = grid.wavenumbers();
     let last = spec.len() - 1;
     let inv_n = 1.0 / n as f64;
     let mut derivative = |power: u32| -> Result<Vec<f64>> {
         // (i k)^power; the odd derivative of the Nyquist mode is zero for a real field.
-        let mut d: Vec<Complex64> = spec
+        let d: Vec<Complex64> = spec
             .iter()
             .zip(&k)
             .enumerate()
@@ -62,7 +61,7 @@ pub fn invariants(u: &[f64], grid: &Grid, eq: &Equation) -> Result<Invariants> {
             })
             .collect();
         let mut out = vec![0.0; n];
-        tr.inverse(&mut d, &mut out)?;
+        tr.inverse(&d, &mut out)?;
         Ok(out)
     };
     let ux = derivative(1)?;

@@ -8,7 +8,7 @@
 use std::time::{Duration, Instant};
 
 use num_complex::Complex64;
-use realfft::RealFftPlanner;
+use rustfft::FftPlanner;
 
 use crate::equation::Equation;
 use crate::error::{CoreError, Result};
@@ -68,7 +68,6 @@ pub struct Simulation {
     driver: Driver,
     transforms: Transforms,
     spectrum: Vec<Complex64>,
-    spec_tmp: Vec<Complex64>,
     phys: Vec<f64>,
     time: f64,
     steps: u64,
@@ -129,10 +128,9 @@ impl Simulation {
         ensure_available("a simulation on this grid", memory_bound(grid.n()))?;
         let m = grid.modes();
         let spectrum = try_filled("the spectrum", m, Complex64::new(0.0, 0.0))?;
-        let spec_tmp = try_filled("the spectrum", m, Complex64::new(0.0, 0.0))?;
         let phys = try_filled("the field", grid.n(), 0.0)?;
         // One planner: the stepper's plans and the driver's own transforms share its cache.
-        let mut planner = RealFftPlanner::new();
+        let mut planner = FftPlanner::new();
         let driver = match scheme {
             Scheme::Adaptive => Driver::Adaptive(Box::new(IfRk43::new(&mut planner, &grid, eq))),
             Scheme::Etdrk4 | Scheme::IfRk4 | Scheme::Strang => {
@@ -142,7 +140,6 @@ impl Simulation {
         Ok(Simulation {
             transforms: Transforms::new(&mut planner, grid.n()),
             spectrum,
-            spec_tmp,
             phys,
             grid,
             scheme,
@@ -237,8 +234,7 @@ impl Simulation {
         }
         let max_abs = u.iter().fold(0.0f64, |m, x| m.max(x.abs()));
         self.phys.copy_from_slice(u);
-        self.transforms
-            .forward(&mut self.phys, &mut self.spectrum)?;
+        self.transforms.forward(&self.phys, &mut self.spectrum)?;
         self.time = time;
         self.steps = 0;
         self.rejected = 0;
@@ -266,8 +262,7 @@ impl Simulation {
                 got: out.len(),
             });
         }
-        self.spec_tmp.copy_from_slice(&self.spectrum);
-        self.transforms.inverse(&mut self.spec_tmp, out)?;
+        self.transforms.inverse(&self.spectrum, out)?;
         let inv_n = 1.0 / n as f64;
         out.iter_mut().for_each(|x| *x *= inv_n);
         Ok(())

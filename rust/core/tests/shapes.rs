@@ -4,7 +4,7 @@ use kdvsweep_core::schemes::{stepper, IfRk43};
 use kdvsweep_core::spectral::Nonlinear;
 use kdvsweep_core::{CoreError, Equation, Grid, Scheme};
 use num_complex::Complex64;
-use realfft::RealFftPlanner;
+use rustfft::FftPlanner;
 
 fn spectrum(len: usize) -> Vec<Complex64> {
     (0..len)
@@ -32,7 +32,7 @@ fn every_stepper_rejects_a_wrongly_sized_spectrum() {
     let grid = Grid::new(64, 20.0).unwrap();
     let modes = grid.modes();
     for eq in [Equation::kdv(), Equation::mkdv()] {
-        let mut planner = RealFftPlanner::new();
+        let mut planner = FftPlanner::new();
         for scheme in Scheme::ALL {
             let mut st = stepper(&mut planner, scheme, &grid, &eq);
             // Shorter than the dealiased band, short by one, long by one, empty.

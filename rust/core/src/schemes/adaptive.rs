@@ -10,7 +10,7 @@
 //! The step advances with the fourth-order result (local extrapolation).
 
 use num_complex::Complex64;
-use realfft::RealFftPlanner;
+use rustfft::FftPlanner;
 
 use super::ifrk4::IfStages;
 use super::{symbol, zeros, Exponentials, Scheme, Stepper};
@@ -54,7 +54,7 @@ pub struct IfRk43 {
 
 impl IfRk43 {
     /// The scheme for `eq` on `grid`.
-    pub fn new(planner: &mut RealFftPlanner<f64>, grid: &Grid, eq: &Equation) -> Self {
+    pub fn new(planner: &mut FftPlanner<f64>, grid: &Grid, eq: &Equation) -> Self {
         let m = grid.modes();
         let lin = symbol(grid, eq);
         IfRk43 {

@@ -5,7 +5,7 @@
 use std::f64::consts::PI;
 
 use num_complex::Complex64;
-use realfft::RealFftPlanner;
+use rustfft::FftPlanner;
 
 use super::{symbol, zeros, CoeffCache, Scheme, Stepper};
 use crate::equation::Equation;
@@ -82,7 +82,7 @@ pub struct Etdrk4 {
 
 impl Etdrk4 {
     /// The scheme for `eq` on `grid`.
-    pub fn new(planner: &mut RealFftPlanner<f64>, grid: &Grid, eq: &Equation) -> Self {
+    pub fn new(planner: &mut FftPlanner<f64>, grid: &Grid, eq: &Equation) -> Self {
         let m = grid.modes();
         Etdrk4 {
             lin: symbol(grid, eq),

@@ -2,7 +2,7 @@
 //! Trefethen 2000, Program 27), with `E = e^{hL/2}`.
 
 use num_complex::Complex64;
-use realfft::RealFftPlanner;
+use rustfft::FftPlanner;
 
 use super::{symbol, zeros, CoeffCache, Exponentials, Scheme, Stepper};
 use crate::equation::Equation;
@@ -21,7 +21,7 @@ pub(crate) struct IfStages {
 }
 
 impl IfStages {
-    pub(crate) fn new(planner: &mut RealFftPlanner<f64>, grid: &Grid, eq: &Equation) -> Self {
+    pub(crate) fn new(planner: &mut FftPlanner<f64>, grid: &Grid, eq: &Equation) -> Self {
         let m = grid.modes();
         IfStages {
             nl: Nonlinear::new(planner, grid, eq),
@@ -84,7 +84,7 @@ pub struct IfRk4 {
 
 impl IfRk4 {
     /// The scheme for `eq` on `grid`.
-    pub fn new(planner: &mut RealFftPlanner<f64>, grid: &Grid, eq: &Equation) -> Self {
+    pub fn new(planner: &mut FftPlanner<f64>, grid: &Grid, eq: &Equation) -> Self {
         IfRk4 {
             lin: symbol(grid, eq),
             cache: CoeffCache::new(),

@@ -16,7 +16,7 @@ use std::fmt;
 use std::str::FromStr;
 
 use num_complex::Complex64;
-use realfft::RealFftPlanner;
+use rustfft::FftPlanner;
 
 pub use adaptive::{Attempt, IfRk43};
 pub use etdrk4::Etdrk4;
@@ -110,7 +110,7 @@ pub trait Stepper: Send + Sync {
 /// Builds the fixed-step stepper of a scheme (the adaptive one steps with its fixed-step rule here),
 /// planning its transforms with `planner` (which caches plans, so share one per program part).
 pub fn stepper(
-    planner: &mut RealFftPlanner<f64>,
+    planner: &mut FftPlanner<f64>,
     scheme: Scheme,
     grid: &Grid,
     eq: &Equation,

@@ -2,7 +2,7 @@
 //! from the splitting; the RK4 substep's own error is O(h^5) per step.
 
 use num_complex::Complex64;
-use realfft::RealFftPlanner;
+use rustfft::FftPlanner;
 
 use super::{symbol, zeros, CoeffCache, Exponentials, Scheme, Stepper};
 use crate::equation::Equation;
@@ -23,7 +23,7 @@ pub struct Strang {
 
 impl Strang {
     /// The scheme for `eq` on `grid`.
-    pub fn new(planner: &mut RealFftPlanner<f64>, grid: &Grid, eq: &Equation) -> Self {
+    pub fn new(planner: &mut FftPlanner<f64>, grid: &Grid, eq: &Equation) -> Self {
         let m = grid.modes();
         Strang {
             lin: symbol(grid, eq),
