@@ -11,9 +11,11 @@ import errno
 import json
 import multiprocessing
 import os
+import struct
 import subprocess
 import sys
 import time
+import zipfile
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
@@ -451,9 +453,19 @@ def test_damaged_frames_file_is_one_line(tmp_path: Path) -> None:
     out = tmp_path / "out"
     with Store.open(out, sweep) as store:
         store.write([result(s, frames=True) for s in sweep.runs[:2]])
-    _truncate(out / "frames" / "run_000001.npz")
+    # Both runs' frames are in the batch's pack: a byte of run 1's frames flipped (its member's
+    # CRC-32 no longer matches) spoils run 1 only.
+    pack = out / "frames" / "part-000000.npz"
+    with zipfile.ZipFile(pack) as zf:
+        info = zf.getinfo("u_1.npy")
+    data = bytearray(pack.read_bytes())
+    head = info.header_offset
+    name_len, extra_len = struct.unpack("<HH", data[head + 26 : head + 30])
+    start = head + 30 + name_len + extra_len
+    data[start + info.file_size - 1] ^= 0xFF
+    pack.write_bytes(bytes(data))
     res = load(out)
     assert res.frames(0).u.shape[0] == 3
-    with pytest.raises(ConfigError, match=r"run_000001.npz: damaged frames file") as err:
+    with pytest.raises(ConfigError, match=r"part-000000.npz: damaged frames file, run_id 1") as err:
         res.frames(1)
     assert "\n" not in str(err.value)

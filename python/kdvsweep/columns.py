@@ -128,7 +128,7 @@ RUN_COLUMNS: tuple[Column, ...] = (
         f"kind of failure of a failed run: {', '.join(FAILURE_KINDS)} (empty when ok)",
     ),
     Column("max_abs_u", _F, "max |u| of the final state"),
-    Column("frames_stored", _I, "frames kept in frames/run_NNNNNN.npz (0 when none)"),
+    Column("frames_stored", _I, "frames kept in the frames pack of its part (0 when none)"),
 )
 
 #: Runs columns written by the collision analysis (sweeps of soliton initial data only).

@@ -13,7 +13,43 @@ import pandas as pd
 
 from .exceptions import ConfigError
 from .model import Grid
-from .sweep.store import StoreCheck, frames_path, read_store
+from .sweep.store import (
+    StoreCheck,
+    check_store,
+    frame_members,
+    frames_pack,
+    frames_path,
+    read_store,
+)
+
+
+def _first_line(exc: BaseException) -> str:
+    return (str(exc).strip().splitlines() or [""])[0]
+
+
+def _read_frames(out: Path, rid: int, check: StoreCheck) -> tuple[np.ndarray, np.ndarray] | None:
+    """A run's frame times and frames: from the frames pack of the batch its row is read from
+    (only the pack's index and the run's two members are read), else from its file of the older
+    layout (one file per run); None when neither holds them. ConfigError for damaged frames."""
+    batch = check.kept.get(rid)
+    t_name, u_name = frame_members(rid)
+    path = frames_pack(out, batch) if batch is not None else frames_path(out, rid)
+    try:
+        if batch is not None and path.is_file():
+            with open(path, "rb") as fh, np.load(fh) as data:  # the file closes on any error
+                if u_name in data.files:
+                    return data[t_name], data[u_name]
+        path = frames_path(out, rid)
+        if not path.is_file():
+            return None
+        with open(path, "rb") as fh, np.load(fh) as data:
+            return data["t"], data["u"]
+    except (OSError, ValueError, KeyError, zipfile.BadZipFile) as exc:
+        raise ConfigError(
+            f"{path}: damaged frames file, run_id {rid} ({type(exc).__name__}: "
+            f"{_first_line(exc)}); run the sweep into a new folder to redo the run, or use the "
+            "tables without its frames"
+        ) from None
 
 
 class Frames(NamedTuple):
@@ -81,23 +117,21 @@ class Results:
         ConfigError
             The run is not stored or kept no frames (frame storage was off, or the run failed).
         """
-        path = frames_path(self.path, run_id)
-        stored = self.runs["run_id"].isin([int(run_id)]).any() if len(self.runs) else False
-        if not stored or not path.is_file():
+        rid = int(run_id)
+        stored = self.runs["run_id"].isin([rid]).any() if len(self.runs) else False
+        found = None
+        if stored:
+            check = self.check if self.check is not None else check_store(self.path)
+            found = _read_frames(self.path, rid, check)
+            if found is None and self.check is not None:  # compacted since it was loaded?
+                found = _read_frames(self.path, rid, check_store(self.path))
+        if found is None:
             raise ConfigError(
                 f"{self.path}: no stored frames for run_id {run_id}; expected a stored ok run "
                 "of a sweep with frame storage on"
             )
-        row = self.runs.loc[self.runs["run_id"] == int(run_id)].iloc[0]
-        try:
-            with open(path, "rb") as fh, np.load(fh) as data:  # the file closes on any error
-                times, u = data["t"], data["u"]
-        except (OSError, ValueError, KeyError, zipfile.BadZipFile) as exc:
-            raise ConfigError(
-                f"{path}: damaged frames file ({type(exc).__name__}: {exc}); delete it and run "
-                "the sweep again to redo the run, or use the tables without its frames"
-            ) from None
-        return Frames(times, Grid(int(row["n"]), float(row["length"])).x, u)
+        row = self.runs.loc[self.runs["run_id"] == rid].iloc[0]
+        return Frames(found[0], Grid(int(row["n"]), float(row["length"])).x, found[1])
 
     def summary(self) -> pd.DataFrame:
         """One row per soliton of each ok run: parameters, kappa, measured and predicted shifts."""

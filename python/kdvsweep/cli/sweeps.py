@@ -113,6 +113,31 @@ def register(sub: Any) -> None:
     p.add_argument("out", type=Path, metavar="OUT", help="store folder")
     p.set_defaults(handler=lambda args: _status(args.out))
 
+    p = sub.add_parser(
+        "compact",
+        help="merge a store's small parts into large ones (atomic, resumable)",
+        description=(
+            "Merge the small Parquet parts and frames packs of a store into large ones; "
+            "an interrupted compaction is finished by the next one (or by a run)."
+        ),
+    )
+    p.add_argument("out", type=Path, metavar="OUT", help="store folder")
+    p.add_argument(
+        "--rows",
+        type=int,
+        default=None,
+        metavar="N",
+        help="at most N runs rows per merged part (default 100000)",
+    )
+    p.add_argument(
+        "--megabytes",
+        type=int,
+        default=None,
+        metavar="MB",
+        help="at most MB megabytes of Parquet per merged part (default 64)",
+    )
+    p.set_defaults(handler=_compact)
+
 
 def _run(args: argparse.Namespace, file: Path) -> int:
     from ..sweep.config import load_sweep
@@ -145,6 +170,28 @@ def _run(args: argparse.Namespace, file: Path) -> int:
         f"{report.skipped} were already stored, {report.total} in the sweep; "
         f"{report.elapsed:.1f} s"
     )
+    if report.compaction is not None:
+        _say_compaction(report.compaction)
+    return 0
+
+
+def _files(counts: dict[str, int]) -> str:
+    return ", ".join(f"{name} {count}" for name, count in counts.items())
+
+
+def _say_compaction(done: Any) -> None:
+    say(
+        f"compacted {done.replaced} parts into {done.merged}; files before: "
+        f"{_files(done.before)}; after: {_files(done.after)} ({done.elapsed:.1f} s)"
+    )
+
+
+def _compact(args: argparse.Namespace) -> int:
+    from ..sweep.store import COMPACT_BYTES, COMPACT_ROWS, compact
+
+    rows = args.rows if args.rows is not None else COMPACT_ROWS
+    size = args.megabytes * 2**20 if args.megabytes is not None else COMPACT_BYTES
+    _say_compaction(compact(args.out, rows=rows, size=size))
     return 0
 
 

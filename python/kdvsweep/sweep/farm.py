@@ -66,7 +66,7 @@ from ..exceptions import ConfigError, KdvsweepError
 from .references import ReferenceSpec, compute_reference, references_for
 from .runner import RunResult, base_row, cost, execute_chunk
 from .sizing import run_memory
-from .store import Store, SweepLike
+from .store import Compaction, Store, SweepLike
 
 if TYPE_CHECKING:
     from .cluster import ClusterProfile
@@ -134,6 +134,9 @@ class SweepReport:
         Reference runs computed and stored by this call (:mod:`.references`).
     references_reused
         Reference runs read back from the store (computed by an earlier call).
+    compaction
+        What the compaction at the end of the call did (:meth:`Store.compact`: when the runs
+        table has more than :data:`~kdvsweep.sweep.store.COMPACT_AT_END` parts), or None.
     """
 
     out: Path
@@ -148,6 +151,7 @@ class SweepReport:
     chunks: int = 0
     references: int = 0
     references_reused: int = 0
+    compaction: Compaction | None = None
 
     @property
     def pending(self) -> int:
@@ -357,13 +361,15 @@ def run_sweep(
         report = SweepReport(Path(out), len(sweep.runs), skipped=len(sweep.runs) - len(todo))
         if on_progress is not None:
             on_progress(report.skipped, len(store.failed), report.total)
-        if not todo:
-            return report
-        with contextlib.ExitStack() as stack:
-            if client is None:
-                client = stack.enter_context(local_client(workers))
-            _drive(client, store, todo, report, on_progress, chunk_seconds, retries)
-    report.elapsed = time.perf_counter() - start
+        if todo:
+            with contextlib.ExitStack() as stack:
+                if client is None:
+                    client = stack.enter_context(local_client(workers))
+                _drive(client, store, todo, report, on_progress, chunk_seconds, retries)
+            report.elapsed = time.perf_counter() - start
+        # The end of a sweep (not of an interrupted one): many small parts become a few.
+        if store.needs_compaction():
+            report.compaction = store.compact()
     return report
 
 

@@ -6,7 +6,9 @@ Layout of a store ``OUT``::
                                    format version and the layout of the tables' columns
     OUT/runs/part-000000.parquet   rows of the runs table, one part per batch of completed runs
     OUT/solitons/part-000000.parquet   rows of the solitons table for the same batch
-    OUT/frames/run_000017.npz      sub-sampled frames of one run (arrays ``t`` and ``u``)
+    OUT/frames/part-000000.npz     sub-sampled frames of the batch's runs (``t_<run_id>`` and
+                                   ``u_<run_id>``; stores written before packs have one
+                                   ``run_NNNNNN.npz`` per run, still read)
     OUT/references/part-000000.parquet   reference runs (a perturbed collision's solitons run
                                    alone), by the digest of what determines them
     OUT/.lock                      held (flock) by the one process writing
@@ -31,6 +33,12 @@ batch that is not whole is set aside (its files renamed ``part-NNNNNN.parquet.da
 part first, which uncommits it) and its runs are pending again. Readers report such batches
 (:class:`StoreCheck`) instead of failing deep inside pyarrow.
 
+Compaction (:func:`compact`; the farm's end of a sweep) merges consecutive batches into one
+batch written the same way (frames pack, solitons part, runs part last); the merged runs part's
+record names the batches it ``replaces`` and its ``order`` (its place among the batches, so the
+first stored row of a run still counts). Once it is renamed into place readers skip the replaced
+batches, whose files are then removed; a writer or compaction opening the store removes any left.
+
 Every part of a table is written with the one Arrow schema of :mod:`kdvsweep.columns` for the
 sweep's :class:`~kdvsweep.columns.Layout` (kept in the manifest), whatever the values of the batch.
 """
@@ -47,7 +55,8 @@ import json
 import os
 import re
 import time
-from collections.abc import Iterable, Iterator, Mapping, Sequence
+import zipfile
+from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -100,6 +109,17 @@ REFERENCE_SCHEMA = pa.schema(
     ]
 )
 _PART = re.compile(r"^part-(\d+)\.parquet$")
+#: Suffix of a batch's frames pack (``frames/part-NNNNNN.npz``).
+FRAMES_SUFFIX = ".npz"
+_PACK = re.compile(r"^part-(\d+)\.npz$")
+_OLD_FRAMES = re.compile(r"^run_(\d+)\.npz$")
+#: Compaction: a merged part holds at most this many runs rows, this many bytes of Parquet
+#: (runs and solitons parts together) and this many bytes of frames.
+COMPACT_ROWS = 100_000
+COMPACT_BYTES = 64 * 2**20
+COMPACT_FRAMES_BYTES = 2**30
+#: The farm compacts a store at the end of a sweep when its runs table has more parts than this.
+COMPACT_AT_END = 8
 _TMP_PREFIX = ".tmp-"
 #: Suffix of the files of a batch set aside as damaged (no longer matched as parts).
 DAMAGED_SUFFIX = ".damaged"
@@ -342,6 +362,13 @@ class StoreCheck:
     ignored
         One line per part holding rows that are not counted: run ids outside the sweep, rows of
         runs already stored.
+    live
+        The batches whose rows count, in the order they count.
+    superseded
+        Batches still on disk whose rows a merged part holds (left by a compaction that was
+        interrupted after it committed; a writer removes them).
+    replaced
+        Every batch a merged part names (never used again for a new batch).
     """
 
     out: Path
@@ -351,6 +378,9 @@ class StoreCheck:
     failures: dict[int, tuple[str, str]] = field(default_factory=dict)
     damaged: list[Damage] = field(default_factory=list)
     ignored: list[str] = field(default_factory=list)
+    live: list[int] = field(default_factory=list)
+    superseded: list[int] = field(default_factory=list)
+    replaced: set[int] = field(default_factory=set)
 
     @property
     def ok(self) -> bool:
@@ -412,25 +442,51 @@ def _read_bytes(path: Path) -> bytes:
         raise _Broken(f"unreadable ({exc.strerror or _short(exc)})") from None
 
 
-def _record(table: pa.Table) -> dict[str, Any] | None:
-    """The batch record of a runs part, None for a part written without one (older kdvsweep)."""
-    meta = table.schema.metadata or {}
-    raw = meta.get(_RECORD_KEY)
+def _is_count(value: object) -> bool:
+    return isinstance(value, int) and not isinstance(value, bool) and value >= 0
+
+
+def _record(table: pa.Table | pa.Schema) -> dict[str, Any] | None:
+    """The batch record of a runs part, None for a part written without one (older kdvsweep).
+
+    Besides the solitons part's ``rows``, ``bytes`` and ``sha256``: ``frames`` (runs whose frames
+    are in the batch's frames pack), and for a part made by compaction ``replaces`` (the batches
+    it holds the rows of) and ``order`` (its place among the batches: the first it replaces).
+    """
+    schema = table if isinstance(table, pa.Schema) else table.schema
+    raw = (schema.metadata or {}).get(_RECORD_KEY)
     if raw is None:
         return None
     try:
         record = json.loads(raw)
         rows, size, digest = record["rows"], record["bytes"], record["sha256"]
-    except (ValueError, KeyError, TypeError):
+        frames = record.get("frames", 0)
+        replaces = record.get("replaces", [])
+        order = record.get("order")
+    except (ValueError, KeyError, TypeError, AttributeError):
         raise _Broken("its batch record is unreadable") from None
-    if not (isinstance(rows, int) and isinstance(size, int) and isinstance(digest, str)):
+    if not (
+        _is_count(rows)
+        and _is_count(size)
+        and isinstance(digest, str)
+        and _is_count(frames)
+        and isinstance(replaces, list)
+        and all(_is_count(r) for r in replaces)
+        and (order is None or _is_count(order))
+    ):
         raise _Broken("its batch record is unreadable")
-    return {"rows": rows, "bytes": size, "sha256": digest}
+    found = {"rows": rows, "bytes": size, "sha256": digest, "frames": frames}
+    if replaces:
+        found["replaces"] = sorted(replaces)
+        found["order"] = min(replaces) if order is None else order
+    return found
 
 
-def _batch(out: Path, seq: int, runs_path: Path, lay: Layout) -> tuple[pa.Table, pa.Table | None]:
-    """The runs and solitons tables of one committed batch, checked; :class:`_Broken` names the
-    file found wrong (as its first argument) and the problem."""
+def _batch(
+    out: Path, seq: int, runs_path: Path, lay: Layout
+) -> tuple[pa.Table, pa.Table | None, dict[str, Any]]:
+    """The runs and solitons tables of one committed batch, checked, and its record;
+    :class:`_Broken` names the file found wrong (as its first argument) and the problem."""
     try:
         runs = _parse(_read_bytes(runs_path), lay.schema("runs"))
         record = _record(runs)
@@ -465,31 +521,79 @@ def _batch(out: Path, seq: int, runs_path: Path, lay: Layout) -> tuple[pa.Table,
         raise _Broken(sol_path, "vanished while it was read") from None
     except _Broken as exc:
         raise _Broken(sol_path, str(exc)) from None
-    return runs, solitons
+    return runs, solitons, record
 
 
-def _scan(
-    out: Path, manifest: Mapping[str, Any], keep: bool
-) -> tuple[StoreCheck, dict[int, tuple[pa.Table, pa.Table | None]]]:
-    """Check every committed batch; with ``keep``, also return the tables of the whole ones."""
+class _Vanished(Exception):
+    """A part disappeared while a store was read (a writer compacted or set it aside)."""
+
+
+#: Times a reader scans a store again when a part vanished under it (a compaction finishing).
+_SCAN_ATTEMPTS = 4
+
+Tables = dict[int, tuple[pa.Table, "pa.Table | None"]]
+
+
+def _scan(out: Path, manifest: Mapping[str, Any], keep: bool) -> tuple[StoreCheck, Tables]:
+    """Check every committed batch; with ``keep``, also return the tables of the live ones, in
+    the order their rows count (the first stored row of a run is kept).
+
+    A part that vanishes while it is read (a writer finishing a compaction removes the parts a
+    merged part replaces; a writer sets a damaged batch aside) makes the scan start again, so a
+    reader never misses the rows of a merged part it did not list.
+    """
     lay = layout(manifest)
+    for _ in range(_SCAN_ATTEMPTS - 1):
+        try:
+            return _scan_once(out, manifest, lay, keep, tolerate=False)
+        except _Vanished:
+            continue
+    return _scan_once(out, manifest, lay, keep, tolerate=True)
+
+
+def _scan_once(
+    out: Path, manifest: Mapping[str, Any], lay: Layout, keep: bool, tolerate: bool
+) -> tuple[StoreCheck, Tables]:
     check = StoreCheck(out, int(manifest["runs_total"]))
-    tables: dict[int, tuple[pa.Table, pa.Table | None]] = {}
+    whole: dict[int, tuple[Path, pa.Table, pa.Table | None, dict[str, Any]]] = {}
+    broken: list[Damage] = []
+    foreign: dict[int, str] = {}
     for seq, path in _committed_parts(out).items():
         try:
-            runs, solitons = _batch(out, seq, path, lay)
-        except FileNotFoundError:  # set aside meanwhile by a writer: not committed any more
-            continue
+            runs, solitons, record = _batch(out, seq, path, lay)
+        except FileNotFoundError:  # set aside or replaced meanwhile by a writer
+            if tolerate:
+                continue
+            raise _Vanished(path) from None
         except _Foreign as exc:
-            check.ignored.append(
+            foreign[seq] = (
                 f"runs/{path.name}: no batch record, so not written by kdvsweep; its "
                 f"{exc.args[0]} row(s) ignored"
             )
             continue
         except _Broken as exc:
             where, problem = exc.args if len(exc.args) == 2 else (path, str(exc))
-            check.damaged.append(Damage(seq, Path(where), str(problem)))
+            broken.append(Damage(seq, Path(where), str(problem)))
             continue
+        whole[seq] = (path, runs, solitons, record)
+    # A whole merged part replaces its batches: they are left-overs of a compaction that
+    # committed (readers skip them; a writer removes them), damaged or not.
+    for _, _, _, record in whole.values():
+        check.replaced.update(record.get("replaces", ()))
+    check.superseded = sorted(
+        seq for seq in (*whole, *foreign, *(d.batch for d in broken)) if seq in check.replaced
+    )
+    check.damaged = [d for d in broken if d.batch not in check.replaced]
+    ignored = [(seq, line) for seq, line in foreign.items() if seq not in check.replaced]
+    live = sorted(
+        (record.get("order", seq), seq)
+        for seq, (_, _, _, record) in whole.items()
+        if seq not in check.replaced
+    )
+    tables: Tables = {}
+    for _, seq in live:
+        path, runs, solitons, _ = whole[seq]
+        check.live.append(seq)
         outside = duplicate = 0
         statuses = runs.column("status").to_pylist()
         for i, rid in enumerate(runs.column("run_id").to_pylist()):
@@ -507,16 +611,24 @@ def _scan(
                     )
         name = f"runs/{path.name}"
         if outside:
-            check.ignored.append(
-                f"{name}: {outside} row(s) of a run_id outside the sweep "
-                f"(0..{check.total - 1}) ignored"
+            ignored.append(
+                (
+                    seq,
+                    f"{name}: {outside} row(s) of a run_id outside the sweep "
+                    f"(0..{check.total - 1}) ignored",
+                )
             )
         if duplicate:
-            check.ignored.append(
-                f"{name}: {duplicate} row(s) of runs stored before ignored (the first row counts)"
+            ignored.append(
+                (
+                    seq,
+                    f"{name}: {duplicate} row(s) of runs stored before ignored "
+                    "(the first row counts)",
+                )
             )
         if keep:
             tables[seq] = (runs, solitons)
+    check.ignored = [line for _, line in sorted(ignored, key=lambda item: item[0])]
     return check, tables
 
 
@@ -612,8 +724,57 @@ def read_table(out: str | os.PathLike[str], table: str) -> pd.DataFrame:
 
 
 def frames_path(out: str | os.PathLike[str], run_id: int) -> Path:
-    """Where the frames of one run are stored."""
+    """Where the frames of one run were stored by kdvsweep before frames packs (still read)."""
     return Path(out) / "frames" / f"run_{int(run_id):06d}.npz"
+
+
+def frames_pack(out: str | os.PathLike[str], batch: int) -> Path:
+    """The frames pack of one batch: an uncompressed ``.npz`` (zip) holding ``t_<run_id>`` and
+    ``u_<run_id>`` of each of its runs with frames; its central directory is the index, so one
+    run's frames are read without the others'."""
+    return Path(out) / "frames" / f"part-{int(batch):06d}{FRAMES_SUFFIX}"
+
+
+def frame_members(run_id: int) -> tuple[str, str]:
+    """The names of a run's frame times and frames in a pack (as ``np.load`` gives them)."""
+    return f"t_{int(run_id)}", f"u_{int(run_id)}"
+
+
+def _pack_files(folder: Path) -> dict[int, Path]:
+    """The frames packs of a store, by batch."""
+    found = {}
+    with contextlib.suppress(OSError):
+        for entry in folder.iterdir():
+            m = _PACK.match(entry.name)
+            if m:
+                found[int(m.group(1))] = entry
+    return dict(sorted(found.items()))
+
+
+def _write_pack(path: Path, members: Iterable[tuple[str, bytes]]) -> int:
+    """Write a frames pack (``name.npy`` members, stored) atomically; returns the members."""
+    tmp = path.with_name(f"{_TMP_PREFIX}{os.getpid()}-{path.name}")
+    count = 0
+    try:
+        with open(tmp, "wb") as fh:
+            with zipfile.ZipFile(fh, "w", zipfile.ZIP_STORED, allowZip64=True) as zf:
+                for name, data in members:
+                    zf.writestr(name, data)
+                    count += 1
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    except OSError as exc:
+        with contextlib.suppress(OSError):
+            tmp.unlink(missing_ok=True)
+        raise io_error(path, exc) from None
+    return count
+
+
+def _npy(array: np.ndarray) -> bytes:
+    buf = io.BytesIO()
+    np.lib.format.write_array(buf, np.asanyarray(array), allow_pickle=False)
+    return buf.getvalue()
 
 
 class Store:
@@ -639,8 +800,14 @@ class Store:
         self.ignored: list[str] = list(check.ignored)
         for damage in check.damaged:
             self._set_aside(damage.batch)
+        self._drop(check.superseded)  # finish a compaction that committed
         self._clean_leftovers()
-        every = set(_committed_parts(out)) | set(part_files(out / "solitons"))
+        every = (
+            set(_committed_parts(out))
+            | set(part_files(out / "solitons"))
+            | set(_pack_files(out / "frames"))
+            | check.replaced
+        )
         self._next = (max(every) + 1) if every else 0
         self._done: set[int] = set(check.kept)
         self._failed: set[int] = set(check.failed)
@@ -693,6 +860,26 @@ class Store:
             lock.close()
             if isinstance(exc, OSError):
                 raise io_error(out, exc) from None
+            raise
+
+    @classmethod
+    def existing(cls, out: str | os.PathLike[str]) -> Store:
+        """Open the store ``out`` for writing without its sweep file (to compact it).
+
+        Raises
+        ------
+        ConfigError
+            ``out`` is not a store this kdvsweep reads.
+        StoreBusyError
+            Another process is writing to it.
+        """
+        out = Path(out)
+        read_manifest(out)  # refuse a folder that is not a store before taking any lock
+        lock = _take_lock(out)
+        try:
+            return cls(out, read_manifest(out), lock)
+        except BaseException:
+            lock.close()
             raise
 
     @staticmethod
@@ -796,8 +983,9 @@ class Store:
     def write(self, results: Sequence[RunResult]) -> int:
         """Store a batch of results atomically; runs already stored are dropped. Returns the count.
 
-        Order matters for crash safety: frames, then the solitons part, then the runs part, which
-        commits the batch and records the solitons part's row count, size and checksum.
+        Order matters for crash safety: the frames pack, then the solitons part, then the runs
+        part, which commits the batch and records the solitons part's row count, size and
+        checksum.
 
         Raises
         ------
@@ -819,11 +1007,15 @@ class Store:
         seq = self._next
         self._next = seq + 1  # never reused in this session, even if this batch fails
         name = f"part-{seq:06d}.parquet"
-        for res in fresh.values():
+        members = []
+        for rid, res in fresh.items():
             if res.frames is not None and res.frame_times is not None:
-                buf = io.BytesIO()
-                np.savez(buf, t=res.frame_times, u=res.frames)
-                write_atomic(frames_path(self.out, res.run_id), buf.getvalue(), sync_dir=False)
+                t_name, u_name = frame_members(rid)
+                members += [
+                    (f"{t_name}.npy", _npy(res.frame_times)),
+                    (f"{u_name}.npy", _npy(res.frames)),
+                ]
+        framed = _write_pack(frames_pack(self.out, seq), members) // 2 if members else 0
         soliton_rows = [row for res in fresh.values() for row in res.soliton_rows]
         runs = _arrow_table([res.run_row for res in fresh.values()], self.layout.schema("runs"))
         data = b""
@@ -834,6 +1026,7 @@ class Store:
             "rows": len(soliton_rows),
             "bytes": len(data),
             "sha256": hashlib.sha256(data).hexdigest(),
+            "frames": framed,
         }
         runs = runs.replace_schema_metadata({_RECORD_KEY: json.dumps(record).encode()})
         # Everything of the batch is durable before the runs part that commits it.
@@ -843,6 +1036,152 @@ class Store:
         self._done.update(fresh)
         self._failed.update(rid for rid, res in fresh.items() if not res.ok)
         return len(fresh)
+
+    # -- compaction ----------------------------------------------------------------------------
+    def compact(
+        self,
+        rows: int = COMPACT_ROWS,
+        size: int = COMPACT_BYTES,
+        frames_size: int = COMPACT_FRAMES_BYTES,
+    ) -> Compaction:
+        """Merge runs of small consecutive batches into large ones (see :func:`compact`).
+
+        Each group of consecutive batches (at most ``rows`` runs rows, ``size`` bytes of Parquet,
+        ``frames_size`` bytes of frames) becomes one batch, written like any other: its frames
+        pack, then its solitons part, then its runs part, which commits it and records in its
+        batch record the batches it replaces. From that rename on, readers read the merged part
+        instead of those batches, whose files are then removed. A crash at any point leaves
+        either the old batches (the merged files are left-overs of an uncommitted batch, removed
+        when the store is next opened for writing) or the merged part (the replaced files are
+        removed when the store is next opened for writing, or by the next compaction); readers
+        count every run once in both states.
+        """
+        start = time.perf_counter()
+        before = store_files(self.out)
+        check, _ = _scan(self.out, self.manifest, keep=False)
+        self._drop(check.superseded)
+        self._clean_leftovers()
+        old_frames = _old_frames(self.out)
+        per_batch: dict[int, int] = {}
+        for seq in check.kept.values():
+            per_batch[seq] = per_batch.get(seq, 0) + 1
+        framed_old: dict[int, int] = {}
+        for rid, path in old_frames.items():
+            batch = check.kept.get(rid)
+            if batch is not None:
+                framed_old[batch] = framed_old.get(batch, 0) + _size(path)
+        sizes = []
+        for seq in check.live:
+            name = f"part-{seq:06d}.parquet"
+            parquet = _size(self.out / "runs" / name) + _size(self.out / "solitons" / name)
+            frames = _size(frames_pack(self.out, seq)) + framed_old.get(seq, 0)
+            sizes.append((seq, per_batch.get(seq, 0), parquet, frames))
+        groups = _groups(sizes, rows, size, frames_size)
+        replaced = 0
+        merged = 0
+        for group in groups:
+            try:
+                self._merge(group, check, old_frames)
+            except _Broken:  # changed on disk since the scan: left as it is (checked next time)
+                continue
+            merged += 1
+            replaced += len(group)
+        self._drop_migrated_frames(check, old_frames)
+        return Compaction(
+            self.out,
+            before,
+            store_files(self.out),
+            merged,
+            replaced,
+            time.perf_counter() - start,
+        )
+
+    def needs_compaction(self, parts: int = COMPACT_AT_END) -> bool:
+        """True when the runs table has more than ``parts`` parts (the farm's rule)."""
+        return len(_committed_parts(self.out)) > parts
+
+    def _merge(self, group: Sequence[int], check: StoreCheck, old_frames: dict[int, Path]) -> int:
+        """Write the batches ``group`` (consecutive live batches) as one merged batch; returns
+        its sequence number. Only the rows that count (the kept row of each run) are copied."""
+        lay = self.layout
+        seq = self._next
+        self._next = seq + 1
+        name = f"part-{seq:06d}.parquet"
+        run_tables, sol_tables, sources = [], [], []
+        replaces: set[int] = set()
+        order = None
+        for old in group:
+            runs, solitons, record = _batch(
+                self.out, old, self.out / "runs" / f"part-{old:06d}.parquet", lay
+            )
+            replaces.add(old)
+            replaces.update(record.get("replaces", ()))
+            own = record.get("order", old)
+            order = own if order is None else min(order, own)
+            taken: set[int] = set()
+            mask = []
+            for rid in runs.column("run_id").to_pylist():
+                mine = rid is not None and check.kept.get(rid) == old and rid not in taken
+                if mine:
+                    taken.add(rid)
+                mask.append(mine)
+            run_tables.append(
+                runs.filter(pa.array(mask, type=pa.bool_())).replace_schema_metadata(None)
+            )
+            if solitons is not None:
+                keep = pa.array(
+                    [r in taken for r in solitons.column("run_id").to_pylist()], type=pa.bool_()
+                )
+                sol_tables.append(solitons.filter(keep).replace_schema_metadata(None))
+            sources.append((old, sorted(taken)))
+        framed: list[int] = []
+        pack = frames_pack(self.out, seq)
+        if any(_size(frames_pack(self.out, old)) for old in group) or any(
+            rid in old_frames for _, ids in sources for rid in ids
+        ):
+            _write_pack(pack, _copy_frames(self.out, sources, old_frames, framed))
+            if not framed:
+                pack.unlink(missing_ok=True)
+        _compaction_step("wrote the frames pack")
+        data = b""
+        solitons_table = pa.concat_tables(sol_tables) if sol_tables else None
+        if solitons_table is not None and solitons_table.num_rows:
+            data = _parquet_bytes(solitons_table)
+            write_atomic(self.out / "solitons" / name, data, sync_dir=False)
+        _compaction_step("wrote the solitons part")
+        record = {
+            "rows": 0 if not data else solitons_table.num_rows,  # type: ignore[union-attr]
+            "bytes": len(data),
+            "sha256": hashlib.sha256(data).hexdigest(),
+            "frames": len(framed),
+            "replaces": sorted(replaces),
+            "order": order,
+        }
+        merged = pa.concat_tables(run_tables)
+        merged = merged.replace_schema_metadata({_RECORD_KEY: json.dumps(record).encode()})
+        _fsync_dir(self.out / "frames")
+        _fsync_dir(self.out / "solitons")
+        write_atomic(self.out / "runs" / name, _parquet_bytes(merged))  # the commit
+        _compaction_step("committed the merged part")
+        self._drop(group)
+        for rid in framed:
+            if rid in old_frames:
+                old_frames.pop(rid).unlink(missing_ok=True)
+                _compaction_step(f"removed frames/run_{rid:06d}.npz")
+        return seq
+
+    def _drop_migrated_frames(self, check: StoreCheck, old_frames: dict[int, Path]) -> None:
+        """Remove frames files of the older layout whose run's frames are in its batch's pack
+        (left by a compaction interrupted after it committed)."""
+        names: dict[int, set[str]] = {}
+        for rid, path in list(old_frames.items()):
+            seq = check.kept.get(rid)
+            if seq is None:
+                continue
+            if seq not in names:
+                names[seq] = _pack_names(frames_pack(self.out, seq))
+            if f"{frame_members(rid)[1]}.npy" in names[seq]:
+                path.unlink(missing_ok=True)
 
     # -- reference runs ------------------------------------------------------------------------
     def has_reference(self, digest: str) -> bool:
@@ -910,8 +1249,29 @@ class Store:
                     raise io_error(path, exc, "set aside the damaged part") from None
                 _fsync_dir(path.parent)
 
+    def _drop(self, batches: Iterable[int]) -> None:
+        """Remove the files of batches a merged part replaces: the runs part first (the others
+        are then left-overs of an uncommitted batch), then the solitons part and frames pack."""
+        for seq in batches:
+            name = f"part-{seq:06d}.parquet"
+            for path in (
+                self.out / "runs" / name,
+                self.out / "runs" / (name + DAMAGED_SUFFIX),
+                self.out / "solitons" / name,
+                self.out / "solitons" / (name + DAMAGED_SUFFIX),
+                frames_pack(self.out, seq),
+            ):
+                try:
+                    path.unlink(missing_ok=True)
+                except OSError as exc:
+                    raise io_error(path, exc, "remove a part replaced by compaction") from None
+                _compaction_step(f"removed {path.parent.name}/{path.name}")
+        for folder in FOLDERS:
+            _fsync_dir(self.out / folder)
+
     def _clean_leftovers(self) -> None:
-        """Remove temporary files and the solitons parts of batches that never committed."""
+        """Remove temporary files, and the solitons parts and frames packs of batches that never
+        committed."""
         committed = _committed_parts(self.out)
         for folder in (self.out, *(self.out / t for t in (*FOLDERS, REFERENCES))):
             if not folder.is_dir():
@@ -922,6 +1282,174 @@ class Store:
         for seq, path in part_files(self.out / "solitons").items():
             if seq not in committed:
                 path.unlink(missing_ok=True)
+        for seq, path in _pack_files(self.out / "frames").items():
+            if seq not in committed:
+                path.unlink(missing_ok=True)
+
+
+#: Called after each step of a compaction with what was done (tests interrupt it there).
+_COMPACTION_HOOK: Callable[[str], None] | None = None
+
+
+def _compaction_step(what: str) -> None:
+    if _COMPACTION_HOOK is not None:
+        _COMPACTION_HOOK(what)
+
+
+@dataclass(frozen=True)
+class Compaction:
+    """What :func:`compact` did.
+
+    Attributes
+    ----------
+    out
+        The store folder.
+    before, after
+        Files per folder (``runs``, ``solitons``, ``frames``) before and after.
+    merged
+        Merged parts written.
+    replaced
+        Batches they replace (removed).
+    elapsed
+        Seconds.
+    """
+
+    out: Path
+    before: dict[str, int]
+    after: dict[str, int]
+    merged: int
+    replaced: int
+    elapsed: float
+
+
+def store_files(out: str | os.PathLike[str]) -> dict[str, int]:
+    """Files per folder of a store: parts of ``runs`` and ``solitons``, files of ``frames``."""
+    out = Path(out)
+    frames = 0
+    with contextlib.suppress(OSError):
+        frames = sum(
+            1
+            for e in (out / "frames").iterdir()
+            if _PACK.match(e.name) or _OLD_FRAMES.match(e.name)
+        )
+    return {
+        "runs": len(part_files(out / "runs")),
+        "solitons": len(part_files(out / "solitons")),
+        "frames": frames,
+    }
+
+
+def compact(
+    out: str | os.PathLike[str],
+    rows: int = COMPACT_ROWS,
+    size: int = COMPACT_BYTES,
+    frames_size: int = COMPACT_FRAMES_BYTES,
+) -> Compaction:
+    """Merge the small parts of a store into large ones, atomically and resumably.
+
+    Consecutive batches are merged into parts of at most ``rows`` runs rows, ``size`` bytes of
+    Parquet (runs and solitons parts) and ``frames_size`` bytes of frames (one frames pack per
+    merged part). Only the rows that count are copied (the first stored row of each run), with
+    their solitons rows and frames; each merged part carries a batch record like any batch (the
+    solitons part's rows, size and SHA-256), so the store's checks hold for it. Damaged batches
+    are set aside first (their runs count as pending, as when a sweep resumes). The writer's lock
+    is held throughout. Interrupted at any point, the store reads the same, and the next
+    compaction or run into it finishes or undoes what was left.
+
+    Raises
+    ------
+    ConfigError
+        ``out`` is not a store this kdvsweep reads.
+    StoreBusyError
+        Another process is writing to it.
+    """
+    for name, value in (("rows", rows), ("size", size), ("frames_size", frames_size)):
+        if not (isinstance(value, int) and value > 0):
+            raise ConfigError(f"compact: {name} is {value!r}; expected a positive whole number")
+    with Store.existing(out) as store:
+        return store.compact(rows, size, frames_size)
+
+
+def _size(path: Path) -> int:
+    try:
+        return path.stat().st_size
+    except OSError:
+        return 0
+
+
+def _old_frames(out: Path) -> dict[int, Path]:
+    """Frames files of the older layout (one per run), by run id."""
+    found = {}
+    with contextlib.suppress(OSError):
+        for entry in (out / "frames").iterdir():
+            m = _OLD_FRAMES.match(entry.name)
+            if m:
+                found[int(m.group(1))] = entry
+    return found
+
+
+def _pack_names(path: Path) -> set[str]:
+    """The members of a frames pack (empty when it is absent or unreadable)."""
+    try:
+        with zipfile.ZipFile(path) as zf:
+            return set(zf.namelist())
+    except (OSError, zipfile.BadZipFile, ValueError):
+        return set()
+
+
+def _groups(
+    sizes: Sequence[tuple[int, int, int, int]], rows: int, size: int, frames_size: int
+) -> list[list[int]]:
+    """Consecutive batches ``(seq, rows, parquet bytes, frames bytes)`` grouped up to the
+    targets; only groups of two batches or more are worth merging."""
+    groups: list[list[int]] = []
+    current: list[int] = []
+    total = [0, 0, 0]
+    for seq, n, parquet, frames in sizes:
+        grown = (total[0] + n, total[1] + parquet, total[2] + frames)
+        if current and (grown[0] > rows or grown[1] > size or grown[2] > frames_size):
+            groups.append(current)
+            current, grown = [], (n, parquet, frames)
+        current.append(seq)
+        total = list(grown)
+    groups.append(current)
+    return [g for g in groups if len(g) > 1]
+
+
+def _copy_frames(
+    out: Path,
+    sources: Sequence[tuple[int, Sequence[int]]],
+    old_frames: Mapping[int, Path],
+    framed: list[int],
+) -> Iterator[tuple[str, bytes]]:
+    """The members of a merged frames pack, one run at a time: each run's frames from its
+    batch's pack, or from its file of the older layout; a run whose frames are not readable
+    (damaged) is left out. ``framed`` receives the runs copied."""
+    for old, ids in sources:
+        try:
+            zin: zipfile.ZipFile | None = zipfile.ZipFile(frames_pack(out, old))
+        except (OSError, zipfile.BadZipFile, ValueError):
+            zin = None
+        try:
+            names = set(zin.namelist()) if zin is not None else set()
+            for rid in ids:
+                t_name, u_name = (f"{m}.npy" for m in frame_members(rid))
+                found = None
+                try:
+                    if zin is not None and t_name in names and u_name in names:
+                        found = (zin.read(t_name), zin.read(u_name))
+                    elif rid in old_frames:
+                        with zipfile.ZipFile(old_frames[rid]) as zold:
+                            found = (zold.read("t.npy"), zold.read("u.npy"))
+                except (OSError, zipfile.BadZipFile, KeyError, ValueError):
+                    found = None
+                if found is not None:
+                    yield t_name, found[0]
+                    yield u_name, found[1]
+                    framed.append(rid)
+        finally:
+            if zin is not None:
+                zin.close()
 
 
 def _read_references(path: Path, wanted: set[str] | None = None) -> dict[str, ReferenceTrack]:
@@ -1088,21 +1616,36 @@ def _take_lock(out: Path) -> _Lock:
 
 
 def iter_parts(out: str | os.PathLike[str], table: str) -> Iterator[Path]:
-    """The committed part files of one table, in batch order (for tools that stream)."""
+    """The committed part files of one table, in batch order (for tools that stream); parts a
+    merged part replaces are left out (their batch records are read, not their rows)."""
     committed = _committed_parts(Path(out))
+    replaced: set[int] = set()
+    for path in committed.values():
+        try:
+            record = _record(pq.read_schema(path))
+        except (_Broken, OSError, pa.ArrowException):
+            continue
+        if record is not None:
+            replaced.update(record.get("replaces", ()))
     folder = Path(out) / table
     for seq, path in part_files(folder).items():
-        if seq in committed:
+        if seq in committed and seq not in replaced:
             yield path
 
 
 __all__ = [
+    "COMPACT_AT_END",
+    "COMPACT_BYTES",
+    "COMPACT_FRAMES_BYTES",
+    "COMPACT_ROWS",
     "DAMAGED_SUFFIX",
+    "FRAMES_SUFFIX",
     "MANIFEST",
     "REFERENCES",
     "REPAIR_ADVICE",
     "STORE_FORMAT",
     "STORE_VERSION",
+    "Compaction",
     "Damage",
     "Store",
     "StoreBusyError",
@@ -1110,6 +1653,9 @@ __all__ = [
     "StoreContents",
     "check_parameter_names",
     "check_store",
+    "compact",
+    "frame_members",
+    "frames_pack",
     "frames_path",
     "io_error",
     "iter_parts",
@@ -1119,4 +1665,5 @@ __all__ = [
     "read_references",
     "read_store",
     "read_table",
+    "store_files",
 ]
