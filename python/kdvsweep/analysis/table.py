@@ -123,7 +123,9 @@ def _windows(tracks: Tracks) -> tuple[np.ndarray, np.ndarray, np.ndarray, str, s
     before = sep & np.all(laps == laps[first], axis=1)
     after = sep & np.all(laps == laps[last], axis=1)
     counts = np.abs(laps[last] - laps[first]) if npairs else counts
-    if npairs == 0 or not counts.any():
+    if npairs == 0:
+        return before, none, counts, "too_short", "one soliton: there is no collision to measure"
+    if not counts.any():
         return (
             before,
             none,
