@@ -802,6 +802,7 @@ class Store:
             self._set_aside(damage.batch)
         self._drop(check.superseded)  # finish a compaction that committed
         self._clean_leftovers()
+        self._check: StoreCheck | None = check  # what is live, until the next write
         every = (
             set(_committed_parts(out))
             | set(part_files(out / "solitons"))
@@ -957,6 +958,7 @@ class Store:
         targets = set(self._failed)
         if not targets:
             return frozenset()
+        self._check = None
         check, tables = _scan(self.out, self.manifest, keep=True)
         for solitons in (sol for _, sol in tables.values() if sol is not None):
             targets -= set(solitons.column("run_id").to_pylist())
@@ -1004,6 +1006,7 @@ class Store:
                 fresh[res.run_id] = res
         if not fresh:
             return 0
+        self._check = None
         seq = self._next
         self._next = seq + 1  # never reused in this session, even if this batch fails
         name = f"part-{seq:06d}.parquet"
@@ -1058,9 +1061,12 @@ class Store:
         """
         start = time.perf_counter()
         before = store_files(self.out)
-        check, _ = _scan(self.out, self.manifest, keep=False)
-        self._drop(check.superseded)
-        self._clean_leftovers()
+        check = self._check
+        if check is None:  # written since it was opened
+            check, _ = _scan(self.out, self.manifest, keep=False)
+            self._drop(check.superseded)
+            self._clean_leftovers()
+        self._check = None
         old_frames = _old_frames(self.out)
         per_batch: dict[int, int] = {}
         for seq in check.kept.values():
