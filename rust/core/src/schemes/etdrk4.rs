@@ -7,10 +7,11 @@ use std::f64::consts::PI;
 use num_complex::Complex64;
 use rustfft::FftPlanner;
 
-use super::{symbol, zeros, CoeffCache, Scheme, Stepper};
+use super::{linear, symbol, zeros, CoeffCache, Scheme, Stepper};
 use crate::equation::Equation;
 use crate::error::Result;
 use crate::grid::Grid;
+use crate::simd::kernel;
 use crate::spectral::{check_modes, Nonlinear, Probe};
 
 /// Points on the contour: the trapezoidal rule converges geometrically for these entire functions,
@@ -112,36 +113,76 @@ impl Stepper for Etdrk4 {
         let (f1, f2, f3) = (&c.f1[..k], &c.f2[..k], &c.f3[..k]);
         self.nl.load(v)?;
         let probe = self.nl.eval_probed(&mut self.nv)?;
-        {
-            let (input, a, nv, vk) = (self.nl.input(), &mut self.a[..k], &self.nv[..k], &v[..k]);
-            for j in 0..k {
-                a[j] = e2[j] * vk[j] + q[j] * nv[j];
-                input[j] = a[j];
-            }
-        }
+        let vk = &v[..k];
+        stage_a(self.nl.input(), &mut self.a[..k], e2, q, vk, &self.nv[..k]);
         self.nl.eval(&mut self.na)?;
-        {
-            let (input, na, vk) = (self.nl.input(), &self.na[..k], &v[..k]);
-            for j in 0..k {
-                input[j] = e2[j] * vk[j] + q[j] * na[j];
-            }
-        }
+        stage_b(self.nl.input(), e2, q, vk, &self.na[..k]);
         self.nl.eval(&mut self.nb)?;
-        {
-            let (input, a, nb, nv) = (self.nl.input(), &self.a[..k], &self.nb[..k], &self.nv[..k]);
-            for j in 0..k {
-                input[j] = e2[j] * a[j] + q[j] * (2.0 * nb[j] - nv[j]);
-            }
-        }
+        stage_c(
+            self.nl.input(),
+            e2,
+            q,
+            &self.a[..k],
+            &self.nb[..k],
+            &self.nv[..k],
+        );
         self.nl.eval(&mut self.nc)?;
-        let (nv, na, nb, nc) = (&self.nv[..k], &self.na[..k], &self.nb[..k], &self.nc[..k]);
         let (vk, tail) = v.split_at_mut(k);
-        for j in 0..k {
-            vk[j] = e[j] * vk[j] + f1[j] * nv[j] + 2.0 * f2[j] * (na[j] + nb[j]) + f3[j] * nc[j];
-        }
-        for (vj, ej) in tail.iter_mut().zip(&c.e[k..]) {
-            *vj *= ej;
-        }
+        let ns = [&self.nv[..k], &self.na[..k], &self.nb[..k], &self.nc[..k]];
+        update(vk, e, [f1, f2, f3], ns);
+        linear(tail, &c.e[k..]);
         Ok(probe)
+    }
+}
+
+// The stage formulas, one loop each over the kept modes. Every slice is cut to the length of the
+// first, which lets the compiler drop the bounds checks and vectorise.
+
+kernel! {
+    /// `a = E_2 v + Q N(v)`, also the next argument.
+    fn stage_a(input: &mut [Complex64], a: &mut [Complex64], e2: &[Complex64], q: &[Complex64],
+               v: &[Complex64], nv: &[Complex64]) {
+        let n = input.len();
+        let (a, e2, q, v, nv) = (&mut a[..n], &e2[..n], &q[..n], &v[..n], &nv[..n]);
+        for j in 0..n {
+            a[j] = e2[j] * v[j] + q[j] * nv[j];
+            input[j] = a[j];
+        }
+    }
+}
+
+kernel! {
+    /// `b = E_2 v + Q N(a)`.
+    fn stage_b(input: &mut [Complex64], e2: &[Complex64], q: &[Complex64], v: &[Complex64],
+               na: &[Complex64]) {
+        let n = input.len();
+        let (e2, q, v, na) = (&e2[..n], &q[..n], &v[..n], &na[..n]);
+        for j in 0..n {
+            input[j] = e2[j] * v[j] + q[j] * na[j];
+        }
+    }
+}
+
+kernel! {
+    /// `c = E_2 a + Q (2 N(b) - N(v))`.
+    fn stage_c(input: &mut [Complex64], e2: &[Complex64], q: &[Complex64], a: &[Complex64],
+               nb: &[Complex64], nv: &[Complex64]) {
+        let n = input.len();
+        let (e2, q, a, nb, nv) = (&e2[..n], &q[..n], &a[..n], &nb[..n], &nv[..n]);
+        for j in 0..n {
+            input[j] = e2[j] * a[j] + q[j] * (2.0 * nb[j] - nv[j]);
+        }
+    }
+}
+
+kernel! {
+    /// `v = E v + f1 N(v) + 2 f2 (N(a) + N(b)) + f3 N(c)`.
+    fn update(v: &mut [Complex64], e: &[Complex64], f: [&[Complex64]; 3], ns: [&[Complex64]; 4]) {
+        let n = v.len();
+        let (e, f1, f2, f3) = (&e[..n], &f[0][..n], &f[1][..n], &f[2][..n]);
+        let (nv, na, nb, nc) = (&ns[0][..n], &ns[1][..n], &ns[2][..n], &ns[3][..n]);
+        for j in 0..n {
+            v[j] = e[j] * v[j] + f1[j] * nv[j] + 2.0 * f2[j] * (na[j] + nb[j]) + f3[j] * nc[j];
+        }
     }
 }

@@ -4,10 +4,11 @@
 use num_complex::Complex64;
 use rustfft::FftPlanner;
 
-use super::{symbol, zeros, CoeffCache, Exponentials, Scheme, Stepper};
+use super::{linear, symbol, zeros, CoeffCache, Exponentials, Scheme, Stepper};
 use crate::equation::Equation;
 use crate::error::Result;
 use crate::grid::Grid;
+use crate::simd::kernel;
 use crate::spectral::{check_modes, Nonlinear, Probe};
 
 /// Stage buffers of an IF-RK4 step, shared with the adaptive scheme built on it.
@@ -37,41 +38,78 @@ impl IfStages {
     /// mode of `v` is read before it is written, so no copy is needed).
     pub(crate) fn finish(&mut self, v: &mut [Complex64], ex: &Exponentials, h: f64) -> Result<()> {
         let k = self.nl.kept();
-        // Slices of one length `k` let the compiler drop the bounds checks in the stage loops.
         let (e, e2) = (&ex.half[..k], &ex.full[..k]);
         let hh = 0.5 * h;
-        {
-            let (input, ev, k1, vk) = (self.nl.input(), &mut self.ev[..k], &self.k1[..k], &v[..k]);
-            for j in 0..k {
-                ev[j] = e[j] * vk[j];
-                input[j] = ev[j] + hh * e[j] * k1[j];
-            }
-        }
+        stage2(
+            self.nl.input(),
+            &mut self.ev[..k],
+            e,
+            &self.k1[..k],
+            &v[..k],
+            hh,
+        );
         self.nl.eval(&mut self.k2)?;
-        {
-            let (input, ev, k2) = (self.nl.input(), &self.ev[..k], &self.k2[..k]);
-            for j in 0..k {
-                input[j] = ev[j] + hh * k2[j];
-            }
-        }
+        stage3(self.nl.input(), &self.ev[..k], &self.k2[..k], hh);
         self.nl.eval(&mut self.k3)?;
-        {
-            let (input, k3, vk) = (self.nl.input(), &self.k3[..k], &v[..k]);
-            for j in 0..k {
-                input[j] = e2[j] * vk[j] + h * e[j] * k3[j];
-            }
-        }
+        stage4(self.nl.input(), e, e2, &self.k3[..k], &v[..k], h);
         self.nl.eval(&mut self.k4)?;
-        let h6 = h / 6.0;
-        let (k1, k2, k3, k4) = (&self.k1[..k], &self.k2[..k], &self.k3[..k], &self.k4[..k]);
         let (vk, tail) = v.split_at_mut(k);
-        for j in 0..k {
-            vk[j] = e2[j] * (vk[j] + h6 * k1[j]) + h6 * (2.0 * e[j] * (k2[j] + k3[j]) + k4[j]);
-        }
-        for (vj, ej) in tail.iter_mut().zip(&ex.full[k..]) {
-            *vj *= ej;
-        }
+        let ks = [&self.k1[..k], &self.k2[..k], &self.k3[..k], &self.k4[..k]];
+        update(vk, e, e2, ks, h / 6.0);
+        linear(tail, &ex.full[k..]);
         Ok(())
+    }
+}
+
+// The stage formulas, one loop each over the kept modes. Every slice is cut to the length of the
+// first, which lets the compiler drop the bounds checks and vectorise.
+
+kernel! {
+    /// `ev = E v`, `input = ev + (h/2) E k1`.
+    fn stage2(input: &mut [Complex64], ev: &mut [Complex64], e: &[Complex64], k1: &[Complex64],
+              v: &[Complex64], hh: f64) {
+        let n = input.len();
+        let (ev, e, k1, v) = (&mut ev[..n], &e[..n], &k1[..n], &v[..n]);
+        for j in 0..n {
+            ev[j] = e[j] * v[j];
+            input[j] = ev[j] + hh * e[j] * k1[j];
+        }
+    }
+}
+
+kernel! {
+    /// `input = ev + (h/2) k2`.
+    fn stage3(input: &mut [Complex64], ev: &[Complex64], k2: &[Complex64], hh: f64) {
+        let n = input.len();
+        let (ev, k2) = (&ev[..n], &k2[..n]);
+        for j in 0..n {
+            input[j] = ev[j] + hh * k2[j];
+        }
+    }
+}
+
+kernel! {
+    /// `input = E^2 v + h E k3`.
+    fn stage4(input: &mut [Complex64], e: &[Complex64], e2: &[Complex64], k3: &[Complex64],
+              v: &[Complex64], h: f64) {
+        let n = input.len();
+        let (e, e2, k3, v) = (&e[..n], &e2[..n], &k3[..n], &v[..n]);
+        for j in 0..n {
+            input[j] = e2[j] * v[j] + h * e[j] * k3[j];
+        }
+    }
+}
+
+kernel! {
+    /// `v = E^2 (v + (h/6) k1) + (h/6) (2 E (k2 + k3) + k4)`.
+    fn update(v: &mut [Complex64], e: &[Complex64], e2: &[Complex64], ks: [&[Complex64]; 4],
+              h6: f64) {
+        let n = v.len();
+        let (e, e2) = (&e[..n], &e2[..n]);
+        let (k1, k2, k3, k4) = (&ks[0][..n], &ks[1][..n], &ks[2][..n], &ks[3][..n]);
+        for j in 0..n {
+            v[j] = e2[j] * (v[j] + h6 * k1[j]) + h6 * (2.0 * e[j] * (k2[j] + k3[j]) + k4[j]);
+        }
     }
 }
 

@@ -26,6 +26,7 @@ pub use strang::Strang;
 use crate::equation::Equation;
 use crate::error::{CoreError, Result};
 use crate::grid::Grid;
+use crate::simd::kernel;
 use crate::spectral::Probe;
 
 /// The time-stepping schemes.
@@ -182,6 +183,15 @@ impl Exponentials {
         for ((eh, ef), &l) in self.half.iter_mut().zip(self.full.iter_mut()).zip(lin) {
             *eh = (0.5 * h * l).exp();
             *ef = *eh * *eh;
+        }
+    }
+}
+
+kernel! {
+    /// `v *= e`: the modes beyond the dealiased band evolve by the linear part alone.
+    pub(crate) fn linear(v: &mut [Complex64], e: &[Complex64]) {
+        for (vj, ej) in v.iter_mut().zip(e) {
+            *vj *= ej;
         }
     }
 }

@@ -4,10 +4,11 @@
 use num_complex::Complex64;
 use rustfft::FftPlanner;
 
-use super::{symbol, zeros, CoeffCache, Exponentials, Scheme, Stepper};
+use super::{linear, symbol, zeros, CoeffCache, Exponentials, Scheme, Stepper};
 use crate::equation::Equation;
 use crate::error::Result;
 use crate::grid::Grid;
+use crate::simd::kernel;
 use crate::spectral::{check_modes, Nonlinear, Probe};
 
 /// The Strang split-step scheme.
@@ -45,45 +46,54 @@ impl Stepper for Strang {
     fn step(&mut self, v: &mut [Complex64], h: f64) -> Result<Probe> {
         check_modes(v, self.nl.modes())?;
         let lin = &self.lin;
-        let e = &self.cache.get(h, |h| Exponentials::new(lin, h)).half;
+        let ex = self.cache.get(h, |h| Exponentials::new(lin, h));
+        let e = &ex.half;
         let kept = self.nl.kept();
-        let hh = 0.5 * h;
-        for j in 0..kept {
-            v[j] *= e[j];
-        }
-        self.nl.load(v)?;
+        let (vk, tail) = v.split_at_mut(kept);
+        linear(vk, &e[..kept]);
+        self.nl.input().copy_from_slice(vk);
         // The probe sees the state after the first linear half step: same max|u| for dispersion,
         // and finiteness is what matters.
         let probe = self.nl.eval_probed(&mut self.k1)?;
-        {
-            let input = self.nl.input();
-            for j in 0..kept {
-                input[j] = v[j] + hh * self.k1[j];
-            }
-        }
+        let hh = 0.5 * h;
+        euler(self.nl.input(), vk, &self.k1[..kept], hh);
         self.nl.eval(&mut self.k2)?;
-        {
-            let input = self.nl.input();
-            for j in 0..kept {
-                input[j] = v[j] + hh * self.k2[j];
-            }
-        }
+        euler(self.nl.input(), vk, &self.k2[..kept], hh);
         self.nl.eval(&mut self.k3)?;
-        {
-            let input = self.nl.input();
-            for j in 0..kept {
-                input[j] = v[j] + h * self.k3[j];
-            }
-        }
+        euler(self.nl.input(), vk, &self.k3[..kept], h);
         self.nl.eval(&mut self.k4)?;
-        let h6 = h / 6.0;
-        for j in 0..kept {
-            let nonlinear = self.k1[j] + 2.0 * (self.k2[j] + self.k3[j]) + self.k4[j];
+        let ks = [
+            &self.k1[..kept],
+            &self.k2[..kept],
+            &self.k3[..kept],
+            &self.k4[..kept],
+        ];
+        update(vk, &e[..kept], ks, h / 6.0);
+        linear(tail, &ex.full[kept..]);
+        Ok(probe)
+    }
+}
+
+kernel! {
+    /// `input = v + c k` (a stage of the RK4 substep).
+    fn euler(input: &mut [Complex64], v: &[Complex64], k: &[Complex64], c: f64) {
+        let n = input.len();
+        let (v, k) = (&v[..n], &k[..n]);
+        for j in 0..n {
+            input[j] = v[j] + c * k[j];
+        }
+    }
+}
+
+kernel! {
+    /// `v = E (v + (h/6) (k1 + 2 (k2 + k3) + k4))`.
+    fn update(v: &mut [Complex64], e: &[Complex64], ks: [&[Complex64]; 4], h6: f64) {
+        let n = v.len();
+        let e = &e[..n];
+        let (k1, k2, k3, k4) = (&ks[0][..n], &ks[1][..n], &ks[2][..n], &ks[3][..n]);
+        for j in 0..n {
+            let nonlinear = k1[j] + 2.0 * (k2[j] + k3[j]) + k4[j];
             v[j] = e[j] * (v[j] + h6 * nonlinear);
         }
-        for j in kept..v.len() {
-            v[j] *= e[j] * e[j];
-        }
-        Ok(probe)
     }
 }
