@@ -66,7 +66,7 @@ from ..exceptions import ConfigError, KdvsweepError
 from .references import ReferenceSpec, compute_reference, references_for
 from .runner import RunResult, base_row, cost, execute_chunk
 from .sizing import run_memory
-from .store import Compaction, Store, SweepLike
+from .store import Compaction, Store
 
 if TYPE_CHECKING:
     from .cluster import ClusterProfile
@@ -314,7 +314,7 @@ def _interrupt_guard() -> Iterator[None]:
 
 
 def run_sweep(
-    sweep: SweepLike,
+    sweep: Sweep,
     out: str | os.PathLike[str],
     client: Any = None,
     *,

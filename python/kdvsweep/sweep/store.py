@@ -67,13 +67,13 @@ import pyarrow.parquet as pq
 
 from ..columns import PARAMETER_TYPES, Layout, reserved_names
 from ..exceptions import ConfigError, StoreBusyError, StoreError
-from .config import RunSpec, Sweep
 from .references import key_digest
 
-if TYPE_CHECKING:  # readers (kdvsweep status) load neither pandas nor the analysis (scipy)
+if TYPE_CHECKING:  # readers (kdvsweep status) load neither pandas, the analysis nor the loader
     import pandas as pd
 
     from ..analysis.tracks import ReferenceTrack
+    from .config import RunSpec, Sweep
     from .references import ReferenceResult
     from .runner import RunResult
 
@@ -133,10 +133,6 @@ REPAIR_ADVICE = (
     "run the same sweep again into this folder (`kdvsweep run FILE --out OUT`): the damaged "
     "batches are set aside as *.damaged files and their runs are run again"
 )
-
-
-#: Transitional name for :class:`~kdvsweep.sweep.config.Sweep` (until the farm imports Sweep).
-SweepLike = Sweep
 
 
 def _fsync_dir(folder: Path) -> None:
