@@ -20,7 +20,7 @@ from __future__ import annotations
 import contextlib
 import math
 import os
-from collections.abc import Iterator, Sequence
+from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, cast
@@ -31,11 +31,13 @@ from matplotlib import colors as mcolors
 from matplotlib import patheffects
 from matplotlib.axes import Axes
 from matplotlib.figure import Figure
+from matplotlib.ticker import MaxNLocator
 
 from ..analysis import RunAnalysis
 from ..analysis.content import ContentMeasurement
 from ..exceptions import ConfigError
 from ..model import Grid
+from ..units import AxisScale
 
 FORMATS = ("png", "pdf")
 # Large type and thick lines: these figures are meant for slides.
@@ -63,6 +65,45 @@ def _figure(width: float = 7.5, height: float = 5.5) -> Figure:
     return Figure(figsize=(width, height), layout="constrained", dpi=150)
 
 
+#: The footer of figures in physical water-wave units: the short form of
+#: :data:`kdvsweep.units.CAUTION` (README, "Physical units").
+FIGURE_CAUTION = (
+    "Idealised model run, not a forecast: not for hazard assessment, engineering design or "
+    "safety decisions."
+)
+#: The gid of the caution's text.
+CAUTION_GID = "caution"
+#: The height of the footer band that holds the caution (points).
+CAUTION_POINTS = 18.0
+
+
+def add_caution(fig: Figure, text: str = FIGURE_CAUTION) -> None:
+    """Write ``text`` small in the figure's footer, in a band kept free of the axes and legends
+    (constrained layout), so that it stays legible and covers nothing."""
+    band = CAUTION_POINTS / (72.0 * fig.get_figheight())
+    engine = fig.get_layout_engine()
+    if engine is not None:
+        engine.set(rect=(0.0, band, 1.0, 1.0 - band))  # type: ignore[call-arg]
+    for legend in fig.legends:  # a legend below the axes moves up over the band
+        legend.borderaxespad += CAUTION_POINTS / legend.prop.get_size_in_points()
+    fig.text(
+        0.5,
+        0.3 * band,
+        text,
+        ha="center",
+        va="bottom",
+        fontsize=8.5,
+        color="0.25",
+        style="italic",
+        gid=CAUTION_GID,
+    )
+
+
+def _unit(label: str, unit: str | None) -> str:
+    """``label (unit)``, or the label alone without a unit."""
+    return f"{label} ({unit})" if unit else label
+
+
 def _wrapped_line(
     t: np.ndarray, x: np.ndarray, length: float, index: np.ndarray | None = None
 ) -> tuple[np.ndarray, np.ndarray]:
@@ -84,6 +125,8 @@ def spacetime(
     title: str | None = None,
     zoom: bool = True,
     content: ContentMeasurement | None = None,
+    axes: Mapping[str, AxisScale] | None = None,
+    units: Mapping[str, str] | None = None,
 ) -> Figure:
     """Space-time diagram ``u(x, t)`` with tracked trajectories and fitted asymptotes.
 
@@ -104,6 +147,14 @@ def spacetime(
     content
         The result of :func:`kdvsweep.analysis.content.measure_content` on the same record: each
         emerging soliton and breather is drawn from the time it separated, with its asymptote.
+    axes
+        Physical axes of the run (:func:`kdvsweep.units.axes_for_run`: ``"x"``, ``"t"``, ``"u"``
+        with ``scale`` and ``label``): the field, the tracks and the asymptotes are drawn at
+        ``scale`` times their canonical values, with those labels; ``None`` keeps the canonical
+        ``x``, ``t``, ``u``.
+    units
+        With ``axes``: the unit of each dimension (``kdvsweep.units.System.UNITS``: ``"height"``,
+        ``"length"``, ``"time"``, ``"speed"``) for the legend's amplitudes and speeds.
 
     Returns
     -------
@@ -112,32 +163,126 @@ def spacetime(
     """
     u = np.asarray(frames, dtype=np.float64)
     t = np.asarray(times, dtype=np.float64)
+    view = _View.of(axes, units, (grid.length, float(np.max(np.abs(t))) if t.size else 1.0))
     centre = _collision_point(analysis, grid) if zoom and analysis is not None else None
     fig = _figure(13.0 if centre else 7.5, 5.8)
-    axes = fig.subplots(1, 2 if centre else 1, squeeze=False)[0]
-    image, scale = _field(axes[0], u, t, grid, 0)
+    panels = fig.subplots(1, 2 if centre else 1, squeeze=False)[0]
+    image, scale = _field(panels[0], u, t, grid, 0, view)
     if analysis is not None:
-        _draw_tracks(axes[0], analysis, t, grid.length, 0.0, True, _is_signed(u))
+        _draw_tracks(panels[0], analysis, t, grid.length, 0.0, True, _is_signed(u), view)
     if content is not None:
-        _draw_emerging(axes[0], content, t, grid.length, _is_signed(u))
-    axes[0].set_xlabel("x")
+        _draw_emerging(panels[0], content, t, grid.length, _is_signed(u), view)
+    panels[0].set_xlabel(view.x_label)
     if centre is not None and analysis is not None:
         x_c, t_c, half_x, half_t = centre
         shift = round(x_c / grid.dx)
-        _field(axes[1], u, t, grid, shift)
-        _draw_tracks(axes[1], analysis, t, grid.length, shift * grid.dx, False, _is_signed(u))
-        axes[1].set_xlim(-half_x, half_x)
-        axes[1].set_ylim(max(t[0], t_c - half_t), min(t[-1], t_c + half_t))
-        axes[1].set_xlabel(f"x − x_c   (x_c = {shift * grid.dx:.4g})")
-        axes[1].set_title("collision")
+        _field(panels[1], u, t, grid, shift, view)
+        _draw_tracks(
+            panels[1], analysis, t, grid.length, shift * grid.dx, False, _is_signed(u), view
+        )
+        panels[1].set_xlim(-half_x * view.x, half_x * view.x)
+        panels[1].set_ylim(max(t[0], t_c - half_t) * view.t, min(t[-1], t_c + half_t) * view.t)
+        panels[1].set_xlabel(view.zoom_label(shift * grid.dx))
+        panels[1].set_title("collision")
         for image_x in (x_c - grid.length, x_c, x_c + grid.length):  # the box wraps like the field
-            axes[0].add_patch(_box(image_x, t_c, half_x, half_t))
-    axes[0].set_ylabel("t")
-    bar = fig.colorbar(image, ax=list(axes), pad=0.01)
+            panels[0].add_patch(
+                _box(image_x * view.x, t_c * view.t, half_x * view.x, half_t * view.t)
+            )
+    panels[0].set_ylabel(view.t_label)
+    bar = fig.colorbar(image, ax=list(panels), pad=0.01)
     _scale_bar(bar, scale)
     if title:
         fig.suptitle(title)
     return fig
+
+
+#: Units an axis in metres or seconds switches to when its values would be long numbers: the
+#: unit, its size in metres or seconds, and the span from which on it is used.
+_READABLE = {
+    "m": (("km", 1e3, 2e4), ("m", 1.0, 0.1), ("mm", 1e-3, 1e-4), ("µm", 1e-6, 0.0)),
+    "s": (
+        ("d", 86400.0, 2 * 86400.0),
+        ("h", 3600.0, 2e4),
+        ("s", 1.0, 1.0),
+        ("ms", 1e-3, 1e-3),
+        ("µs", 1e-6, 1e-6),
+        ("ns", 1e-9, 0.0),
+    ),
+}
+
+
+def readable_unit(unit: str, size: float) -> tuple[str, float]:
+    """A readable unit for values up to ``size`` in ``unit`` (metres or seconds), and its size in
+    ``unit``: ``("mm", 1e-3)`` for 0.006 m, ``("d", 86400.0)`` for 8e5 s; other units and sizes
+    that are not finite and positive stay as they are (``(unit, 1.0)``)."""
+    choices = _READABLE.get(unit, ())
+    if not (math.isfinite(size) and size > 0):
+        return unit, 1.0
+    for word, factor, start in choices:
+        if size >= start:
+            return word, factor
+    return unit, 1.0
+
+
+def _readable(label: str, scale: float, span: float) -> tuple[str, float]:
+    """``label`` and ``scale`` of an axis whose unit (``name (m)``, ``name (s)``) becomes a
+    readable one for values up to ``span * scale`` (``t (h)`` for a run of a day)."""
+    name, _, unit = label.rpartition(" (")
+    if not name:
+        return label, scale
+    word, factor = readable_unit(unit.rstrip(")"), abs(span * scale))
+    return f"{name} ({word})", scale / factor
+
+
+@dataclass(frozen=True)
+class _View:
+    """How :func:`spacetime` shows a run: the scale of ``x``, ``t``, ``u`` and their labels (the
+    canonical ones by default), and the units of the legend's amplitudes and speeds."""
+
+    x: float = 1.0
+    t: float = 1.0
+    u: float = 1.0
+    x_label: str = "x"
+    t_label: str = "t"
+    u_label: str = "u"
+    units: Mapping[str, str] | None = None
+
+    @classmethod
+    def of(
+        cls,
+        axes: Mapping[str, AxisScale] | None,
+        units: Mapping[str, str] | None,
+        spans: tuple[float, float] = (1.0, 1.0),
+    ) -> _View:
+        """The view of :func:`spacetime`'s ``axes``; ``spans`` (the canonical box length and end
+        time) choose readable units for lengths and times (hours or days for a run of days,
+        millimetres or microseconds for a plasma's)."""
+        if axes is None:
+            return cls()
+        x_label, x = _readable(axes["x"].label, axes["x"].scale, spans[0])
+        t_label, t = _readable(axes["t"].label, axes["t"].scale, spans[1])
+        return cls(x, t, axes["u"].scale, x_label, t_label, axes["u"].label, units)
+
+    def unit(self, dimension: str) -> str:
+        """`` unit`` of a dimension (empty in canonical units)."""
+        unit = (self.units or {}).get(dimension)
+        return f" {unit}" if unit else ""
+
+    def zoom_label(self, x_c: float) -> str:
+        """The zoom panel's axis: ``x − x_c`` and the value of ``x_c``."""
+        if self.units is None:
+            return f"x − x_c   (x_c = {x_c:.4g})"
+        name, _, unit = self.x_label.rpartition(" (")
+        unit = unit.rstrip(")")
+        return f"{name} − x_c ({unit})   (x_c = {x_c * self.x:.4g} {unit})"
+
+    def amplitude(self, value: float) -> str:
+        """A soliton's amplitude for the legend (scaled, with its unit)."""
+        return f"{value * self.u:.3g}{self.unit('height')}"
+
+    def speed(self, value: float) -> str:
+        """A speed in the run's frame for the legend (scaled, with its unit)."""
+        return f"{value * self.x / self.t:.3g}{self.unit('speed')}"
 
 
 @dataclass(frozen=True)
@@ -150,21 +295,27 @@ class _Scale:
     ticks: tuple[float, ...]
 
 
-def _scale(u: np.ndarray) -> _Scale:
+def _scale(u: np.ndarray, name: str = "u") -> _Scale:
     """Signed fields on a symmetric-log scale, one-signed ones on a square-root (power) scale: the
-    solitons and the small radiation behind them are both visible. The colour bar says which."""
+    solitons and the small radiation behind them are both visible. The colour bar says which
+    (``name``: the field's label)."""
     vmax = float(np.abs(u).max()) or 1.0
     if _is_signed(u):
         linthresh = 0.02 * vmax
         inner = [float(f"{v:.1g}") for v in (linthresh, 0.2 * vmax)]
         ticks = tuple(sorted({0.0, vmax, -vmax, *inner, *(-v for v in inner)}))
-        label = f"u   (symlog scale, linear within ±{linthresh:.2g})"
+        label = f"{name}{_gap(name)}(symlog scale, linear within ±{linthresh:.2g})"
         norm: mcolors.Normalize = mcolors.SymLogNorm(linthresh, vmin=-vmax, vmax=vmax)
         return _Scale("RdBu_r", norm, label, ticks)
     norm = mcolors.PowerNorm(0.5, vmin=0.0, vmax=vmax)
     # Round ticks (one significant digit) spread evenly in colour: 1%, 10%, 25%, 50% of the top.
     ticks = tuple(sorted({0.0, vmax, *(float(f"{vmax * f:.1g}") for f in (0.01, 0.1, 0.25, 0.5))}))
-    return _Scale("Greys", norm, "u   (power scale, γ = 0.5)", ticks)
+    return _Scale("Greys", norm, f"{name}{_gap(name)}(power scale, γ = 0.5)", ticks)
+
+
+def _gap(name: str) -> str:
+    """Between a field's name and its colour scale's words: a line break after a long name."""
+    return "   " if len(name) <= 3 else "\n"
 
 
 def _scale_bar(bar: Any, scale: _Scale) -> None:
@@ -184,10 +335,15 @@ def _box(x_c: float, t_c: float, half_x: float, half_t: float) -> Any:
     )
 
 
-def _field(ax: Axes, u: np.ndarray, t: np.ndarray, grid: Grid, shift: int) -> tuple[Any, _Scale]:
-    """Draw the field; ``shift`` grid steps re-centre it (periodic roll)."""
-    scale = _scale(u)
-    x0, x1 = -0.5 * grid.length, 0.5 * grid.length
+def _field(
+    ax: Axes, u: np.ndarray, t: np.ndarray, grid: Grid, shift: int, view: _View
+) -> tuple[Any, _Scale]:
+    """Draw the field; ``shift`` grid steps re-centre it (periodic roll); ``view`` scales it."""
+    u = u * view.u
+    scale = _scale(u, view.u_label)
+    x0, x1 = -0.5 * grid.length * view.x, 0.5 * grid.length * view.x
+    half = 0.5 * grid.dx * view.x
+    t0, t1 = t[0] * view.t, t[-1] * view.t
     image = ax.imshow(
         np.roll(u, -shift, axis=1),
         origin="lower",
@@ -195,10 +351,10 @@ def _field(ax: Axes, u: np.ndarray, t: np.ndarray, grid: Grid, shift: int) -> tu
         cmap=scale.cmap,
         norm=scale.norm,
         interpolation="nearest",
-        extent=(x0 - 0.5 * grid.dx, x1 - 0.5 * grid.dx, t[0], t[-1]),
+        extent=(x0 - half, x1 - half, t0, t1),
     )
     ax.set_xlim(x0, x1)
-    ax.set_ylim(t[0], t[-1])
+    ax.set_ylim(t0, t1)
     return image, scale
 
 
@@ -229,10 +385,11 @@ def _draw_tracks(
     x_ref: float,
     legend: bool,
     signed: bool,
+    view: _View,
 ) -> None:
     """Tracked peaks (solid) and, outside their fit windows, the fitted asymptotes (dashed): the
     offset between a dashed line and the track on the other side of the collision is the shift.
-    Positions are drawn relative to ``x_ref``."""
+    Positions are drawn relative to ``x_ref`` (canonical), scaled by ``view``."""
     tracks = analysis.tracks
     handles = []
     frames = np.flatnonzero(tracks.linked)
@@ -240,10 +397,15 @@ def _draw_tracks(
         palette = SIGNED_COLORS if signed else SOLITON_COLORS
         color = palette[i % len(palette)]
         tt, xx = _wrapped_line(t[frames], tracks.position[frames, i] - x_ref, length, frames)
-        kappa = analysis.table["kappa"].iloc[i] if i < len(analysis.table) else math.nan
-        label = f"soliton {i}" + (f" (κ = {kappa:.3g})" if math.isfinite(kappa) else "")
+        label = f"soliton {i}" + _soliton_words(analysis.table, i, view)
         handles += ax.plot(
-            xx, tt, color=color, lw=1.5, gid=TRAJECTORY_GID, label=label, path_effects=_EDGE[signed]
+            xx * view.x,
+            tt * view.t,
+            color=color,
+            lw=1.5,
+            gid=TRAJECTORY_GID,
+            label=label,
+            path_effects=_EDGE[signed],
         )
         if i < len(analysis.fits) and analysis.before is not None and analysis.after is not None:
             fit = analysis.fits[i]
@@ -256,8 +418,8 @@ def _draw_tracks(
                 line_t = np.linspace(t_from, t_to, 400)
                 at, lx = _wrapped_line(line_t, fit.speed * line_t + offset - x_ref, length)
                 ax.plot(
-                    lx,
-                    at,
+                    lx * view.x,
+                    at * view.t,
                     color=color,
                     lw=1.3,
                     ls=(0, (4, 3)),
@@ -271,8 +433,8 @@ def _draw_tracks(
         pt = np.concatenate([np.full(len(tracks.extrema[f]), t[f]) for f in gap])
         px = (px - x_ref + 0.5 * length) % length - 0.5 * length
         dots = ax.plot(
-            px,
-            pt,
+            px * view.x,
+            pt * view.t,
             ls="none",
             marker="o",
             ms=2.6,
@@ -294,8 +456,24 @@ def _draw_tracks(
         )
 
 
+def _soliton_words(table: pd.DataFrame, i: int, view: _View) -> str:
+    """`` (κ = ...)`` of soliton ``i`` in canonical units, `` (A = ... m)`` in physical ones."""
+    column = "kappa" if view.units is None else "amplitude"
+    value = float(table[column].iloc[i]) if i < len(table) and column in table else math.nan
+    if view.units is not None and "sign" in table and math.isfinite(table["sign"].iloc[i]):
+        value *= float(table["sign"].iloc[i])  # the displacement, signed as drawn
+    if not math.isfinite(value):
+        return ""
+    return f" (κ = {value:.3g})" if view.units is None else f" (A = {view.amplitude(value)})"
+
+
 def _draw_emerging(
-    ax: Axes, content: ContentMeasurement, t: np.ndarray, length: float, signed: bool
+    ax: Axes,
+    content: ContentMeasurement,
+    t: np.ndarray,
+    length: float,
+    signed: bool,
+    view: _View,
 ) -> None:
     """Each emerging soliton's fitted centres from the time it separated (solid) and its
     asymptote ``x = speed t + offset`` over the whole record (dashed; the offset is the mean of
@@ -308,12 +486,13 @@ def _draw_emerging(
         xx = np.asarray(e.track_centres, dtype=float)
         name = "breather" if e.kind == "breather" else "soliton"
         peak = e.amplitude * (e.sign or 1)  # the soliton's own sign (a breather: +)
-        label = f"{name} {i}: A = {peak:.3g}, c = {e.speed:.3g}"
+        speed = "c" if view.units is None else "c − c0"
+        label = f"{name} {i}: A = {view.amplitude(peak)}, {speed} = {view.speed(e.speed)}"
         if tt.size:
             lt, lx = _wrapped_line(tt, xx, length)
             handles += ax.plot(
-                lx,
-                lt,
+                lx * view.x,
+                lt * view.t,
                 color=color,
                 lw=1.3,
                 alpha=0.85,
@@ -326,8 +505,8 @@ def _draw_emerging(
             line_t = np.linspace(t[0], t[-1], 600)
             at, ax_x = _wrapped_line(line_t, e.speed * line_t + offset, length)
             ax.plot(
-                ax_x,
-                at,
+                ax_x * view.x,
+                at * view.t,
                 color=color,
                 lw=1.1,
                 ls=(0, (4, 3)),
@@ -405,7 +584,11 @@ def format_value(v: Any) -> str:
     return str(v)
 
 
-def _groups(df: pd.DataFrame, by: Sequence[str]) -> list[tuple[str, pd.DataFrame]]:
+def _groups(
+    df: pd.DataFrame, by: Sequence[str], labels: Mapping[str, str] | None = None
+) -> list[tuple[str, pd.DataFrame]]:
+    """The groups of ``df`` by the columns ``by``, each with its label (``depth 0.3 m`` when
+    ``labels`` give the column as ``depth (m)``)."""
     by = [c for c in by if c in df.columns]
     if not by:
         return [("", df)]
@@ -413,11 +596,18 @@ def _groups(df: pd.DataFrame, by: Sequence[str]) -> list[tuple[str, pd.DataFrame
     for key, part in df.groupby(by, sort=True, dropna=False):
         values = key if isinstance(key, tuple) else (key,)
         label = ", ".join(
-            format_value(v) if c == "equation" else f"{c} {format_value(v)}"
+            format_value(v) if c == "equation" else _value_words(c, v, labels)
             for c, v in zip(by, values, strict=True)
         )
         out.append((label, part))
     return out
+
+
+def _value_words(column: str, value: Any, labels: Mapping[str, str] | None) -> str:
+    """``column value``, or ``column value unit`` when ``labels`` give it as ``column (unit)``."""
+    label = (labels or {}).get(column, "")
+    unit = label[len(column) + 2 : -1] if label.startswith(f"{column} (") else ""
+    return f"{column} {format_value(value)}" + (f" {unit}" if unit else "")
 
 
 def shift_comparison(
@@ -425,6 +615,8 @@ def shift_comparison(
     group_by: Sequence[str] = (),
     residuals: bool = True,
     color_by: str | None = None,
+    unit: str | None = None,
+    column_labels: Mapping[str, str] | None = None,
 ) -> Figure:
     """Measured against predicted phase shift, one marker per soliton of each run.
 
@@ -447,6 +639,11 @@ def shift_comparison(
         A numeric column (a perturbation sweep's ``g``, say) to colour the points by, in both rows,
         with a colour bar; groups then differ by panel only. ``shift_predicted`` is then read as
         the integrable pair formula's value, which the perturbed shifts tend to.
+    unit
+        The unit of the shifts (the columns hold physical shifts, e.g. ``phys_shift_*`` of a
+        sweep with ``[units]``), added to the axis labels; ``None``: canonical.
+    column_labels
+        Labels of columns (``color_by``) other than their names, e.g. with their units.
 
     Returns
     -------
@@ -460,7 +657,7 @@ def shift_comparison(
         )
     df = _with_errors(solitons.dropna(subset=["shift_predicted", "shift_measured"]))
     norm = color_norm(df[color_by]) if color_by is not None and len(df) else None
-    groups = _groups(df, group_by)
+    groups = _groups(df, group_by, column_labels)
     panels = len(groups) if len(groups) <= MAX_PANELS else 1
     fig = _figure(max(6.5, 4.2 * panels + 1.0), 7.5 if residuals else 6.0)
     grid = fig.subplots(
@@ -526,7 +723,9 @@ def shift_comparison(
         ax.set_xlim(*ends)
         ax.set_ylim(*ends)
         ax.grid(alpha=0.3)
-    tops[0].set_ylabel(MEASURED_LABEL)
+        if unit:  # physical shifts are long numbers (-1250 m): fewer ticks keep them apart
+            ax.xaxis.set_major_locator(MaxNLocator(nbins=5 if panels == 1 else 3))
+    tops[0].set_ylabel(_unit(MEASURED_LABEL, unit))
     handles, labels = tops[0].get_legend_handles_labels()
     if len(solitons_seen) > 1:
         # Marker shapes tell the solitons apart (0 = leftmost at the start).
@@ -545,9 +744,9 @@ def shift_comparison(
             labels.append(f"soliton {s}")
     tops[0].legend(handles, labels, loc="upper left", fontsize=10)
     bottom = lows if residuals else tops
-    predicted = PREDICTED_LABEL if norm is None else INTEGRABLE_LABEL
+    predicted = _unit(PREDICTED_LABEL if norm is None else INTEGRABLE_LABEL, unit)
     for ax in bottom:
-        ax.set_xlabel(predicted if panels == 1 else r"$\Delta x_{\mathrm{theory}}$")
+        ax.set_xlabel(predicted if panels == 1 else _unit(r"$\Delta x_{\mathrm{theory}}$", unit))
     if residuals:
         lows[0].set_ylabel("relative error")
         for low in lows:
@@ -562,7 +761,11 @@ def shift_comparison(
         fig.supxlabel(predicted, fontsize=14)
     if norm is not None:
         fig.colorbar(
-            _mappable(norm), ax=list(grid.ravel()), label=color_by, pad=0.015, fraction=0.05
+            _mappable(norm),
+            ax=list(grid.ravel()),
+            label=(column_labels or {}).get(color_by or "", color_by),
+            pad=0.015,
+            fraction=0.05,
         )
     return fig
 
@@ -632,6 +835,7 @@ def relative_error(
     group_by: Sequence[str] = (),
     ax: Axes | None = None,
     color_by: str | None = None,
+    column_labels: Mapping[str, str] | None = None,
 ) -> Figure:
     """Relative shift error ``|measured - predicted| / |predicted|`` against a swept parameter.
 
@@ -652,6 +856,9 @@ def relative_error(
         Axes to draw into.
     color_by
         A numeric column to colour scattered points by (instead of by group).
+    column_labels
+        Labels of columns (``parameter``, ``color_by``) other than their names, e.g. with their
+        units.
     """
     for name in (parameter, color_by):
         if name is not None and name not in solitons.columns:
@@ -668,7 +875,7 @@ def relative_error(
     norm = None
     if color_by is not None and len(df):
         norm = color_norm(df[color_by])
-    groups = _groups(df, group_by)
+    groups = _groups(df, group_by, column_labels)
     joined: set[int] = set()  # solitons drawn as curves somewhere
     for g, (_, part) in enumerate(groups):
         color = SOLITON_COLORS[g % len(SOLITON_COLORS)] if norm is None else "0.3"
@@ -732,12 +939,13 @@ def relative_error(
             label=f"soliton {s}",
         )
     ax.set_yscale("log")
-    ax.set_xlabel(parameter)
+    names = column_labels or {}
+    ax.set_xlabel(names.get(parameter, parameter))
     ax.set_ylabel(RELATIVE_LABEL, fontsize=12)
     ax.grid(alpha=0.3, which="both")
     if norm is not None:
         mappable = _mappable(norm)
-        fig.colorbar(mappable, ax=ax, label=color_by, pad=0.01)
+        fig.colorbar(mappable, ax=ax, label=names.get(color_by or "", color_by), pad=0.01)
     if handles:
         # Outside the axes: with several groups a legend inside would cover the points.
         fig.legend(
@@ -763,10 +971,17 @@ CONTENT_QUANTITIES = (
     ("amplitude", "amplitude_ist", "amplitude_uncertainty", "amplitude |u|"),
     ("speed", "speed_ist", "speed_uncertainty", "speed"),
 )
+#: The axis words of :data:`CONTENT_QUANTITIES` in physical units (``{height}``, ``{speed}``: the
+#: units); speeds are then in the run's frame, which moves at ``c0``.
+PHYSICAL_CONTENT_WORDS = ("amplitude ({height})", "speed in the run's frame c − c0 ({speed})")
 
 
 def content_comparison(
-    solitons: pd.DataFrame, color_by: str | None = None, title: str | None = None
+    solitons: pd.DataFrame,
+    color_by: str | None = None,
+    title: str | None = None,
+    units: Mapping[str, str] | None = None,
+    column_labels: Mapping[str, str] | None = None,
 ) -> Figure:
     """Measured against predicted amplitude and speed of every emerging soliton and breather.
 
@@ -785,6 +1000,12 @@ def content_comparison(
         A column colouring the points: numeric (a colour bar) or text (a legend entry each).
     title
         Figure title.
+    units
+        The units of the columns when they hold physical values (``"height"`` for the amplitudes,
+        ``"speed"`` for the speeds, which are then speeds in the run's frame, ``c - c0``), added to
+        the axis labels; ``None``: canonical.
+    column_labels
+        Labels of columns (``color_by``) other than their names, e.g. with their units.
 
     Returns
     -------
@@ -814,6 +1035,8 @@ def content_comparison(
         for j, v in enumerate(sorted(df[color_by].dropna().unique(), key=str)):
             colours[v] = SOLITON_COLORS[j % len(SOLITON_COLORS)]
     for col, (meas, pred, unc, word) in enumerate(CONTENT_QUANTITIES):
+        if units is not None:
+            word = PHYSICAL_CONTENT_WORDS[col].format(**units)
         top, low = grid[0][col], grid[1][col]
         known = np.concatenate(
             [matched[[meas, pred]].to_numpy(float).ravel(), missing[pred].to_numpy(float)]
@@ -898,7 +1121,8 @@ def content_comparison(
         labels.append(f"{color_by} = {format_value(v)}")
     grid[0][0].legend(handles, labels, loc="upper left", fontsize=10)
     if norm is not None:
-        fig.colorbar(_mappable(norm), ax=list(grid[:, 1]), label=color_by, pad=0.01)
+        label = (column_labels or {}).get(color_by or "", color_by)
+        fig.colorbar(_mappable(norm), ax=list(grid[:, 1]), label=label, pad=0.01)
     if title:
         fig.suptitle(title)
     return fig
@@ -913,6 +1137,8 @@ def adiabatic_decay(
     parameter: str | None = None,
     color_by: str | None = None,
     title: str = "",
+    unit: str | None = None,
+    column_labels: Mapping[str, str] | None = None,
 ) -> Figure:
     """Measured against predicted end-of-run amplitude of decaying solitons, and the deviation.
 
@@ -935,7 +1161,13 @@ def adiabatic_decay(
         A numeric column to colour the points by, with a colour bar.
     title
         The figure's title.
+    unit
+        The unit of the amplitudes when the columns hold physical heights (``phys_*`` of a sweep
+        with ``[units]``), added to the axis labels; ``None``: canonical.
+    column_labels
+        Labels of columns (``parameter``, ``color_by``) other than their names.
     """
+    names = column_labels or {}
     for name in (parameter, color_by):
         if name is not None and name not in solitons.columns:
             raise ConfigError(
@@ -1014,8 +1246,8 @@ def adiabatic_decay(
             )
     left.set_xlim(*ends)
     left.set_ylim(*ends)
-    left.set_xlabel(DECAY_PREDICTED_LABEL)
-    left.set_ylabel(DECAY_MEASURED_LABEL)
+    left.set_xlabel(_unit(DECAY_PREDICTED_LABEL, unit))
+    left.set_ylabel(_unit(DECAY_MEASURED_LABEL, unit))
     left.grid(alpha=0.3)
     handles, labels = left.get_legend_handles_labels()
     if "amplitude_start" in df:
@@ -1032,7 +1264,7 @@ def adiabatic_decay(
     right.grid(alpha=0.3, which="both")
     if parameter is not None:
         right.set_xscale("log")
-        right.set_xlabel(parameter)
+        right.set_xlabel(names.get(parameter, parameter))
         pts = df[(df[parameter] > 0) & (df["deviation"] != 0)]
         if len(pts) >= 2 and pts[parameter].nunique() >= 2:
             xs = np.geomspace(float(pts[parameter].min()), float(pts[parameter].max()), 2)
@@ -1040,12 +1272,18 @@ def adiabatic_decay(
             right.plot(xs, ref * xs, ls=":", color="0.4", lw=1.5, label="slope 1 (first order)")
             right.legend(loc="upper left", fontsize=10)
     else:
-        right.set_xlabel(DECAY_PREDICTED_LABEL)
+        right.set_xlabel(_unit(DECAY_PREDICTED_LABEL, unit))
     right.plot([], [], ls="none", marker="o", color="0.3", label="above the law")
     right.plot([], [], ls="none", marker="o", mfc="none", color="0.3", label="below the law")
     right.legend(loc="best", fontsize=10)
     if norm is not None:
-        fig.colorbar(_mappable(norm), ax=[left, right], label=color_by, pad=0.015, fraction=0.04)
+        fig.colorbar(
+            _mappable(norm),
+            ax=[left, right],
+            label=names.get(color_by or "", color_by),
+            pad=0.015,
+            fraction=0.04,
+        )
     if title:
         fig.suptitle(title)
     return fig

@@ -8,26 +8,30 @@ Each run's equation is read from the store (``eq_a`` .. ``eq_v``, ``dealias``), 
 from __future__ import annotations
 
 import os
-from collections.abc import Iterator, Sequence
+import tomllib
+from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import pandas as pd
 from matplotlib.figure import Figure
 
+from .. import units as physunits
 from ..analysis import RunAnalysis, analyse_run
 from ..analysis.content import ContentMeasurement, measure_content
 from ..exceptions import ConfigError, KdvsweepError
 from ..model import Equation, Grid
 from .figures import (
     FORMATS,
+    add_caution,
     adiabatic_decay,
     check_formats,
     content_comparison,
     figure_style,
     format_value,
+    readable_unit,
     relative_error,
     save,
     shift_comparison,
@@ -423,6 +427,97 @@ def _joined(results: Results, *extra: str | None) -> pd.DataFrame:
     return results.solitons.merge(ok[list(dict.fromkeys(keep))], on="run_id", how="inner")
 
 
+# --- physical units ----------------------------------------------------------------------------
+
+
+def store_units(results: Results) -> type[physunits.System] | None:
+    """The ``[units]`` system of a store (its class: ``UNITS``, ``WATER``), or ``None``."""
+    name = physunits.store_system(results.manifest)
+    return physunits.SYSTEMS[name] if name is not None else None
+
+
+#: The sizes of ``[initial]`` lists stated in physical units with ``[units]`` (README, "Physical
+#: units"), by the dimension of their values: a swept parameter used alone as one of them has
+#: that dimension's unit.
+_INITIAL_DIMENSIONS = {
+    "amplitude": "height",
+    "speed": "speed",
+    "kappa": "wavenumber",
+    "position": "length",
+    "height": "height",
+    "scale": "length",
+    "center": "length",
+    "half_width": "length",
+    "edge": "length",
+}
+
+
+def parameter_labels(results: Results) -> dict[str, str]:
+    """Axis labels with units of the swept parameters whose unit the sweep file tells: one used
+    alone as a ``[units]`` key (``depth = "depth"``: metres) or as a size of ``[initial]``
+    (``amplitude = ["phi", 0.08]``: the system's height unit). Empty without ``[units]``."""
+    system = store_units(results)
+    if system is None:
+        return {}
+    try:
+        doc = tomllib.loads(str(results.manifest.get("sweep_text", "")))
+    except tomllib.TOMLDecodeError:
+        return {}
+    params = set(results.parameters)
+    out: dict[str, str] = {}
+
+    def name_of(value: Any) -> str | None:
+        text = value.strip() if isinstance(value, str) else None
+        return text if text in params else None
+
+    units = doc.get("units", {})
+    keys = {p.key: p.unit for p in system.PARAMETERS}
+    for key, value in units.items() if isinstance(units, dict) else ():
+        name = name_of(value)
+        if name is not None and key in keys:
+            out.setdefault(name, f"{name} ({keys[key]})")
+    initial = doc.get("initial", {})
+    for key, dimension in _INITIAL_DIMENSIONS.items():
+        raw = initial.get(key) if isinstance(initial, dict) else None
+        for value in raw if isinstance(raw, list) else [raw]:
+            name = name_of(value)
+            unit = system.UNITS.get(dimension)
+            if name is not None and unit:
+                out.setdefault(name, f"{name} ({unit})")
+    return out
+
+
+#: Canonical columns of the figures and the physical ones shown in their place (``phys_*``).
+_PHYSICAL_COLUMNS = {
+    "shift_predicted": "phys_shift_predicted",
+    "shift_measured": "phys_shift_measured",
+    "shift_uncertainty": "phys_shift_uncertainty",
+    "amplitude_end": "phys_amplitude_end",
+    "amplitude_predicted": "phys_amplitude_predicted",
+    "amplitude": "phys_amplitude",
+    "amplitude_ist": "phys_amplitude_ist",
+    "amplitude_uncertainty": "phys_amplitude_uncertainty",
+    "speed_uncertainty": "phys_speed_uncertainty",
+}
+
+
+def physical_rows(rows: pd.DataFrame, runs: pd.DataFrame, columns: Sequence[str]) -> pd.DataFrame:
+    """``rows`` (solitons joined with their runs) with the canonical ``columns`` replaced by their
+    ``phys_*`` twins; speeds (``speed``, ``speed_ist``) become speeds in the run's frame,
+    ``phys_* - phys_c0``. Raises KeyError when a physical column is missing (an older store)."""
+    out = rows.copy()
+    frame = ["phys_c0", "phys_height_scale"]
+    if any(c not in out for c in frame):
+        extra = runs[["run_id", *(c for c in frame if c not in out)]]
+        out = out.merge(extra, on="run_id", how="left")
+    for column in columns:
+        if column in ("speed", "speed_ist"):
+            out[column] = out[f"phys_{column}"] - out["phys_c0"]
+        elif column in out:
+            out[column] = out[_PHYSICAL_COLUMNS[column]]
+    return out
+
+
 def _decay_figure(
     results: Results,
     merged: pd.DataFrame,
@@ -444,7 +539,26 @@ def _decay_figure(
         f"{results.manifest.get('sweep_name', '')}: amplitude at the end of {count} damped or "
         "viscous run(s) against the adiabatic law"
     )
-    return adiabatic_decay(rows, plan.parameter, plan.color_by, title=title)
+    system = _physical_system(results, rows, ("amplitude_end", "amplitude_predicted"))
+    unit = None
+    if system is not None:
+        rows = physical_rows(rows, results.runs, ("amplitude_end", "amplitude_predicted"))
+        rows["amplitude_start"] = rows["amplitude_start"] * rows["phys_height_scale"]
+        unit = system.UNITS["height"]
+    labels = parameter_labels(results)
+    return adiabatic_decay(rows, plan.parameter, plan.color_by, title, unit, labels)
+
+
+def _physical_system(
+    results: Results, rows: pd.DataFrame, columns: Sequence[str]
+) -> type[physunits.System] | None:
+    """The store's ``[units]`` system when ``rows`` have the ``phys_*`` twins of ``columns``
+    (stores with units always do); else ``None`` (the canonical figure)."""
+    system = store_units(results)
+    if system is None:
+        return None
+    wanted = [_PHYSICAL_COLUMNS.get(c, f"phys_{c}") for c in columns]
+    return system if all(c in rows for c in wanted) else None
 
 
 def _start_amplitude(eq: Equation, kappa: float, sign: float) -> float:
@@ -477,7 +591,15 @@ def draw(results: Results, plan: FigurePlan) -> tuple[Figure, list[str]]:
             f"{results.manifest.get('sweep_name', '')}: {int((kinds == 'soliton').sum())} "
             f"solitons, {int((kinds == 'breather').sum())} breathers measured in {runs} runs"
         )
-        return content_comparison(merged, plan.color_by, title=title), notes
+        quantities = [c for c in CONTENT_COLUMNS if c in merged]
+        system = _physical_system(results, merged, quantities)
+        units: Mapping[str, str] | None = None
+        if system is not None:
+            merged = physical_rows(merged, results.runs, quantities)
+            units = system.UNITS
+        labels = parameter_labels(results)
+        fig = content_comparison(merged, plan.color_by, title, units, labels)
+        return fig, notes
     table = results.runs
     ok = table[table["status"] == "ok"] if "status" in table else table
     equations, _ = _equations(ok)
@@ -487,11 +609,40 @@ def draw(results: Results, plan: FigurePlan) -> tuple[Figure, list[str]]:
         return _decay_figure(results, merged, plan, equations, notes), notes
     kept, _ = _shift_runs(results.solitons, equations)
     merged = merged[merged["run_id"].isin(kept)]
+    labels = parameter_labels(results)
     if plan.kind == "shift_comparison":
-        return shift_comparison(merged, plan.group_by, color_by=plan.color_by), notes
+        system = _physical_system(results, merged, SHIFT_COLUMNS)
+        unit = None
+        if system is not None:
+            merged = physical_rows(merged, results.runs, SHIFT_COLUMNS)
+            size = float(merged[list(SHIFT_COLUMNS[:2])].abs().max().max())
+            unit, factor = readable_unit(system.UNITS["length"], size)  # mm for a plasma's
+            for column in SHIFT_COLUMNS:
+                if column in merged:
+                    merged[column] = merged[column] / factor
+        fig = shift_comparison(
+            merged, plan.group_by, color_by=plan.color_by, unit=unit, column_labels=labels
+        )
+        return fig, notes
     assert plan.parameter is not None
-    fig = relative_error(merged, plan.parameter, plan.group_by, color_by=plan.color_by)
+    fig = relative_error(
+        merged, plan.parameter, plan.group_by, color_by=plan.color_by, column_labels=labels
+    )
     return fig, notes
+
+
+#: The columns of the shift figures shown in physical units with ``[units]``.
+SHIFT_COLUMNS = ("shift_predicted", "shift_measured", "shift_uncertainty")
+#: The columns of the content figure shown in physical units with ``[units]`` (speeds in the
+#: run's frame).
+CONTENT_COLUMNS = (
+    "amplitude",
+    "amplitude_ist",
+    "amplitude_uncertainty",
+    "speed",
+    "speed_ist",
+    "speed_uncertainty",
+)
 
 
 def _spacetime_of_run(results: Results, run_id: int, notes: list[str]) -> Figure:
@@ -529,16 +680,36 @@ def _spacetime_of_run(results: Results, run_id: int, notes: list[str]) -> Figure
                     "no asymptotes: " + str(analysis.summary.get("analysis_reason", "not fitted"))
                 )
     params = [p for p in results.parameters if p in row.index and p != "equation"]
-    label = ", ".join(f"{p} = {format_value(row[p])}" for p in params)
+    names = parameter_labels(results)
+    label = ", ".join(_value_label(names.get(p, p), row[p]) for p in params)
     title = eq.describe() + (f"\n{label}" if label else "")
-    return spacetime(frames.u, frames.times, grid, analysis, title=title, content=content)
+    system = store_units(results)
+    axes = physunits.axes_for_run(results.manifest, results.runs, run_id)
+    if system is not None and axes is not None:
+        c0 = f"{row['phys_c0']:.4g} {system.UNITS['speed']}"
+        title = f"{system.NAME} (frame moving at c0 = {c0}), run as {title}"
+    units = system.UNITS if system is not None and axes is not None else None
+    return spacetime(
+        frames.u,
+        frames.times,
+        grid,
+        analysis,
+        title=title,
+        content=content,
+        axes=axes,
+        units=units,
+    )
+
+
+def _value_label(label: str, value: Any) -> str:
+    """``name = value`` or, for a label with a unit ``name (m)``, ``name = value m``."""
+    name, _, unit = label.partition(" (")
+    return f"{name} = {format_value(value)}" + (f" {unit.rstrip(')')}" if unit else "")
 
 
 def _content_floor(results: Results, frames: np.ndarray) -> float | None:
     """The runner's amplitude floor: ``sizing.min_amplitude`` of the sweep (a fraction of
     ``max |u0|``), or ``None`` for the measurement's default."""
-    import tomllib
-
     try:
         doc = tomllib.loads(str(results.manifest.get("sweep_text", "")))
     except tomllib.TOMLDecodeError:
@@ -572,12 +743,16 @@ def iter_figures(
     res = load(out)
     dest = Path(into) if into is not None else Path(out) / "figures"
     check_formats(formats)  # before anything is drawn
+    system = store_units(res)
+    water = system is not None and system.WATER  # the hazard caution in every figure's footer
     for plan in plan_figures(res, parameter, runs):
         if not plan.drawable:
             yield FigureOutcome(plan, [], [plan.reason])
             continue
         with figure_style():
             fig, notes = draw(res, plan)
+            if water:
+                add_caution(fig)
             paths = save(fig, dest / plan.stem, formats)
         yield FigureOutcome(plan, paths, notes)
 
