@@ -170,6 +170,13 @@ ANALYSIS_COLUMNS: tuple[Column, ...] = (
     Column("frames_before", _I, "fewest frames in a soliton's fit window before its collisions"),
     Column("frames_after", _I, "fewest frames in a soliton's fit window after its collisions"),
     Column("separation", _F, "tail lengths apart that the solitons must be in a fit window"),
+    Column("accuracy_target", _F, "accuracy.shift: the relative error wanted in the shifts"),
+    Column(
+        "accuracy_met",
+        _B,
+        "verified runs: every shift_error_estimate within accuracy_target of the shift (null when"
+        " not verified or no target)",
+    ),
 )
 
 #: Runs columns of the soliton content: the inverse scattering transform (IST) of the initial data
@@ -282,6 +289,15 @@ SOLITON_COLUMNS: tuple[Column, ...] = (
         "error estimate of shift_measured: fit error, window bias and speed drift (reference:"
         " scatter and drift of the difference in both windows)",
     ),
+    Column(
+        "shift_error_estimate",
+        _F,
+        "verified runs (accuracy.verify): |shift_measured - the same at dt/2| times 2^p/(2^p - 1),"
+        " p the scheme's order (16/15 etdrk4, ifrk4; 4/3 strang), plus |shift_measured - the same"
+        " on 2n points|",
+    ),
+    Column("amplitude_error_estimate", _F, "the same estimate for amplitude"),
+    Column("speed_error_estimate", _F, "the same estimate for speed"),
     Column(
         "shift_method",
         _S,

@@ -32,6 +32,7 @@ from ..columns import Layout, has_content
 from ..exceptions import ConfigError, ShapeError
 from ..model import COEFFICIENTS, Equation, Grid, SolitonForm
 from ..simulation import ADAPTIVE, DEFAULT_SCHEME, SCHEMES, step_options
+from . import accuracy as acc
 from . import sizing
 from .expr import Expression, ExpressionError
 from .schema import Source, Table, describe, is_finite, is_number, join, suggestion
@@ -45,7 +46,7 @@ PROVISIONAL_POINTS = 2048
 DEFAULT_TAIL = 1e-8
 PRESETS = ("kdv", "kdv-", "mkdv", "mkdv-", "gardner")
 
-_TOP = ("sweep", "model", "initial", "run", "vary", "derive", "sizing", "units")
+_TOP = ("sweep", "model", "initial", "run", "vary", "derive", "sizing", "units", "accuracy")
 _SWEEP = ("name", "note")
 _MODEL = ("equation", "points", "length", "scheme", "dt", "tol")
 _EQUATION = ("preset", *COEFFICIENTS, "dealias")
@@ -60,6 +61,7 @@ _RUN = (
     "max_amplitude",
 )
 _SIZING = ("tail", "min_amplitude", "max_end", "radiation")
+_ACCURACY = ("shift", "verify", "seed")
 #: Default ``sizing.max_end``: the latest automatic end of a content run (time units of the run).
 DEFAULT_MAX_END = 100.0
 #: Default ``sizing.radiation``: the Fourier level of the data (relative to its peak) whose
@@ -163,6 +165,12 @@ class RunSettings:
     time_limit
         Wall-clock seconds the run may step (``run.time_limit``); a run over it is stored as
         failed with that reason.
+    accuracy
+        The relative accuracy wanted in the shifts (``accuracy.shift``): shifts whose uncertainty
+        is above it are not reported (:func:`kdvsweep.analysis.analyse_run`); ``None``: no target.
+    verify
+        Re-run at half the step to estimate the errors (``accuracy.verify``, the run is one of
+        the seeded choice :func:`kdvsweep.sweep.accuracy.verified_runs`).
     """
 
     t_end: float
@@ -175,10 +183,14 @@ class RunSettings:
     tail: float = DEFAULT_TAIL
     time_limit: float = DEFAULT_TIME_LIMIT
     max_amplitude: float | None = None
+    accuracy: float | None = None
+    verify: bool = False
 
     def plain(self) -> dict[str, Any]:
         """As plain JSON data; options at their defaults are left out, so adding an option
-        leaves the digests of the sweeps that do not use it as they were. ``time_limit``,
+        leaves the digests of the sweeps that do not use it as they were. ``accuracy`` and
+        ``verify`` are in when set: they change the stored results (shifts above the target
+        are not reported; a verified run has error estimates). ``time_limit``,
         ``drift_limit`` and ``max_amplitude`` are left out always: they decide when a run is
         declared failed, not what it computes (so a sweep whose limits changed can retry its
         failed runs in the same store: ``kdvsweep run --retry-failed``)."""
@@ -194,6 +206,10 @@ class RunSettings:
             out["min_amplitude"] = self.min_amplitude
         if self.tail != DEFAULT_TAIL:
             out["tail"] = self.tail
+        if self.accuracy is not None:
+            out["accuracy"] = self.accuracy
+        if self.verify:
+            out["verify"] = True
         return out
 
 
@@ -372,6 +388,14 @@ class _Template:
     radiation: float = DEFAULT_RADIATION
     #: ``[units]``: the system's name and its keys (see :func:`_read_units`), or ``None``.
     units: tuple[str, dict[str, _Num]] | None = None
+    #: ``[accuracy]``: the shift target (``None``: none), the share of runs verified, its seed.
+    target: float | None = None
+    verify: float = acc.DEFAULT_VERIFY
+    seed: int = acc.DEFAULT_SEED
+    #: ``model.dt = "auto"`` (:func:`kdvsweep.sweep.accuracy.auto_dt`).
+    dt_auto: bool = False
+    #: The run ids chosen for verification (set once the runs are counted).
+    verified: frozenset[int] = frozenset()
     #: Predicted content of each distinct profile (sizing), by the profile's plain form.
     content_cache: dict[str, Any] = field(default_factory=dict)
 
@@ -419,10 +443,13 @@ def _read_template(src: Source, doc: dict[str, Any], base: Path, stem: str) -> _
     points = _num_or_auto(src, model.key("points"), model.raw("points"), names)
     length = _num_or_auto(src, model.key("length"), model.raw("length"), names)
     scheme = _text(src, model.key("scheme"), model.raw("scheme", DEFAULT_SCHEME), SCHEMES, names)
-    dt = _num(src, model.key("dt"), model.raw("dt"), names) if model.has("dt") else None
+    dt_auto = model.raw("dt", None) == "auto"
+    dt = None
+    if model.has("dt") and not dt_auto:
+        dt = _num(src, model.key("dt"), model.raw("dt"), names)
     tol = _num(src, model.key("tol"), model.raw("tol"), names) if model.has("tol") else None
     if scheme.literal is not None:
-        if scheme.literal != ADAPTIVE and dt is None:
+        if scheme.literal != ADAPTIVE and dt is None and not dt_auto:
             model.raw("dt")  # raises: required
         if scheme.literal != ADAPTIVE and tol is not None:
             raise model.fail(
@@ -469,6 +496,21 @@ def _read_template(src: Source, doc: dict[str, Any], base: Path, stem: str) -> _
     radiation = stab.number("radiation", default=DEFAULT_RADIATION, positive=True)
     if not radiation < 1:
         raise stab.fail("radiation", radiation, "a number between 0 and 1 (a relative level)")
+
+    atab = Table(src, top.raw("accuracy", {}), "accuracy", _ACCURACY)
+    target = atab.number("shift", default=None, positive=True)
+    if target is not None and not target < 0.1:
+        raise atab.fail("shift", target, "a relative error between 0 and 0.1 (e.g. 1e-5)")
+    verify = atab.number("verify", default=acc.DEFAULT_VERIFY)
+    if not 0 <= verify <= 1:
+        raise atab.fail("verify", verify, "a fraction of the runs from 0 to 1")
+    seed = atab.integer("seed", default=acc.DEFAULT_SEED, minimum=0)
+    if dt_auto and not soliton_data:
+        raise src.error(
+            "model.dt",
+            "'auto'",
+            "a number: an automatic step needs initial.kind = 'solitons' or 'multisoliton'",
+        )
 
     autos = {
         "model.length": length is None,
@@ -537,6 +579,10 @@ def _read_template(src: Source, doc: dict[str, Any], base: Path, stem: str) -> _
         max_end=float(max_end),
         radiation=float(radiation),
         units=units,
+        target=None if target is None else float(target),
+        verify=float(verify),
+        seed=int(seed),
+        dt_auto=dt_auto,
     )
 
 
@@ -1069,7 +1115,7 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
     scales = None if system is None else system.scales()
     eq = _equation(tpl, ctx, system)
     scheme = ctx.text(tpl.scheme, SCHEMES)
-    if scheme != ADAPTIVE:
+    if scheme != ADAPTIVE and not tpl.dt_auto:
         if tpl.dt is None:  # a sweep file names the step of a fixed-step scheme
             raise ctx.src.error(
                 "model.dt",
@@ -1082,6 +1128,10 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
             )
     given_dt = ctx.num(tpl.dt, "positive") if tpl.dt else None
     given_tol = ctx.num(tpl.tol, "positive") if tpl.tol else None
+    if tpl.dt_auto and scheme != ADAPTIVE and tpl.tol is not None:
+        raise ctx.fail(
+            "model.tol", tpl.tol.given, f"no tol with scheme {scheme!r} ({ADAPTIVE} only)"
+        )
     try:  # the defaults and the rule "tol for the adaptive scheme only" live in the simulation
         dt, tol = step_options(scheme, given_dt, given_tol)
     except ConfigError as err:
@@ -1149,7 +1199,8 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
             t_end = canonical(math.ceil(t_end / tpl.frame_every - 1e-9) * tpl.frame_every)
         else:
             t_end = ctx.num(tpl.end, "positive")
-        _check_steps(ctx, scheme, dt, t_end)
+        if not tpl.dt_auto:
+            _check_steps(ctx, scheme, dt, t_end)
         need = sizing.min_length(x0, kappas, speeds, form, tpl.tail, t_end)
         if not math.isfinite(need):
             raise ctx.fail(
@@ -1244,8 +1295,13 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
 
     dealias = eq.dealias_fraction
     if tpl.points is None:
-        need = sizing.points_needed(narrowest, length, dealias)
-        n = sizing.auto_points(narrowest, length, dealias) if need <= MAX_AUTO_POINTS else 0
+        decades = acc.auto_decades(tpl.target, sizing.WARN_DECADES)
+        need = sizing.points_needed(narrowest, length, dealias, decades)
+        n = (
+            sizing.auto_points(narrowest, length, dealias, decades)
+            if need <= MAX_AUTO_POINTS
+            else 0
+        )
         if not 0 < n <= MAX_AUTO_POINTS:
             raise ctx.src.error(
                 "model.points",
@@ -1260,6 +1316,13 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
         grid = Grid(n, length)
     except ConfigError as err:
         raise ctx.fail("model.points", n, f"an even integer >= 16 ({err})") from None
+    if tpl.dt_auto and scheme != ADAPTIVE and soliton:  # needs the grid: the stable step
+        target = acc.DEFAULT_AUTO_TARGET if tpl.target is None else tpl.target
+        rate = acc.soliton_rate(
+            speeds, [form.width(k, s) for k, s in zip(kappas, signs, strict=True)]
+        )
+        dt = acc.auto_dt(scheme, target, rate, sizing.dt_limit(scheme, max_u, eq, grid.dx))
+        _check_steps(ctx, scheme, dt, t_end)
     # limits on what a run would take, checked before anything is built or run
     frames = _frame_count(t_end, tpl.frame_every)
     if not frames <= MAX_FRAMES:
@@ -1304,6 +1367,8 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
         time_limit=tpl.time_limit,
         drift_limit=tpl.drift_limit,
         max_amplitude=tpl.max_amplitude,
+        accuracy=tpl.target,
+        verify=ctx.run_id in tpl.verified,
     )
     return RunSpec(ctx.run_id, dict(ctx.params), model, initial, run, system)
 
@@ -1608,6 +1673,7 @@ def load_sweep(path: str | Path) -> Sweep:
         ) from None
     tpl = _read_template(src, doc, file.resolve().parent, file.stem)
     combos = expand(tpl.axes)
+    tpl.verified = acc.verified_runs(range(len(combos)), tpl.verify, tpl.seed)
     warn = _Warnings(label, len(combos))
     if (
         tpl.sizing_given

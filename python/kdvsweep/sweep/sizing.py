@@ -162,20 +162,27 @@ def min_points_per_width(dealias: float, decades: float) -> float:
     return 2.0 * decades * math.log(10.0) / (dealias * math.pi**2)
 
 
-def points_needed(narrowest: float, length: float, dealias: float) -> float:
-    """Points that resolve the narrowest width with no warning (a float: may be huge or inf)."""
+def points_needed(
+    narrowest: float, length: float, dealias: float, decades: float = WARN_DECADES
+) -> float:
+    """Points that resolve the narrowest width with no warning (a float: may be huge or inf);
+    ``decades`` of spectrum kept at the cutoff (fewer with an accuracy target:
+    :func:`kdvsweep.sweep.accuracy.auto_decades`)."""
     if not narrowest > 0:
         return math.inf
-    return length / narrowest * min_points_per_width(dealias, WARN_DECADES)
+    return length / narrowest * min_points_per_width(dealias, decades)
 
 
-def auto_points(narrowest: float, length: float, dealias: float) -> int:
-    """Smallest FFT-friendly even ``n`` (``2^p`` or ``3 2^p``, at least 16) with no warning.
+def auto_points(
+    narrowest: float, length: float, dealias: float, decades: float = WARN_DECADES
+) -> int:
+    """Smallest FFT-friendly even ``n`` (``2^p`` or ``3 2^p``, at least 16) with no warning
+    (``decades`` as :func:`points_needed`).
 
     Raises ValueError when :func:`points_needed` is not finite (callers compare it with their
     limit first).
     """
-    need = points_needed(narrowest, length, dealias)
+    need = points_needed(narrowest, length, dealias, decades)
     if not math.isfinite(need):
         raise ValueError(f"automatic points: no grid resolves width {narrowest} on length {length}")
     n = 16

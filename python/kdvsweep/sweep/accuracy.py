@@ -1,0 +1,168 @@
+"""The accuracy a sweep asks for (``[accuracy]`` in a sweep file; README "Asking for an accuracy").
+
+One home for: the runs chosen for verification (a seeded, reproducible choice), the temporal order
+of each fixed-step scheme and the Richardson factor of its error estimate, the error model behind
+``dt = "auto"`` and the spectrum decades behind ``points = "auto"`` with a target.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping, Sequence
+from typing import Any
+
+import numpy as np
+
+#: Default ``accuracy.verify``: no run is re-run.
+DEFAULT_VERIFY = 0.0
+#: Default ``accuracy.seed`` of the choice of verified runs.
+DEFAULT_SEED = 0
+
+#: Temporal order of each fixed-step scheme (ETDRK4: Cox & Matthews 2002; IFRK4: classical RK4 in
+#: the integrating factor; Strang splitting: second order, Strang 1968 [memory]).
+SCHEME_ORDER: dict[str, int] = {"etdrk4": 4, "ifrk4": 4, "strang": 2}
+
+#: The measured numbers of a soliton whose difference between a run at ``dt`` and the same run at
+#: ``dt / 2`` is stored as ``<name>_error_estimate`` (solitons table).
+ESTIMATED = ("shift", "amplitude", "speed")
+
+#: Error model of ``dt = "auto"``: the relative error of a collision's shifts is about
+#: ``C (dt rate)^p`` with ``p`` the scheme's order and ``rate`` the fastest soliton's
+#: ``speed / width`` (:func:`soliton_rate`; 4 for the KdV pair below). ``C`` per scheme, measured
+#: 2026-12-02 on the KdV pair kappa = (1, 0.5) (``points = "auto"`` at 16 decades: n = 512,
+#: positions, length and end auto: t = 13.3, frame_every = 0.1) against the pair formula (Gardner
+#: et al. 1974, :func:`kdvsweep.theory.phase_shifts`), the larger relative shift error of the pair:
+#: ETDRK4 dt = 0.005, 0.0035, 0.0025, 0.00125: 9.5e-5, 1.5e-5, 2.8e-6, 9.1e-8 (C = 590, 380,
+#: 280, 150); IFRK4 dt = 0.0025, 0.00125: 2.6e-5, 7.0e-7 (C = 2600, 1100); Strang dt = 0.005,
+#: 0.0025: 4.7e-4, 1.1e-4 (C = 1.2, 1.1). Larger steps were at the edge of stability (errors of
+#: 1e-3 to 1e-2). ``C`` is the largest of each scheme's values, rounded up: the error falls
+#: faster than ``dt^4`` for the fourth-order schemes here, so the model errs on the safe side at
+#: small targets (tests/test_accuracy.py checks the result against the formula).
+ERROR_CONSTANT: dict[str, float] = {"etdrk4": 600.0, "ifrk4": 3000.0, "strang": 1.5}
+#: Share of the target the temporal error may take (the rest is left to the analysis's fits).
+TIME_SHARE = 0.25
+#: ``dt = "auto"`` without a target aims at this relative shift error.
+DEFAULT_AUTO_TARGET = 1e-6
+#: Decades of spectrum ``points = "auto"`` keeps beyond the target (``-log10(target) + 3``): the
+#: truncation error of a resolved profile is about the spectrum's level at the cutoff, and a
+#: shift is read from positions of peaks of width ``1/kappa``, so a field error ``e`` moves a peak
+#: by about ``e`` widths. The margin is measured, not derived: with two decades the KdV pair
+#: kappa = (1, 0.6) at target 1e-5 (n = 192) had its shifts right to 1.3e-6 but the analysis's
+#: fit uncertainty of the slow soliton at 1.3e-5, above the target (so the shift was not
+#: reported); with three (n = 256) the uncertainty is 2.6e-7 (2026-12-02).
+EXTRA_DECADES = 3.0
+
+
+def richardson_factor(order: int) -> float:
+    """``2^p / (2^p - 1)``: the error of a value computed at ``dt`` is about this times its
+    difference from the same value at ``dt / 2`` (Richardson extrapolation, common practice, no
+    source): 16/15 for a fourth-order scheme, 4/3 for Strang's second order."""
+    return 2.0**order / (2.0**order - 1.0)
+
+
+def verified_runs(run_ids: Sequence[int], fraction: float, seed: int) -> frozenset[int]:
+    """The runs re-run at half the step: ``ceil(fraction * len(run_ids))`` of them (none for 0,
+    all for 1), drawn without replacement by ``numpy.random.default_rng(seed)`` from the ids in
+    order. The same file (same runs, fraction and seed) always gives the same runs."""
+    if not 0.0 <= fraction <= 1.0:
+        raise ValueError(f"verify fraction {fraction!r}: expected a number from 0 to 1")
+    ids = sorted(int(i) for i in run_ids)
+    count = min(len(ids), math.ceil(fraction * len(ids) - 1e-12))
+    if count <= 0:
+        return frozenset()
+    if count == len(ids):
+        return frozenset(ids)
+    picked = np.random.default_rng(seed).choice(len(ids), size=count, replace=False)
+    return frozenset(ids[int(i)] for i in picked)
+
+
+def soliton_rate(speeds: Sequence[float], widths: Sequence[float]) -> float:
+    """The fastest soliton's ``speed / width`` (the inverse of the time it takes to cross its
+    own width): the rate that sets the temporal error of a collision."""
+    return max(abs(s) / w for s, w in zip(speeds, widths, strict=True))
+
+
+def auto_dt(scheme: str, target: float, rate: float, limit: float) -> float:
+    """The largest step whose estimated shift error ``C (dt rate)^p`` (:data:`ERROR_CONSTANT`)
+    is ``TIME_SHARE`` of ``target``, capped by the scheme's stable step ``limit``; a step with
+    three significant digits (rounded down)."""
+    order = SCHEME_ORDER[scheme]
+    dt = (TIME_SHARE * target / ERROR_CONSTANT[scheme]) ** (1.0 / order) / rate
+    dt = min(dt, limit)
+    scale = 10.0 ** math.floor(math.log10(dt) - 2)
+    return math.floor(dt / scale) * scale
+
+
+def auto_decades(target: float | None, ceiling: float) -> float:
+    """Spectrum decades ``points = "auto"`` keeps at the cutoff: ``-log10(target) + 3``
+    (:data:`EXTRA_DECADES`), at most ``ceiling`` (the double precision level); ``ceiling``
+    without a target."""
+    if target is None:
+        return ceiling
+    return min(ceiling, -math.log10(target) + EXTRA_DECADES)
+
+
+def error_estimates(
+    rows: Sequence[Mapping[str, Any]], other: Sequence[Mapping[str, Any]], order: int | None
+) -> list[dict[str, float]]:
+    """``<name>_error_estimate`` of each soliton row for each of :data:`ESTIMATED`: the
+    Richardson factor times ``|value(dt) - value(dt / 2)|`` (``other`` the run at half the step,
+    ``order`` the scheme's), or ``|value(n) - value(2 n)|`` (``order = None``: ``other`` on a
+    finer grid, whose spectral error is far smaller). NaN when either value is missing, or when
+    the two runs do not have the same solitons."""
+    factor = 1.0 if order is None else richardson_factor(order)
+    rows_other = other
+    out = []
+    same = len(rows) == len(rows_other)
+    for i, row in enumerate(rows):
+        est: dict[str, float] = {}
+        for name in ESTIMATED:
+            key = "shift_measured" if name == "shift" else name
+            a = _number(row.get(key))
+            b = _number(rows_other[i].get(key)) if same else math.nan
+            est[f"{name}_error_estimate"] = factor * abs(a - b)
+        out.append(est)
+    return out
+
+
+def accuracy_met(
+    rows: Sequence[Mapping[str, Any]], estimates: Sequence[Mapping[str, float]], target: float
+) -> bool | None:
+    """Whether every shift's error estimate, relative to the predicted shift (the measured one
+    without a prediction), is within ``target``; ``None`` when no estimate is finite."""
+    rel = []
+    for row, est in zip(rows, estimates, strict=True):
+        ref = _number(row.get("shift_predicted"))
+        if not math.isfinite(ref) or ref == 0:
+            ref = _number(row.get("shift_measured"))
+        value = est.get("shift_error_estimate", math.nan)
+        if math.isfinite(value) and math.isfinite(ref) and ref != 0:
+            rel.append(value / abs(ref))
+    if not rel:
+        return None
+    return bool(max(rel) <= target)
+
+
+def _number(value: object) -> float:
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        return math.nan
+    return float(value)
+
+
+__all__ = [
+    "DEFAULT_AUTO_TARGET",
+    "DEFAULT_SEED",
+    "DEFAULT_VERIFY",
+    "ERROR_CONSTANT",
+    "ESTIMATED",
+    "EXTRA_DECADES",
+    "SCHEME_ORDER",
+    "TIME_SHARE",
+    "accuracy_met",
+    "auto_decades",
+    "auto_dt",
+    "error_estimates",
+    "richardson_factor",
+    "soliton_rate",
+    "verified_runs",
+]

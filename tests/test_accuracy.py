@@ -1,0 +1,141 @@
+"""``[accuracy]`` in sweep files: the target, automatic step and grid, error estimates of verified
+runs (README "Asking for an accuracy").
+
+Normalisation: KdV ``u_t + 6 u u_x + u_xxx = 0``. The reference for every shift is the pair
+formula of Gardner, Greene, Kruskal & Miura (1974) as :func:`kdvsweep.theory.phase_shifts` gives
+it (fast soliton ``ln((k1 + k2) / (k1 - k2)) / k1``, slow ``-ln(...) / k2``).
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import pytest
+
+from kdvsweep import theory
+from kdvsweep.exceptions import ConfigError
+from kdvsweep.sweep import accuracy as acc
+from kdvsweep.sweep import runner
+from kdvsweep.sweep.config import load_sweep
+
+PAIR = """
+[model]
+equation = "kdv"
+scheme = "SCHEME"
+dt = "auto"
+points = "auto"
+length = "auto"
+
+[initial]
+kind = "solitons"
+kappa = [1.0, K2]
+position = "auto"
+
+[run]
+end = "auto"
+frame_every = 0.1
+
+[accuracy]
+shift = TARGET
+verify = 1
+"""
+
+
+def pair(tmp_path: Path, k2: float = 0.5, target: str = "1e-5", scheme: str = "etdrk4") -> Path:
+    text = PAIR.replace("K2", repr(k2)).replace("TARGET", target).replace("SCHEME", scheme)
+    path = tmp_path / "pair.toml"
+    path.write_text(text)
+    return path
+
+
+@pytest.mark.parametrize("k2", [0.4, 0.6])
+def test_auto_step_reaches_the_target_and_estimates_bracket_the_error(
+    tmp_path: Path, k2: float
+) -> None:
+    # Both sides of Lax's exchange/absorb-emit threshold (k2 = 0.4: ratio 6.25, 0.6: 2.8).
+    target = 1e-5
+    spec = load_sweep(pair(tmp_path, k2)).runs[0]
+    assert spec.run.accuracy == target
+    assert spec.run.verify
+    result = runner.execute(spec)
+    assert result.ok, result.run_row.get("reason")
+    predicted = theory.phase_shifts([1.0, k2])  # Gardner et al. 1974
+    assert len(result.soliton_rows) == 2
+    for row, shift in zip(result.soliton_rows, predicted, strict=True):
+        true = abs(row["shift_measured"] - shift) / abs(shift)
+        est = row["shift_error_estimate"] / abs(shift)
+        assert true <= target, (k2, row["soliton"], true)
+        # the estimate brackets the true error, or is within a factor 3 of it
+        assert est >= true or true <= 3 * est, (k2, row["soliton"], true, est)
+        assert math.isfinite(row["amplitude_error_estimate"])
+        assert math.isfinite(row["speed_error_estimate"])
+    assert result.run_row["accuracy_met"] is True
+    assert result.run_row["accuracy_target"] == target
+
+
+def test_a_tighter_target_takes_a_smaller_step_and_more_points(tmp_path: Path) -> None:
+    loose = load_sweep(pair(tmp_path, target="1e-4")).runs[0].model
+    tight = load_sweep(pair(tmp_path, target="1e-8")).runs[0].model
+    assert tight.dt < loose.dt
+    assert tight.grid.n > loose.grid.n
+    # the error model: C (dt rate)^p is TIME_SHARE of the target (rate 4 k1^3 = 4 here)
+    model = acc.ERROR_CONSTANT["etdrk4"] * (loose.dt * 4.0) ** 4
+    assert model <= acc.TIME_SHARE * 1e-4
+
+
+def test_strang_error_estimate_uses_second_order() -> None:
+    # Richardson extrapolation (common practice, no source): 2^p / (2^p - 1).
+    assert acc.richardson_factor(4) == pytest.approx(16 / 15)
+    assert acc.richardson_factor(2) == pytest.approx(4 / 3)
+    rows = [{"shift_measured": 1.0, "amplitude": 2.0, "speed": 4.0, "shift_predicted": 1.0}]
+    other = [{"shift_measured": 1.0 + 3e-6, "amplitude": 2.0, "speed": 4.0}]
+    est = acc.error_estimates(rows, other, 2)
+    assert est[0]["shift_error_estimate"] == pytest.approx(4e-6)
+    assert acc.accuracy_met(rows, est, 1e-5) is True
+    assert acc.accuracy_met(rows, est, 1e-6) is False
+
+
+def test_verified_runs_are_reproducible(tmp_path: Path) -> None:
+    text = PAIR.replace("K2", '"k2"').replace("TARGET", "1e-4").replace("SCHEME", "etdrk4")
+    text = text.replace("verify = 1", "verify = 0.3\nseed = SEED")
+    text += "\n[[vary]]\nk2 = { from = 0.3, to = 0.7, count = 10 }\n"
+
+    def chosen(seed: int) -> list[int]:
+        path = tmp_path / f"s{seed}.toml"
+        path.write_text(text.replace("SEED", str(seed)))
+        return [r.run_id for r in load_sweep(path).runs if r.run.verify]
+
+    first = chosen(1)
+    assert len(first) == 3
+    assert chosen(1) == first
+    assert any(chosen(s) != first for s in (2, 3, 4))
+    assert acc.verified_runs(range(10), 0.0, 1) == frozenset()
+    assert acc.verified_runs(range(10), 1.0, 1) == frozenset(range(10))
+
+
+@pytest.mark.parametrize(
+    ("line", "message"),
+    [
+        ("shfit = 1e-5", r"accuracy\.shfit"),
+        ("verify = 2", r"accuracy\.verify: given 2, expected a fraction of the runs from 0 to 1"),
+        ("seed = -1", r"accuracy\.seed: given -1, expected an integer >= 0"),
+        ('shift = "fine"', r"accuracy\.shift: given 'fine', expected a positive number"),
+    ],
+)
+def test_bad_accuracy_key_is_one_line(tmp_path: Path, line: str, message: str) -> None:
+    path = tmp_path / "bad.toml"
+    path.write_text(
+        PAIR.replace("K2", "0.5")
+        .replace("SCHEME", "etdrk4")
+        .replace("shift = TARGET\nverify = 1", line)
+    )
+    with pytest.raises(ConfigError, match=message) as info:
+        load_sweep(path)
+    assert "\n" not in str(info.value)
+
+
+def test_target_is_in_the_digest(tmp_path: Path) -> None:
+    a = load_sweep(pair(tmp_path, target="1e-5")).digest
+    b = load_sweep(pair(tmp_path, target="1e-6")).digest
+    assert a != b
