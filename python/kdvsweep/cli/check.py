@@ -8,8 +8,29 @@ from __future__ import annotations
 
 import argparse
 import textwrap
+from collections.abc import Iterable
 from pathlib import Path
 from typing import Any
+
+from .common import say
+
+#: What the hazard caution (:data:`kdvsweep.units.CAUTION`) is printed after.
+CAUTION_PREFIX = "physical water-wave units: "
+
+
+def say_caution(systems: Iterable[str | None], command: str) -> None:
+    """The hazard caution, once on stderr, when one of ``systems`` (names of
+    :data:`kdvsweep.units.SYSTEMS`, ``None`` for a run without ``[units]``) is in physical
+    water-wave units (``WATER``): ``kdvsweep run``, ``check`` and ``plot`` share it."""
+    from .. import units
+
+    if any(name in units.SYSTEMS and units.SYSTEMS[name].WATER for name in systems if name):
+        say(CAUTION_PREFIX + units.CAUTION, command)
+
+
+def sweep_systems(sweep: Any) -> set[str | None]:
+    """The ``[units]`` systems of a loaded sweep's runs (``None`` for runs without)."""
+    return {spec.units.NAME if spec.units is not None else None for spec in sweep.runs}
 
 
 def register(sub: Any) -> None:
@@ -86,9 +107,12 @@ def _print_table(rows: list[dict[str, object]], left: tuple[str, ...] = ()) -> N
 
 
 def _check(args: argparse.Namespace) -> int:
+    from ..sweep.config import load_sweep
     from ..sweep.plan import make_plan
 
-    plan = make_plan(args.file)
+    sweep = load_sweep(args.file)
+    say_caution(sweep_systems(sweep), "check")
+    plan = make_plan(sweep)
     rows: list[dict[str, object]] = []
     for g in plan.groups:
         rows.append(

@@ -48,8 +48,16 @@ def register(sub: Any) -> None:
 
 
 def _plot(args: argparse.Namespace) -> int:
+    from ..exceptions import ConfigError
     from ..plots import iter_figures
+    from ..sweep.store import read_manifest
+    from ..units import store_system
+    from .check import say_caution
 
+    try:
+        say_caution([store_system(read_manifest(args.out))], "plot")
+    except ConfigError:  # not a store: iter_figures says so in its one line
+        pass
     formats = [f.strip() for f in args.formats.split(",") if f.strip()]
     written = 0
     for outcome in iter_figures(args.out, args.into, args.parameter, args.runs, formats):

@@ -142,9 +142,11 @@ def register(sub: Any) -> None:
 def _run(args: argparse.Namespace, file: Path) -> int:
     from ..sweep.config import load_sweep
     from ..sweep.farm import CHUNK_SECONDS, run
+    from .check import say_caution, sweep_systems
     from .progress import Progress
 
     sweep = load_sweep(file)
+    say_caution(sweep_systems(sweep), "run")  # physical water-wave units: the hazard caution
     for warning in sweep.warnings:
         say(f"warning: {warning}")
     out = args.out if args.out is not None else Path("results") / sweep.name
