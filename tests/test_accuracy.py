@@ -16,7 +16,7 @@ import pytest
 from kdvsweep import theory
 from kdvsweep.exceptions import ConfigError
 from kdvsweep.sweep import accuracy as acc
-from kdvsweep.sweep import runner
+from kdvsweep.sweep import runner, sizing
 from kdvsweep.sweep.config import load_sweep
 
 PAIR = """
@@ -49,13 +49,15 @@ def pair(tmp_path: Path, k2: float = 0.5, target: str = "1e-5", scheme: str = "e
     return path
 
 
-@pytest.mark.parametrize("k2", [0.4, 0.6])
+@pytest.mark.parametrize(
+    ("k2", "scheme"), [(0.4, "etdrk4"), (0.6, "etdrk4"), (0.5, "ifrk4"), (0.5, "strang")]
+)
 def test_auto_step_reaches_the_target_and_estimates_bracket_the_error(
-    tmp_path: Path, k2: float
+    tmp_path: Path, k2: float, scheme: str
 ) -> None:
     # Both sides of Lax's exchange/absorb-emit threshold (k2 = 0.4: ratio 6.25, 0.6: 2.8).
     target = 1e-5
-    spec = load_sweep(pair(tmp_path, k2)).runs[0]
+    spec = load_sweep(pair(tmp_path, k2, scheme=scheme)).runs[0]
     assert spec.run.accuracy == target
     assert spec.run.verify
     result = runner.execute(spec)
@@ -94,6 +96,9 @@ def test_strang_error_estimate_uses_second_order() -> None:
     assert est[0]["shift_error_estimate"] == pytest.approx(4e-6)
     assert acc.accuracy_met(rows, est, 1e-5) is True
     assert acc.accuracy_met(rows, est, 1e-6) is False
+    # a shift the analysis did not report (uncertainty above the target) is a target not met
+    unreported = [{**rows[0], "shift_measured": math.nan}]
+    assert acc.accuracy_met(unreported, est, 1e-5) is False
 
 
 def test_verified_runs_are_reproducible(tmp_path: Path) -> None:
@@ -139,3 +144,38 @@ def test_target_is_in_the_digest(tmp_path: Path) -> None:
     a = load_sweep(pair(tmp_path, target="1e-5")).digest
     b = load_sweep(pair(tmp_path, target="1e-6")).digest
     assert a != b
+
+
+@pytest.mark.parametrize(
+    ("scheme", "dt"), [("etdrk4", 0.0025), ("ifrk4", 0.0025), ("strang", 0.0025)]
+)
+def test_error_model_bounds_the_measured_error(tmp_path: Path, scheme: str, dt: float) -> None:
+    # The calibration of ERROR_CONSTANT, measured again at one of its steps: on the KdV pair
+    # kappa = (1, 0.5) (rate speed/width = 4) at double-precision resolution (no target: 16
+    # decades), the relative shift error against the pair formula (Gardner et al. 1974) is within
+    # C (dt rate)^p.
+    text = PAIR.replace("K2", "0.5").replace("SCHEME", scheme).replace('dt = "auto"', f"dt = {dt}")
+    path = tmp_path / "calibration.toml"
+    path.write_text(text.replace("shift = TARGET\nverify = 1", ""))
+    spec = load_sweep(path).runs[0]
+    result = runner.execute(spec)
+    assert result.ok, result.run_row.get("reason")
+    errors = [
+        abs(row["shift_measured"] - shift) / abs(shift)
+        for row, shift in zip(result.soliton_rows, theory.phase_shifts([1.0, 0.5]), strict=True)
+    ]
+    model = acc.ERROR_CONSTANT[scheme] * (dt * 4.0) ** acc.SCHEME_ORDER[scheme]
+    assert max(errors) <= model, (scheme, errors, model)
+    # and the model is not loose by orders of magnitude at the steps it was measured at
+    assert max(errors) >= model / 30, (scheme, errors, model)
+
+
+def test_auto_step_without_target_uses_the_default_target(tmp_path: Path) -> None:
+    path = tmp_path / "default.toml"
+    text = PAIR.replace("K2", "0.5").replace("SCHEME", "etdrk4")
+    path.write_text(text.replace("shift = TARGET\nverify = 1", ""))
+    spec = load_sweep(path).runs[0]
+    assert spec.run.accuracy is None
+    assert not spec.run.verify
+    limit = sizing.dt_limit("etdrk4", 0.5 * 4.0, spec.model.equation, spec.model.grid.dx)
+    assert spec.model.dt == acc.auto_dt("etdrk4", acc.DEFAULT_AUTO_TARGET, 4.0, limit)

@@ -22,6 +22,10 @@ DEFAULT_SEED = 0
 #: the integrating factor; Strang splitting: second order, Strang 1968 [memory]).
 SCHEME_ORDER: dict[str, int] = {"etdrk4": 4, "ifrk4": 4, "strang": 2}
 
+#: Cost of a verified run in runs of its own: itself, at half the step (twice the steps), on
+#: twice the points (a little over twice the work per step).
+VERIFY_COST = 5.0
+
 #: The measured numbers of a soliton whose difference between a run at ``dt`` and the same run at
 #: ``dt / 2`` is stored as ``<name>_error_estimate`` (solitons table).
 ESTIMATED = ("shift", "amplitude", "speed")
@@ -90,7 +94,7 @@ def auto_dt(scheme: str, target: float, rate: float, limit: float) -> float:
     dt = (TIME_SHARE * target / ERROR_CONSTANT[scheme]) ** (1.0 / order) / rate
     dt = min(dt, limit)
     scale = 10.0 ** math.floor(math.log10(dt) - 2)
-    return math.floor(dt / scale) * scale
+    return float(f"{math.floor(dt / scale) * scale:.3g}")
 
 
 def auto_decades(target: float | None, ceiling: float) -> float:
@@ -129,7 +133,11 @@ def accuracy_met(
     rows: Sequence[Mapping[str, Any]], estimates: Sequence[Mapping[str, float]], target: float
 ) -> bool | None:
     """Whether every shift's error estimate, relative to the predicted shift (the measured one
-    without a prediction), is within ``target``; ``None`` when no estimate is finite."""
+    without a prediction), is within ``target``: ``False`` as soon as one is above it or a shift
+    was not reported (``shift_measured`` NaN: its uncertainty was above the target, see
+    :func:`kdvsweep.analysis.analyse_run`); ``None`` when no estimate is finite."""
+    if any(not math.isfinite(_number(row.get("shift_measured"))) for row in rows):
+        return False
     rel = []
     for row, est in zip(rows, estimates, strict=True):
         ref = _number(row.get("shift_predicted"))
@@ -158,6 +166,7 @@ __all__ = [
     "EXTRA_DECADES",
     "SCHEME_ORDER",
     "TIME_SHARE",
+    "VERIFY_COST",
     "accuracy_met",
     "auto_decades",
     "auto_dt",

@@ -829,7 +829,7 @@ def _verify(
     half = replace(
         spec,
         model=replace(model, dt=model.dt / 2),
-        run=replace(spec.run, verify=False, store_frames=False),
+        run=replace(spec.run, verify=False, store_frames=False, accuracy=None),
         units=None,
     )
     finer = replace(half, model=replace(model, grid=Grid(2 * model.grid.n, model.grid.length)))
@@ -883,10 +883,11 @@ def execute_chunk(
 
 
 def cost(spec: RunSpec) -> float:
-    """Relative cost of a run, ``n log2 n * steps``, for sizing chunks (one FFT pass per stage)."""
+    """Relative cost of a run, ``n log2 n * steps``, for sizing chunks (one FFT pass per stage);
+    a verified run counts its re-runs too (:data:`kdvsweep.sweep.accuracy.VERIFY_COST`)."""
     n = spec.model.grid.n
     steps = max(1.0, spec.run.t_end / spec.model.dt)
-    return n * math.log2(max(n, 2)) * steps
+    return n * math.log2(max(n, 2)) * steps * (acc.VERIFY_COST if spec.run.verify else 1.0)
 
 
 __all__ = [
