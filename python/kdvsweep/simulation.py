@@ -136,18 +136,21 @@ def spectrum_decades(u: object, dealias: float) -> float:
     resolution) and its largest mode at or beyond the dealiasing cutoff ``dealias n / 2``.
 
     inf when the spectrum there is at the round-off floor of the transform (:data:`ROUNDOFF_FACTOR`):
-    the profile is resolved to double precision. The spectrum is ``numpy.fft.rfft`` of ``u``.
+    the profile is resolved to double precision; also inf for a zero profile and for one whose
+    transform overflows (other checks refuse such data). The spectrum is ``numpy.fft.rfft`` of
+    ``u``.
     """
     arr = np.asarray(u, dtype=np.float64)
     n = arr.size
-    mag = np.abs(np.fft.rfft(arr))
+    with np.errstate(all="ignore"):  # data near the float64 limit: judged by other checks
+        mag = np.abs(np.fft.rfft(arr))
+        norm = float(np.sqrt(np.sum(arr * arr)))
     peak = float(mag[1:].max()) if mag.size > 1 else 0.0
-    if not peak > 0:
+    tail = float(mag[math.ceil(dealias * n / 2) :].max()) if mag.size > 1 else 0.0
+    if not (peak > 0 and math.isfinite(peak) and math.isfinite(tail)):
         return math.inf
-    tail = float(mag[math.ceil(dealias * n / 2) :].max())
     eps = float(np.finfo(np.float64).eps)
-    floor = ROUNDOFF_FACTOR * eps * math.log2(max(n, 2)) * float(np.sqrt(np.sum(arr * arr)))
-    if tail <= floor:
+    if tail <= ROUNDOFF_FACTOR * eps * math.log2(max(n, 2)) * norm:
         return math.inf
     return math.log10(peak / tail)
 
