@@ -1593,9 +1593,10 @@ def _check_spectrum(
     ctx: _Run, warn: _Warnings, initial: init.InitialData, grid: Grid, eq: Equation, auto: bool
 ) -> None:
     """Resolution of data other than solitons, from the spectrum of ``u0`` itself
-    (:func:`sizing.spectrum_decades`): warned below ``WARN_DECADES`` at the dealiasing cutoff,
-    refused below ``REFUSE_DECADES`` for the smooth shapes (a box or a file may have edges on
-    purpose: warned only). A sharp box never resolves: one note says so."""
+    (:func:`sizing.spectrum_decades`): warned below ``WARN_DECADES`` at the dealiasing cutoff
+    (never refused: the estimate counts the spectrum's own fall, ``k / sinh`` for ``sech^2``, and so
+    reads lower than the soliton rule; sweeps that loaded before still load). A sharp box never
+    resolves: one note says so."""
     if isinstance(initial, init.Box) and initial.edge == 0:
         warn.note(
             "initial",
@@ -1604,19 +1605,12 @@ def _check_spectrum(
         )
         return
     decades = sizing.spectrum_decades(init.build_profile(initial, grid, eq), eq.dealias_fraction)
-    if decades < sizing.REFUSE_DECADES and not isinstance(initial, init.Box | init.FileData):
-        raise ctx.fail(
-            "model.points",
-            grid.n,
-            f"a grid keeping at least {sizing.REFUSE_DECADES} decades of the initial data's "
-            f"spectrum at the dealiasing cutoff (n = {grid.n} keeps {decades:.1f}; smooth data "
-            "gain decades in proportion to n)",
-        )
     if decades < sizing.WARN_DECADES and not auto:
         warn.add(
             "initial",
             f"keep fewer than {sizing.WARN_DECADES} decades of the initial data's spectrum at "
-            "the dealiasing cutoff (double precision: refine model.points)",
+            f"the dealiasing cutoff (double precision; below {sizing.REFUSE_DECADES} the "
+            "nonlinear term is cut at 1e-6 of the peak or more: refine model.points)",
             ctx.run_id,
             -decades,
             f"{decades:.1f} decades",
