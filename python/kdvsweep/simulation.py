@@ -84,8 +84,8 @@ MEASURED_IFRK4 = 5.17
 #:   fifth-order dispersion does not change it. On unresolved grids the soliton is lost first
 #:   (1.3 to 2.4).
 #: - IFRK4 blows up, or its error grows exponentially, at a step that falls like 1/n: dt * rate_nl
-#:   ranged over 0.16 to 1.6, while the product form dt * sqrt(rate_nl * rate_lin) stayed within
-#:   5.2 to 9.5 on resolved grids (4.3 to 6.3 on unresolved ones), KdV and mKdV alike. The
+#:   ranged over 0.086 to 1.6, while the product form dt * sqrt(rate_nl * rate_lin) stayed within
+#:   5.2 to 9.5 on resolved grids (4.0 to 6.2 on unresolved ones), KdV and mKdV alike. The
 #:   integrating factor turns the coupling of a mode k to the data's modes q at the frequency
 #:   ``omega'(k) q``, which the RK4 stages sample. Fifth-order dispersion enters through
 #:   :func:`linear_rate`: f = +-0.001 kept the product form within the spread (8.0, 8.7 at n = 512),
