@@ -11,6 +11,7 @@ from __future__ import annotations
 import math
 from pathlib import Path
 
+import pandas as pd
 import pytest
 
 from kdvsweep import theory
@@ -179,3 +180,33 @@ def test_auto_step_without_target_uses_the_default_target(tmp_path: Path) -> Non
     assert not spec.run.verify
     limit = sizing.dt_limit("etdrk4", 0.5 * 4.0, spec.model.equation, spec.model.grid.dx)
     assert spec.model.dt == acc.auto_dt("etdrk4", acc.DEFAULT_AUTO_TARGET, 4.0, limit)
+
+
+def test_estimates_reach_the_store(tmp_path: Path) -> None:
+    # Through the farm and the Parquet store: verified runs have estimates and accuracy_met,
+    # the others null (common practice, no source: a column filled only where measured).
+    from kdvsweep.results import load
+    from kdvsweep.sweep.farm import local_client, run_sweep
+
+    text = PAIR.replace("K2", '"k2"').replace("TARGET", "1e-4").replace("SCHEME", "etdrk4")
+    text = text.replace("verify = 1", "verify = 0.5\nseed = 7")
+    text += "\n[[vary]]\nk2 = [0.5, 0.6]\n"
+    path = tmp_path / "store.toml"
+    path.write_text(text)
+    sweep = load_sweep(path)
+    verified = {r.run_id for r in sweep.runs if r.run.verify}
+    assert len(verified) == 1
+    with local_client(1) as client:
+        run_sweep(sweep, tmp_path / "out", client)
+    res = load(tmp_path / "out")
+    runs = res.runs.set_index("run_id")
+    assert (runs["accuracy_target"] == 1e-4).all()
+    for rid in runs.index:
+        met = runs.loc[rid, "accuracy_met"]
+        rows = res.solitons[res.solitons["run_id"] == rid]
+        if rid in verified:
+            assert bool(met) is True
+            assert rows["shift_error_estimate"].notna().all()
+        else:
+            assert met is None or met is pd.NA or (isinstance(met, float) and math.isnan(met))
+            assert rows["shift_error_estimate"].isna().all()
