@@ -773,7 +773,7 @@ def test_step_options_follow_the_simulation(tmp_path: Path) -> None:
 
 def test_large_step_is_warned(tmp_path: Path) -> None:
     s = load_sweep(write(tmp_path, edit("dt = 2.5e-3", "dt = 0.05")))
-    assert any("model.dt" in w and "rule-of-thumb" in w for w in s.warnings)
+    assert any("model.dt" in w and "measured stable step" in w for w in s.warnings)
 
 
 def test_short_explicit_length_is_only_a_warning(tmp_path: Path) -> None:
