@@ -221,3 +221,31 @@ def test_check_and_run_print_the_caution_for_water_units_only(
         assert cli.main(["run", file, "--out", "unused", "--no-progress"]) == 0
         err = capsys.readouterr().err
         assert err.count("physical water-wave units: " + units.CAUTION) == expected
+
+
+def test_content_figure_in_metres_and_frame_speeds(tmp_path: Path) -> None:
+    """A sech^2 hump of 0.2 h and length scale 3 h: the emerging solitons' heights in metres and
+    their speeds in the run's frame (``phys_speed - phys_c0``, m/s)."""
+    text = (
+        '[sweep]\nname = "hump"\n\n[units]\nsystem = "shallow-water"\ndepth = 1.0\n\n'
+        '[model]\npoints = "auto"\nlength = "auto"\ndt = 0.02\n\n'
+        '[initial]\nkind = "sech2"\nheight = 0.2\nscale = 3.0\ncenter = 0\n\n'
+        '[run]\nend = 60\nframe_every = 1.0\n'
+    )
+    res = load(make_store(tmp_path, text, "hump"))
+    sol = res.solitons[res.solitons["found"].astype("boolean").fillna(False).astype(bool)]
+    assert len(sol) >= 1
+    assert "phys_speed_uncertainty" in sol  # a "speed_difference" column has a unit (m/s)
+    fig = drawn(res, "content_comparison")
+    amplitude, speed = fig.axes[0], fig.axes[1]
+    assert amplitude.get_ylabel() == "measured amplitude (m)"
+    assert speed.get_ylabel() == "measured speed in the run's frame c − c0 (m/s)"
+    # the points are the physical values: heights U amplitude, speeds (c - c0) = V X / T
+    row = run_row(res, 0)
+    heights = sol["amplitude"].to_numpy(float) * float(row["phys_height_scale"])
+    frame = sol["speed"].to_numpy(float) * row["phys_length_scale"] / row["phys_time_scale"]
+    assert sol["phys_amplitude"].to_numpy(float) == pytest.approx(heights, rel=1e-12)
+    drawn_points = np.concatenate([c.get_offsets() for c in amplitude.collections])
+    assert sorted(drawn_points[:, 1]) == pytest.approx(sorted(heights), rel=1e-12)
+    drawn_speeds = np.concatenate([c.get_offsets() for c in speed.collections])
+    assert sorted(drawn_speeds[:, 1]) == pytest.approx(sorted(frame), rel=1e-9)

@@ -303,6 +303,8 @@ class ShallowWater(System):
         "time": "s",
         "speed": "m/s",
         "wavenumber": "1/m",
+        "speed_difference": "m/s",
+        "frequency": "1/s",
     }
     WATER: ClassVar[bool] = True
     VARIABLE: ClassVar[tuple[str, str]] = ("eta", "surface elevation")
@@ -463,6 +465,8 @@ class IonAcousticPlasma(System):
         "time": "s",
         "speed": "m/s",
         "wavenumber": "1/m",
+        "speed_difference": "m/s",
+        "frequency": "1/s",
     }
     VARIABLE: ClassVar[tuple[str, str]] = ("phi", "electrostatic potential")
 

@@ -686,8 +686,8 @@ def _spacetime_of_run(results: Results, run_id: int, notes: list[str]) -> Figure
     system = store_units(results)
     axes = physunits.axes_for_run(results.manifest, results.runs, run_id)
     if system is not None and axes is not None:
-        c0 = f"{row['phys_c0']:.4g} {system.UNITS['speed']}"
-        title = f"{system.NAME} (frame moving at c0 = {c0}), run as {title}"
+        c0 = f"c0 = {row['phys_c0']:.4g} {system.UNITS['speed']} (the frame's speed)"
+        title = f"{system.NAME}: {eq.describe()}\n{c0}" + (f"; {label}" if label else "")
     units = system.UNITS if system is not None and axes is not None else None
     return spacetime(
         frames.u,
