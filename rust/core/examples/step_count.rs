@@ -2,9 +2,10 @@
 //! n = 512 on KdV `u_t + 6 u u_x + u_xxx = 0`, starting from the soliton `2 sech^2(x + 5)`
 //! (kappa = 1) on a box of length 40, step 1e-3.
 //!
-//! Run with `cargo run --release --example step_count -- <scheme> <steps>`, where `<scheme>` is one
-//! of the core's schemes (`adaptive` times the adaptive pair's trial step, `attempt`, at the fixed
-//! step with a tolerance it always meets). The setup (plans, coefficients) is the same for any
+//! Run with `cargo run --release --example step_count -- <scheme> <steps> [--baseline]`, where
+//! `<scheme>` is one of the core's schemes (`adaptive` times the adaptive pair's trial step,
+//! `attempt`, at the fixed step with a tolerance it always meets); `--baseline` runs the portable
+//! copies of the arithmetic kernels even on a CPU with AVX2 (`kdvsweep_core::simd`). The setup (plans, coefficients) is the same for any
 //! `steps`, so the difference of two runs under valgrind's callgrind, divided by the difference of
 //! their `steps`, is the cost of one step: `bash rust/core/examples/step_count.sh` does that.
 
@@ -13,7 +14,7 @@ use std::process::ExitCode;
 
 use kdvsweep_core::schemes::{stepper, IfRk43};
 use kdvsweep_core::spectral::Transforms;
-use kdvsweep_core::{exact, Equation, Grid, Result, Scheme};
+use kdvsweep_core::{exact, simd, Equation, Grid, Result, Scheme};
 use num_complex::Complex64;
 use rustfft::FftPlanner;
 
@@ -49,7 +50,11 @@ fn run(scheme: Scheme, steps: usize) -> Result<f64> {
 }
 
 fn main() -> ExitCode {
-    let args: Vec<String> = std::env::args().skip(1).collect();
+    let mut args: Vec<String> = std::env::args().skip(1).collect();
+    if let Some(i) = args.iter().position(|a| a == "--baseline") {
+        args.remove(i);
+        simd::force_baseline(true);
+    }
     let parsed = match args.as_slice() {
         [scheme, steps] => scheme
             .parse::<Scheme>()
@@ -60,7 +65,7 @@ fn main() -> ExitCode {
                     .map(|n| (sc, n))
                     .map_err(|_| format!("steps must be a whole number, got {steps:?}"))
             }),
-        _ => Err("usage: step_count <scheme> <steps>".to_string()),
+        _ => Err("usage: step_count <scheme> <steps> [--baseline]".to_string()),
     };
     let (scheme, steps) = match parsed {
         Ok(p) => p,
@@ -71,7 +76,8 @@ fn main() -> ExitCode {
     };
     match run(scheme, steps) {
         Ok(mass) => {
-            println!("{scheme}: {steps} steps, mass {mass:.12}");
+            let kernels = if simd::avx2() { "avx2" } else { "baseline" };
+            println!("{scheme}: {steps} steps, mass {mass:.12}, {kernels} kernels");
             ExitCode::SUCCESS
         }
         Err(e) => {

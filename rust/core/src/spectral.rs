@@ -146,8 +146,20 @@ impl Transforms {
     }
 
     /// As [`Transforms::forward`] from the packed field `z_j = u_{2j} + i u_{2j+1}` (`n/2`
-    /// values, left undefined), then `output_j *= -i k_j` (the derivative; `k` has `n/2 + 1`
-    /// values, zero on the modes to drop).
+    /// values, left undefined).
+    ///
+    /// # Errors
+    /// [`crate::CoreError::Fft`] on a length mismatch.
+    pub fn forward_packed(
+        &mut self,
+        packed: &mut [Complex64],
+        output: &mut [Complex64],
+    ) -> Result<()> {
+        self.forward_packed_map(packed, output, None)
+    }
+
+    /// As [`Transforms::forward_packed`], then `output_j *= -i k_j` (the derivative; `k` has
+    /// `n/2 + 1` values, zero on the modes to drop), in the same pass.
     ///
     /// # Errors
     /// [`crate::CoreError::Fft`] on a length mismatch.
@@ -157,11 +169,20 @@ impl Transforms {
         output: &mut [Complex64],
         k: &[f64],
     ) -> Result<()> {
-        self.check(2 * packed.len(), output.len())?;
         self.check(self.n, k.len())?;
+        self.forward_packed_map(packed, output, Some(k))
+    }
+
+    fn forward_packed_map(
+        &mut self,
+        packed: &mut [Complex64],
+        output: &mut [Complex64],
+        k: Option<&[f64]>,
+    ) -> Result<()> {
+        self.check(2 * packed.len(), output.len())?;
         self.fwd
             .process_outofplace_with_scratch(packed, &mut self.spare, &mut self.scratch);
-        separate(&self.spare, output, &self.tw_fwd, Some(k));
+        separate(&self.spare, output, &self.tw_fwd, k);
         Ok(())
     }
 
@@ -486,6 +507,18 @@ mod tests {
                 assert!(
                     (got - want).norm() <= 1e-13 * scale * n as f64,
                     "n = {n}, mode {j}"
+                );
+            }
+            let mut plain = vec![Complex64::new(0.0, 0.0); n / 2 + 1];
+            let mut again: Vec<Complex64> = u
+                .chunks_exact(2)
+                .map(|p| Complex64::new(p[0], p[1]))
+                .collect();
+            tr.forward_packed(&mut again, &mut plain).unwrap();
+            for (j, (got, want)) in plain.iter().zip(&expected).enumerate() {
+                assert!(
+                    (got - want).norm() <= 1e-13 * scale,
+                    "n = {n}, packed mode {j}"
                 );
             }
             tr.inverse_packed(&spec, &mut packed).unwrap();
