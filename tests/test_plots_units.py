@@ -230,7 +230,7 @@ def test_content_figure_in_metres_and_frame_speeds(tmp_path: Path) -> None:
         '[sweep]\nname = "hump"\n\n[units]\nsystem = "shallow-water"\ndepth = 1.0\n\n'
         '[model]\npoints = "auto"\nlength = "auto"\ndt = 0.02\n\n'
         '[initial]\nkind = "sech2"\nheight = 0.2\nscale = 3.0\ncenter = 0\n\n'
-        '[run]\nend = 60\nframe_every = 1.0\n'
+        "[run]\nend = 60\nframe_every = 1.0\n"
     )
     res = load(make_store(tmp_path, text, "hump"))
     sol = res.solitons[res.solitons["found"].astype("boolean").fillna(False).astype(bool)]
