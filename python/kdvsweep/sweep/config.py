@@ -1318,9 +1318,7 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
         raise ctx.fail("model.points", n, f"an even integer >= 16 ({err})") from None
     if tpl.dt_auto and scheme != ADAPTIVE and soliton:  # needs the grid: the stable step
         target = acc.DEFAULT_AUTO_TARGET if tpl.target is None else tpl.target
-        rate = acc.soliton_rate(
-            speeds, [form.width(k, s) for k, s in zip(kappas, signs, strict=True)]
-        )
+        rate = acc.soliton_rate(eq.a, eq.b, max_u, narrowest)
         dt = acc.auto_dt(scheme, target, rate, sizing.dt_limit(scheme, max_u, eq, grid.dx))
         _check_steps(ctx, scheme, dt, t_end)
     # limits on what a run would take, checked before anything is built or run
