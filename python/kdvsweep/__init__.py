@@ -30,7 +30,7 @@ if TYPE_CHECKING:  # the names the lazy loader below gives, for type checkers
     from . import analysis, exact, initial, spectrum, sweep, theory, units
     from .results import Results, load
 
-__version__ = importlib.metadata.version("kdvsweep")
+    __version__: str
 
 #: Names imported on first access: a submodule, or (module, attribute).
 _LAZY: dict[str, tuple[str, str | None]] = {
@@ -48,6 +48,10 @@ _LAZY: dict[str, tuple[str, str | None]] = {
 
 def __getattr__(name: str) -> Any:
     """Import a lazily loaded name on first access (PEP 562) and keep it."""
+    if name == "__version__":  # reading the installed metadata costs tens of milliseconds
+        version = importlib.metadata.version("kdvsweep")
+        globals()[name] = version
+        return version
     if name not in _LAZY:
         raise AttributeError(f"module 'kdvsweep' has no attribute {name!r}")
     module, attribute = _LAZY[name]

@@ -1,6 +1,7 @@
 """The ``kdvsweep`` command: every argument parser, printed line and progress bar of the package.
 
-Commands (one module each): ``run``, ``demo``, ``table``, ``status`` (:mod:`.sweeps`), ``check``
+Commands (one module each): ``run``, ``demo``, ``table``, ``status``, ``compact``
+(:mod:`.sweeps`), ``check``
 (:mod:`.check`), ``plot`` (:mod:`.plot`), ``spectrum`` (:mod:`.spectrum`) and ``bench``
 (:mod:`.bench`). They call the library, which returns data; tables go to stdout, the progress bar
 and messages to stderr. An error of the user's input is one line, ``kdvsweep: error: ...``, and

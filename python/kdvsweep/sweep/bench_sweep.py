@@ -40,13 +40,13 @@ from typing import TYPE_CHECKING, Any
 from ..exceptions import ConfigError
 from ..model import Equation, Grid
 from ..reference import ReferenceSimulation
-from .config import Sweep, load_sweep
 
 if TYPE_CHECKING:
+    from .config import Sweep
     from .farm import SweepReport
 
-# The farm (dask), the runner (the analysis, scipy) and the results (pandas) are imported where
-# they are used: the command line builds its parser from this module's constants.
+# The loader, the farm (dask), the runner (the analysis, scipy) and the results (pandas) are
+# imported where they are used: the command line builds its parser from this module's constants.
 
 KAPPA1 = 1.0
 KAPPA2 = (0.5, 0.7)
@@ -98,6 +98,8 @@ def reference_sweep(count: int, folder: Path) -> Sweep:
     """Write and load the reference sweep of ``count`` runs."""
     path = folder / f"bench-{count}.toml"
     path.write_text(reference_text(count), encoding="utf-8")
+    from .config import load_sweep
+
     return load_sweep(path)
 
 
