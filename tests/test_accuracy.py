@@ -220,3 +220,24 @@ def test_estimates_reach_the_store(tmp_path: Path) -> None:
         else:
             assert met is None or met is pd.NA or (isinstance(met, float) and math.isnan(met))
             assert rows["shift_error_estimate"].isna().all()
+
+
+def test_auto_step_needs_solitons(tmp_path: Path) -> None:
+    path = tmp_path / "profile.toml"
+    path.write_text(
+        '[model]\nequation = "kdv"\ndt = "auto"\npoints = 256\nlength = 40\n'
+        '[initial]\nkind = "sech2"\nheight = 2\nscale = 1\ncenter = 0\n'
+        "[run]\nend = 1\nframe_every = 0.1\n"
+    )
+    with pytest.raises(ConfigError, match=r"model\.dt: given 'auto', expected a number") as info:
+        load_sweep(path)
+    assert "\n" not in str(info.value)
+
+
+def test_adaptive_scheme_is_not_verified(tmp_path: Path) -> None:
+    # no fixed step to halve: the run says so, and accuracy_met stays null
+    spec = load_sweep(pair(tmp_path, target="1e-4", scheme="adaptive")).runs[0]
+    result = runner.execute(spec)
+    assert result.ok
+    assert "not verified: adaptive scheme" in result.run_row["reason"]
+    assert result.run_row.get("accuracy_met") is None
