@@ -202,3 +202,16 @@ def test_a_step_that_blows_up_still_plans(tmp_path: Path) -> None:
         load_sweep(tmp_path / "pairs.toml").runs[0].run.record_times, 0.2
     )
     assert group.seconds > 0
+
+
+def test_verified_runs_count_their_re_runs(tmp_path: Path) -> None:
+    """A run verified by [accuracy] costs VERIFY_COST runs' worth (its re-runs at dt/2 and 2n)."""
+    from kdvsweep.sweep.accuracy import VERIFY_COST
+
+    plain = planning.make_plan(_write(tmp_path, PAIRS.format(dt=0.003)))
+    text = PAIRS.format(dt=0.003) + "\n[accuracy]\nshift = 1e-5\nverify = 1.0\n"
+    checked = planning.make_plan(_write(tmp_path, text, "verified.toml"))
+    assert not any(g.verified for g in plain.groups)
+    assert all(g.verified for g in checked.groups)
+    for a, b in zip(plain.groups, checked.groups, strict=True):
+        assert b.seconds == pytest.approx(VERIFY_COST * a.seconds, rel=1e-12)

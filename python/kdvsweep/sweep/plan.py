@@ -45,6 +45,7 @@ import numpy as np
 from .. import initial
 from ..simulation import ADAPTIVE, Simulation
 from . import sizing
+from .accuracy import VERIFY_COST
 from .config import RunSpec, Sweep, load_sweep
 
 #: CPU seconds each step calibration runs for (at least 8 steps): short enough that a sweep of a
@@ -163,6 +164,9 @@ class PlanGroup:
         Distinct reference runs the group's runs need (not already counted by an earlier group).
     reference_seconds
         Their estimated core-seconds, together.
+    verified
+        The runs are re-run to estimate their errors (``[accuracy] verify``): ``seconds`` counts
+        the re-runs too (:data:`kdvsweep.sweep.accuracy.VERIFY_COST` runs' worth).
     """
 
     run_ids: tuple[int, ...]
@@ -181,6 +185,7 @@ class PlanGroup:
     seconds: float
     references: int = 0
     reference_seconds: float = 0.0
+    verified: bool = False
 
     @property
     def count(self) -> int:
@@ -256,6 +261,7 @@ def _group_key(spec: RunSpec) -> tuple[Any, ...]:
         len(run.record_times),
         _analysis(spec),
         _predicts(spec),
+        run.verify,
     )
 
 
@@ -440,6 +446,8 @@ def make_plan(source: str | Path | Sweep) -> Plan:
         else:
             steps = fixed_steps(run.record_times, model.dt)
         seconds = _run_seconds(first, steps, calibration)
+        if run.verify:
+            seconds *= VERIFY_COST
         refs = _new_references(specs, seen)
         out.append(
             PlanGroup(
@@ -458,7 +466,8 @@ def make_plan(source: str | Path | Sweep) -> Plan:
                 memory=sizing.run_memory(model.grid.n, frames, model.scheme),
                 seconds=seconds,
                 references=refs,
-                reference_seconds=refs * seconds,
+                reference_seconds=refs * seconds / (VERIFY_COST if run.verify else 1.0),
+                verified=bool(run.verify),
             )
         )
     return Plan(
