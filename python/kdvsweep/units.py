@@ -70,6 +70,17 @@ STANDARD_GRAVITY = 9.80665  # m/s^2 (standard gravity, a defined value)
 DIMENSIONS = ("height", "length", "time", "speed", "speed_difference", "wavenumber", "frequency")
 
 
+#: SI units of every dimension but the wave's own (its ``height``), shared by the systems.
+SI_UNITS: Mapping[str, str] = {
+    "length": "m",
+    "time": "s",
+    "speed": "m/s",
+    "wavenumber": "1/m",
+    "speed_difference": "m/s",
+    "frequency": "1/s",
+}
+
+
 class ParameterError(ConfigError):
     """A system parameter out of range: ``key`` (of ``[units]``), the value given, what was
     expected (the sweep loader turns it into its one-line message)."""
@@ -297,15 +308,7 @@ class ShallowWater(System):
         Parameter("depth", "m", "still-water depth h"),
         Parameter("gravity", "m/s^2", "gravitational acceleration g", STANDARD_GRAVITY),
     )
-    UNITS: ClassVar[Mapping[str, str]] = {
-        "height": "m",
-        "length": "m",
-        "time": "s",
-        "speed": "m/s",
-        "wavenumber": "1/m",
-        "speed_difference": "m/s",
-        "frequency": "1/s",
-    }
+    UNITS: ClassVar[Mapping[str, str]] = {"height": "m", **SI_UNITS}
     WATER: ClassVar[bool] = True
     VARIABLE: ClassVar[tuple[str, str]] = ("eta", "surface elevation")
 
@@ -459,15 +462,7 @@ class IonAcousticPlasma(System):
         Parameter("density", "1/m^3", "unperturbed plasma density n0"),
         Parameter("ion_mass", "u", "ion mass in atomic mass units", PROTON_MASS_U),
     )
-    UNITS: ClassVar[Mapping[str, str]] = {
-        "height": "V",
-        "length": "m",
-        "time": "s",
-        "speed": "m/s",
-        "wavenumber": "1/m",
-        "speed_difference": "m/s",
-        "frequency": "1/s",
-    }
+    UNITS: ClassVar[Mapping[str, str]] = {"height": "V", **SI_UNITS}
     VARIABLE: ClassVar[tuple[str, str]] = ("phi", "electrostatic potential")
 
     def sound_speed(self) -> float:
