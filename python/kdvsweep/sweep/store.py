@@ -59,7 +59,7 @@ import zipfile
 from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, BinaryIO
 
 import numpy as np
 import pyarrow as pa
@@ -164,6 +164,27 @@ def io_error(path: Path, exc: OSError, doing: str = "write") -> StoreError:
     return StoreError(f"{path}: cannot {doing} ({reason}); {advice}")
 
 
+@contextlib.contextmanager
+def _atomic_file(path: Path) -> Iterator[BinaryIO]:
+    """A file opened for writing under a temporary name in ``path``'s folder (a rename across file
+    systems is not atomic); when the block ends it is flushed, fsynced and renamed over ``path``.
+
+    Raises :class:`StoreError` if it cannot be written; the temporary file is then removed and
+    ``path`` is left as it was.
+    """
+    tmp = path.with_name(f"{_TMP_PREFIX}{os.getpid()}-{path.name}")
+    try:
+        with open(tmp, "wb") as fh:
+            yield fh
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    except OSError as exc:
+        with contextlib.suppress(OSError):
+            tmp.unlink(missing_ok=True)
+        raise io_error(path, exc) from None
+
+
 def write_atomic(path: Path, data: bytes, sync_dir: bool = True) -> None:
     """Write ``data`` to ``path`` so that ``path`` is either the old file, absent, or whole.
 
@@ -177,17 +198,8 @@ def write_atomic(path: Path, data: bytes, sync_dir: bool = True) -> None:
         The file could not be written (full disk, no permission...); the temporary file is
         removed and ``path`` is left as it was.
     """
-    tmp = path.with_name(f"{_TMP_PREFIX}{os.getpid()}-{path.name}")
-    try:
-        with open(tmp, "wb") as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except OSError as exc:
-        with contextlib.suppress(OSError):
-            tmp.unlink(missing_ok=True)
-        raise io_error(path, exc) from None
+    with _atomic_file(path) as fh:
+        fh.write(data)
     if sync_dir:
         _fsync_dir(path.parent)
 
@@ -749,21 +761,14 @@ def _pack_files(folder: Path) -> dict[int, Path]:
 
 def _write_pack(path: Path, members: Iterable[tuple[str, bytes]]) -> int:
     """Write a frames pack (``name.npy`` members, stored) atomically; returns the members."""
-    tmp = path.with_name(f"{_TMP_PREFIX}{os.getpid()}-{path.name}")
     count = 0
-    try:
-        with open(tmp, "wb") as fh:
-            with zipfile.ZipFile(fh, "w", zipfile.ZIP_STORED, allowZip64=True) as zf:
-                for name, data in members:
-                    zf.writestr(name, data)
-                    count += 1
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except OSError as exc:
-        with contextlib.suppress(OSError):
-            tmp.unlink(missing_ok=True)
-        raise io_error(path, exc) from None
+    with (
+        _atomic_file(path) as fh,
+        zipfile.ZipFile(fh, "w", zipfile.ZIP_STORED, allowZip64=True) as zf,
+    ):
+        for name, data in members:
+            zf.writestr(name, data)
+            count += 1
     return count
 
 
