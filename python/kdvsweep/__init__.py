@@ -9,10 +9,10 @@ not pay for pandas, scipy or dask until they are needed.
 
 from __future__ import annotations
 
-import importlib
 import importlib.metadata
 from typing import TYPE_CHECKING, Any
 
+from . import _lazy
 from .exceptions import (
     ConfigError,
     KdvsweepError,
@@ -32,8 +32,8 @@ if TYPE_CHECKING:  # the names the lazy loader below gives, for type checkers
 
     __version__: str
 
-#: Names imported on first access: a submodule, or (module, attribute).
-_LAZY: dict[str, tuple[str, str | None]] = {
+#: Each deferred name's home: (module, attribute), attribute None for a submodule itself.
+_HOMES: dict[str, tuple[str, str | None]] = {
     "analysis": (".analysis", None),
     "exact": (".exact", None),
     "initial": (".initial", None),
@@ -44,26 +44,20 @@ _LAZY: dict[str, tuple[str, str | None]] = {
     "Results": (".results", "Results"),
     "load": (".results", "load"),
 }
+_load = _lazy.loader(__name__, _HOMES)
 
 
 def __getattr__(name: str) -> Any:
-    """Import a lazily loaded name on first access (PEP 562) and keep it."""
+    """Import a deferred name on first access (PEP 562) and keep it."""
     if name == "__version__":  # reading the installed metadata costs tens of milliseconds
         version = importlib.metadata.version("kdvsweep")
         globals()[name] = version
         return version
-    if name not in _LAZY:
-        raise AttributeError(f"module 'kdvsweep' has no attribute {name!r}")
-    module, attribute = _LAZY[name]
-    value: Any = importlib.import_module(module, __name__)
-    if attribute is not None:
-        value = getattr(value, attribute)
-    globals()[name] = value
-    return value
+    return _load(name)
 
 
 def __dir__() -> list[str]:
-    return sorted(set(globals()) | set(_LAZY))
+    return _lazy.names(__name__, _HOMES)
 
 
 __all__ = [

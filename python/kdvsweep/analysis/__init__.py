@@ -11,8 +11,9 @@ The submodules and the names below are imported on first use (PEP 562), so impor
 
 from __future__ import annotations
 
-import importlib
 from typing import TYPE_CHECKING, Any
+
+from .. import _lazy
 
 if TYPE_CHECKING:  # the names the lazy loader below gives, for type checkers
     from . import content, fits, peaks, table, tracks  # noqa: F401
@@ -36,53 +37,48 @@ if TYPE_CHECKING:  # the names the lazy loader below gives, for type checkers
     )
     from .tracks import ReferenceTrack, Tracks, reference_track, track
 
-#: Name -> the submodule that defines it (submodules themselves map to None).
-_LAZY: dict[str, str | None] = {
-    "content": None,
-    "fits": None,
-    "peaks": None,
-    "table": None,
-    "tracks": None,
-    "DEFAULT_MIN_AMPLITUDE": "content",
-    "ContentMeasurement": "content",
-    "EmergingSoliton": "content",
-    "breather_profile": "content",
-    "measure_content": "content",
-    "AsymptoticFit": "fits",
-    "fit_asymptotes": "fits",
-    "Interpolant": "peaks",
-    "Peaks": "peaks",
-    "count_peaks": "peaks",
-    "find_peaks": "peaks",
-    "find_peaks_many": "peaks",
-    "ring_distance": "peaks",
-    "DEFAULT_SEPARATION": "table",
-    "RADIATION_WINDOW": "table",
-    "SHIFT_METHODS": "table",
-    "TABLE_COLUMNS": "table",
-    "RunAnalysis": "table",
-    "analyse_run": "table",
-    "collision_table": "table",
-    "ReferenceTrack": "tracks",
-    "Tracks": "tracks",
-    "reference_track": "tracks",
-    "track": "tracks",
+#: Each deferred name's home: (submodule, attribute), attribute None for a submodule itself.
+_HOMES: dict[str, tuple[str, str | None]] = {
+    "content": (".content", None),
+    "fits": (".fits", None),
+    "peaks": (".peaks", None),
+    "table": (".table", None),
+    "tracks": (".tracks", None),
+    "DEFAULT_MIN_AMPLITUDE": (".content", "DEFAULT_MIN_AMPLITUDE"),
+    "ContentMeasurement": (".content", "ContentMeasurement"),
+    "EmergingSoliton": (".content", "EmergingSoliton"),
+    "breather_profile": (".content", "breather_profile"),
+    "measure_content": (".content", "measure_content"),
+    "AsymptoticFit": (".fits", "AsymptoticFit"),
+    "fit_asymptotes": (".fits", "fit_asymptotes"),
+    "Interpolant": (".peaks", "Interpolant"),
+    "Peaks": (".peaks", "Peaks"),
+    "count_peaks": (".peaks", "count_peaks"),
+    "find_peaks": (".peaks", "find_peaks"),
+    "find_peaks_many": (".peaks", "find_peaks_many"),
+    "ring_distance": (".peaks", "ring_distance"),
+    "DEFAULT_SEPARATION": (".table", "DEFAULT_SEPARATION"),
+    "RADIATION_WINDOW": (".table", "RADIATION_WINDOW"),
+    "SHIFT_METHODS": (".table", "SHIFT_METHODS"),
+    "TABLE_COLUMNS": (".table", "TABLE_COLUMNS"),
+    "RunAnalysis": (".table", "RunAnalysis"),
+    "analyse_run": (".table", "analyse_run"),
+    "collision_table": (".table", "collision_table"),
+    "ReferenceTrack": (".tracks", "ReferenceTrack"),
+    "Tracks": (".tracks", "Tracks"),
+    "reference_track": (".tracks", "reference_track"),
+    "track": (".tracks", "track"),
 }
+_load = _lazy.loader(__name__, _HOMES)
 
 
 def __getattr__(name: str) -> Any:
-    """Import a lazily loaded name on first access (PEP 562) and keep it."""
-    if name not in _LAZY:
-        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
-    where = _LAZY[name]
-    module = importlib.import_module(f".{where or name}", __name__)
-    value = module if where is None else getattr(module, name)
-    globals()[name] = value
-    return value
+    """Import a deferred name on first access (PEP 562) and keep it."""
+    return _load(name)
 
 
 def __dir__() -> list[str]:
-    return sorted({*globals(), *_LAZY})
+    return _lazy.names(__name__, _HOMES)
 
 
 __all__ = [

@@ -8,8 +8,9 @@ loader nor the farm (dask is slow to load)."""
 
 from __future__ import annotations
 
-import importlib
 from typing import TYPE_CHECKING, Any
+
+from .. import _lazy
 
 if TYPE_CHECKING:
     from .config import RunSpec, Sweep, load_sweep
@@ -18,22 +19,23 @@ if TYPE_CHECKING:
 
 __all__ = ["Plan", "RunSpec", "Sweep", "load_sweep", "make_plan", "run", "run_sweep"]
 
-#: The module of each name.
-_HOMES = {
-    "Plan": ".plan",
-    "make_plan": ".plan",
-    "RunSpec": ".config",
-    "Sweep": ".config",
-    "load_sweep": ".config",
-    "run": ".farm",
-    "run_sweep": ".farm",
+#: Each name's home: (module, attribute).
+_HOMES: dict[str, tuple[str, str | None]] = {
+    "Plan": (".plan", "Plan"),
+    "make_plan": (".plan", "make_plan"),
+    "RunSpec": (".config", "RunSpec"),
+    "Sweep": (".config", "Sweep"),
+    "load_sweep": (".config", "load_sweep"),
+    "run": (".farm", "run"),
+    "run_sweep": (".farm", "run_sweep"),
 }
+_load = _lazy.loader(__name__, _HOMES)
 
 
 def __getattr__(name: str) -> Any:
     """Import a name on first access (PEP 562) and keep it."""
-    if name not in _HOMES:
-        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
-    value = getattr(importlib.import_module(_HOMES[name], __name__), name)
-    globals()[name] = value
-    return value
+    return _load(name)
+
+
+def __dir__() -> list[str]:
+    return _lazy.names(__name__, _HOMES)
