@@ -70,6 +70,20 @@ STANDARD_GRAVITY = 9.80665  # m/s^2 (standard gravity, a defined value)
 DIMENSIONS = ("height", "length", "time", "speed", "speed_difference", "wavenumber", "frequency")
 
 
+#: The dimension of each ``[initial]`` key that has one, in a sweep with ``[units]``: the soliton
+#: sizes and positions and the profiles' heights and lengths (in the system's units there).
+INITIAL_DIMENSIONS: Mapping[str, str] = {
+    "amplitude": "height",
+    "speed": "speed",
+    "kappa": "wavenumber",
+    "position": "length",
+    "height": "height",
+    "scale": "length",
+    "center": "length",
+    "half_width": "length",
+    "edge": "length",
+}
+
 #: SI units of every dimension but the wave's own (its ``height``), shared by the systems.
 SI_UNITS: Mapping[str, str] = {
     "length": "m",
@@ -763,6 +777,7 @@ def column_label(manifest: Mapping[str, Any], column: str) -> str:
 __all__ = [
     "CAUTION",
     "DIMENSIONS",
+    "INITIAL_DIMENSIONS",
     "SYSTEMS",
     "AxisScale",
     "Check",

@@ -436,22 +436,6 @@ def store_units(results: Results) -> type[physunits.System] | None:
     return physunits.SYSTEMS[name] if name is not None else None
 
 
-#: The sizes of ``[initial]`` lists stated in physical units with ``[units]`` (README, "Physical
-#: units"), by the dimension of their values: a swept parameter used alone as one of them has
-#: that dimension's unit.
-_INITIAL_DIMENSIONS = {
-    "amplitude": "height",
-    "speed": "speed",
-    "kappa": "wavenumber",
-    "position": "length",
-    "height": "height",
-    "scale": "length",
-    "center": "length",
-    "half_width": "length",
-    "edge": "length",
-}
-
-
 def parameter_labels(results: Results) -> dict[str, str]:
     """Axis labels with units of the swept parameters whose unit the sweep file tells: one used
     alone as a ``[units]`` key (``depth = "depth"``: metres) or as a size of ``[initial]``
@@ -477,7 +461,7 @@ def parameter_labels(results: Results) -> dict[str, str]:
         if name is not None and key in keys:
             out.setdefault(name, f"{name} ({keys[key]})")
     initial = doc.get("initial", {})
-    for key, dimension in _INITIAL_DIMENSIONS.items():
+    for key, dimension in physunits.INITIAL_DIMENSIONS.items():
         raw = initial.get(key) if isinstance(initial, dict) else None
         for value in raw if isinstance(raw, list) else [raw]:
             name = name_of(value)

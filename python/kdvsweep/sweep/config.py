@@ -1047,8 +1047,7 @@ def _solitons(
     for slot, sign in zip(spec["sizes"], signs, strict=True):
         value = ctx.num(slot, "positive")
         if units is not None:  # amplitude: height; speed: laboratory; kappa: per metre
-            dim = {"amplitude": "height", "speed": "speed", "kappa": "wavenumber"}[size]
-            value = physunits.to_canonical(value, dim, units)
+            value = physunits.to_canonical(value, physunits.INITIAL_DIMENSIONS[size], units)
             if not value > 0:  # a laboratory speed at or below the linear long-wave speed
                 raise ctx.fail(
                     slot.key,
@@ -1170,7 +1169,8 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
         else:
             x0 = [ctx.num(slot) for slot in tpl.initial["position"]]
             if scales is not None:  # metres (at t = 0 the run's frame and the lab's agree)
-                x0 = [canonical(physunits.to_canonical(p, "length", scales)) for p in x0]
+                dim = physunits.INITIAL_DIMENSIONS["position"]
+                x0 = [canonical(physunits.to_canonical(p, dim, scales)) for p in x0]
             for i in range(1, len(x0)):
                 if not x0[i] > x0[i - 1]:
                     slot = tpl.initial["position"][i]
@@ -1259,7 +1259,7 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
                     check = "positive" if key in ("scale", "half_width") else "finite"
                     values[key] = ctx.num(tpl.initial[key], check)
                     if scales is not None:  # [units]: a height, or a length in metres
-                        dim = "height" if key == "height" else "length"
+                        dim = physunits.INITIAL_DIMENSIONS[key]
                         values[key] = canonical(physunits.to_canonical(values[key], dim, scales))
             if values.get("edge", 0.0) < 0:
                 raise ctx.fail("initial.edge", values["edge"], "a number >= 0 (0 is a sharp edge)")
