@@ -193,3 +193,14 @@ def test_core_carries_the_gardner_two_soliton_through_its_collision() -> None:
         sim.advance(-2.0 * start)
         err = np.max(np.abs(sim.state - exact(-start))) / np.max(np.abs(exact(-start)))
         assert err < 1e-8, (signs, err)
+
+
+def test_gardner_pair_of_the_issue_coefficients(tmp_path: Path) -> None:
+    """``equation = { a = 6, b = 3, d = 1 }`` with ``speed = [4, 1]``: the KdV-like pair's shifts
+    agree with the pair formula in kappa (Gardner et al. 1974, via the Gardner transformation)."""
+    text = GARDNER_PAIRS.format(b=3).replace("pol = [1, -1]", "pol = [1]")
+    out = make_store(tmp_path, text.replace("dt = [2.5e-4, 1.25e-4]", "dt = [2.5e-4]"), "b3")
+    sol = kv.load(out).solitons.sort_values("soliton")
+    error = np.abs(sol["shift_measured"] - sol["shift_predicted"]).to_numpy()
+    np.testing.assert_allclose(sol["shift_predicted"], theory.phase_shifts([1.0, 0.5]), rtol=1e-12)
+    assert np.all(error < 1e-5), error
