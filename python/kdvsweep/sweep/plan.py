@@ -77,21 +77,12 @@ SPEED_SCHEME = "etdrk4"
 
 
 def fixed_steps(times: Sequence[float] | np.ndarray, dt: float, start: float = 0.0) -> int:
-    """Steps a fixed-step :class:`kdvsweep.Simulation` takes to record ``times`` from ``start``.
+    """Steps a fixed-step :class:`kdvsweep.Simulation` takes to record ``times`` from ``start``:
+    the core's own rule (``_core.fixed_step_count``; each interval crossed with the fewest equal
+    steps of at most ``dt``), so the plan counts exactly what the run will take."""
+    from .. import _core
 
-    Each interval between record times is crossed with the fewest equal steps of at most ``dt``
-    (a whole number of steps up to round-off takes exactly that many); a time within round-off of
-    the current one takes none. This is the core's rule (``Simulation::advance_to`` in
-    ``rust/core/src/simulation.rs``), which the tests compare with the steps a run takes.
-    """
-    t = np.concatenate([[float(start)], np.asarray(times, dtype=np.float64)])
-    span = np.diff(t)
-    behind = 1e-12 * np.maximum(np.maximum(np.abs(t[:-1]), np.abs(t[1:])), 1.0)
-    ahead = np.minimum(behind, 1e-6 * dt)
-    ratio = span / dt
-    whole = np.abs(ratio - np.round(ratio)) <= 1e-9 * np.maximum(ratio, 1.0)
-    count = np.maximum(np.where(whole, np.round(ratio), np.ceil(ratio)), 1.0)
-    return int(np.sum(np.where(span > ahead, count, 0.0)))
+    return int(_core.fixed_step_count(float(start), np.asarray(times, dtype=np.float64), dt))
 
 
 @dataclass(frozen=True)

@@ -350,11 +350,7 @@ impl Simulation {
     /// step (see [`MAX_TIME_SPACING`]), [`CoreError::TimeLimit`] when the time limit runs out.
     pub fn advance_to(&mut self, target: f64, hook: &mut dyn FnMut() -> bool) -> Result<()> {
         let span = target - self.time;
-        // Round-off between equal times computed differently: a target this far behind is taken
-        // as the current time, and one this far ahead as reached (a millionth of a step at most,
-        // so a large time never swallows whole steps).
-        let behind = 1e-12 * self.time.abs().max(target.abs()).max(1.0);
-        let ahead = behind.min(1e-6 * self.dt);
+        let (behind, ahead) = time_slack(self.time, target, self.dt);
         if !target.is_finite() || span < -behind {
             return Err(CoreError::invalid(
                 "time",
@@ -427,14 +423,7 @@ impl Simulation {
         span: f64,
         hook: &mut dyn FnMut() -> bool,
     ) -> Result<()> {
-        let ratio = span / self.dt;
-        // A span that is a whole number of steps up to round-off takes exactly that many.
-        let count = if (ratio - ratio.round()).abs() <= 1e-9 * ratio.max(1.0) {
-            ratio.round()
-        } else {
-            ratio.ceil()
-        }
-        .max(1.0) as u64;
+        let count = steps_across(span, self.dt);
         let h = span / count as f64;
         self.check_resolution(h, target)?;
         let start = self.time;
@@ -544,4 +533,58 @@ impl Simulation {
         }
         Ok(())
     }
+}
+
+/// Round-off between equal times computed differently, for a move from `time` to `target` with
+/// steps of `dt`: a target `behind` this far is taken as the current time, and one `ahead` this
+/// far as reached (a millionth of a step at most, so a large time never swallows whole steps).
+fn time_slack(time: f64, target: f64, dt: f64) -> (f64, f64) {
+    let behind = 1e-12 * time.abs().max(target.abs()).max(1.0);
+    (behind, behind.min(1e-6 * dt))
+}
+
+/// The fewest equal steps of at most `dt` that cross `span`; a span that is a whole number of
+/// steps up to round-off takes exactly that many.
+fn steps_across(span: f64, dt: f64) -> u64 {
+    let ratio = span / dt;
+    if (ratio - ratio.round()).abs() <= 1e-9 * ratio.max(1.0) {
+        ratio.round()
+    } else {
+        ratio.ceil()
+    }
+    .max(1.0) as u64
+}
+
+/// The steps a fixed-step [`Simulation`] with step `dt` takes from time `start` to record each of
+/// `times` in turn (the rule of [`Simulation::advance_to`]); times not after the current one take
+/// none. For planning a run without running it.
+///
+/// # Errors
+/// [`CoreError::InvalidParameter`] unless `dt` is positive and `start` and `times` are finite
+/// and non-decreasing.
+pub fn fixed_step_count(start: f64, times: &[f64], dt: f64) -> Result<u64> {
+    if !(dt.is_finite() && dt > 0.0) {
+        return Err(CoreError::invalid("dt", dt, "a finite number > 0"));
+    }
+    let mut now = start;
+    for &t in times {
+        if !(t.is_finite() && now.is_finite() && t >= now) {
+            return Err(CoreError::invalid(
+                "times",
+                t,
+                format!("finite times, non-decreasing from {now}"),
+            ));
+        }
+        now = t;
+    }
+    let mut now = start;
+    let mut total = 0;
+    for &target in times {
+        let (_, ahead) = time_slack(now, target, dt);
+        if target - now > ahead {
+            total += steps_across(target - now, dt);
+        }
+        now = now.max(target);
+    }
+    Ok(total)
 }

@@ -299,6 +299,16 @@ fn fft_floor(
         .map_err(to_py)
 }
 
+/// The steps a fixed-step ``Simulation`` with step ``dt`` takes from time ``start`` to record each
+/// of ``times`` in turn (its own rule: the fewest equal steps of at most ``dt`` across each
+/// interval, a whole number of steps up to round-off taking exactly that many). For plans.
+/// Raises ``ConfigError`` unless ``dt`` is positive and ``start`` and ``times`` finite and
+/// non-decreasing.
+#[pyfunction]
+fn fixed_step_count(start: f64, times: PyReadonlyArray1<'_, f64>, dt: f64) -> PyResult<u64> {
+    kc::simulation::fixed_step_count(start, times.as_slice()?, dt).map_err(to_py)
+}
+
 /// An upper bound of the bytes a ``Simulation`` of ``n`` points allocates, any scheme (stage
 /// buffers, cached step coefficients and FFT plans; the recorded frames come on top, 8 bytes a
 /// value). The core refuses a grid when this much memory cannot be reserved.
@@ -320,6 +330,7 @@ fn _core(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_function(wrap_pyfunction!(mkdv_multisoliton, m)?)?;
     m.add_function(wrap_pyfunction!(fft_floor, m)?)?;
     m.add_function(wrap_pyfunction!(simulation_memory, m)?)?;
+    m.add_function(wrap_pyfunction!(fixed_step_count, m)?)?;
     m.add("SCHEMES", kc::Scheme::ALL.map(|s| s.name()).to_vec())?;
     Ok(())
 }
