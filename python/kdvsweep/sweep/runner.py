@@ -286,7 +286,9 @@ class DriftError(NumericalError):
 
 #: content_status of a run of the exact fifth-order wave: it is steady, and the content analysis
 #: fits the unperturbed equation's soliton shapes, which are not this wave's.
-SECH4_NOT_MEASURED = "not measured: one steady sech^4 wave (no soliton shape of this equation to fit)"
+SECH4_NOT_MEASURED = (
+    "not measured: one steady sech^4 wave (no soliton shape of this equation to fit)"
+)
 
 
 def failure_kind(exc: BaseException, stage: str) -> str:
