@@ -1,5 +1,6 @@
 """``kdvsweep bench``: the core against bare FFTs and NumPy; ``--sweep``: the farm's throughput;
-``--steps``: each fixed-step scheme's largest stable step (the constants of the step rule)."""
+``--steps``: each fixed-step scheme's largest stable step (the constants of the step rule);
+``--scale``: the machinery (loader, farm, store, readers) on sweeps of 10^3 to 10^6 trivial runs."""
 
 from __future__ import annotations
 
@@ -14,7 +15,7 @@ from .common import say
 if TYPE_CHECKING:
     from ..bench import Budget, Row
     from ..steplimits import Limit
-    from ..sweep.bench_sweep import SweepBenchmark
+    from ..sweep.bench_sweep import ScaleBenchmark, SweepBenchmark
 
 #: Options of the core benchmark and of the farm benchmark (``--sweep``); one may not take the
 #: other's.
@@ -22,6 +23,8 @@ CORE_ONLY = ("n", "schemes", "strict")
 SWEEP_ONLY = ("runs", "numpy_runs", "growth", "keep")
 #: Options of the step-limit measurement (``--steps``; it also takes --n and --schemes).
 STEPS_ONLY = ("equations", "kappas", "fifth")
+#: Options of the machinery benchmark (``--scale``; it also takes --keep).
+SCALE_ONLY = ("scale_runs", "scale_loads")
 
 
 def _int_list(text: str) -> list[int]:
@@ -46,12 +49,20 @@ def register(sub: Any) -> None:
     """Add ``bench`` to the ``kdvsweep`` sub-parsers."""
     from ..bench import SIZES
     from ..reference import SCHEMES
-    from ..sweep.bench_sweep import GROWTH, QUICK_GROWTH, REFERENCE_RUNS
+    from ..sweep.bench_sweep import (
+        GROWTH,
+        QUICK_GROWTH,
+        QUICK_SCALE_LOADS,
+        QUICK_SCALE_RUNS,
+        REFERENCE_RUNS,
+        SCALE_LOADS,
+        SCALE_RUNS,
+    )
 
     p = sub.add_parser(
         "bench",
         help="core against bare FFTs and NumPy; --sweep: the farm's runs per hour; "
-        "--steps: each scheme's largest stable step",
+        "--steps: each scheme's largest stable step; --scale: the machinery at 10^3-10^6 runs",
         description="Benchmark of the Rust steppers against their FFT floor and plain NumPy; "
         "with --sweep, the throughput of the sweep farm on a reference sweep of KdV pair "
         "collisions.",
@@ -63,6 +74,12 @@ def register(sub: Any) -> None:
         "--steps",
         action="store_true",
         help="measure each fixed-step scheme's largest stable step instead (the step rule)",
+    )
+    p.add_argument(
+        "--scale",
+        action="store_true",
+        help="measure the machinery instead: loading, farm overhead, store files and reading "
+        "on sweeps of trivial runs",
     )
     p.add_argument(
         "--quick",
@@ -110,7 +127,9 @@ def register(sub: Any) -> None:
         help=f"sweep sizes for overhead and memory (default {','.join(map(str, GROWTH))}; "
         f"{','.join(map(str, QUICK_GROWTH))} with --quick)",
     )
-    farm.add_argument("--keep", type=Path, metavar="DIR", help="keep the stores in this folder")
+    farm.add_argument(
+        "--keep", type=Path, metavar="DIR", help="keep the stores in this folder (also --scale)"
+    )
     steps = p.add_argument_group("step limits (with --steps; --n and --schemes apply too)")
     steps.add_argument(
         "--equations",
@@ -133,23 +152,46 @@ def register(sub: Any) -> None:
         metavar="LIST",
         help="fifth-order dispersion coefficients f, comma separated (default 0)",
     )
+    scale = p.add_argument_group("machinery (with --scale; --keep applies too)")
+    scale.add_argument(
+        "--scale-runs",
+        type=_int_list,
+        default=None,
+        metavar="LIST",
+        help=f"sizes to load, run on 2 workers and read (default "
+        f"{','.join(map(str, SCALE_RUNS))}; {','.join(map(str, QUICK_SCALE_RUNS))} with "
+        "--quick; 100000 takes minutes)",
+    )
+    scale.add_argument(
+        "--scale-loads",
+        type=_int_list,
+        default=None,
+        metavar="LIST",
+        help=f"sizes to load only (default {','.join(map(str, SCALE_LOADS))}; "
+        f"{','.join(map(str, QUICK_SCALE_LOADS))} with --quick; e.g. 100000,1000000)",
+    )
     p.set_defaults(handler=_bench)
 
 
 def _bench(args: argparse.Namespace) -> int:
-    if args.sweep and args.steps:
-        say("error: --sweep and --steps are different benchmarks; give one", "bench")
+    modes = [name for name in ("sweep", "steps", "scale") if getattr(args, name)]
+    if len(modes) > 1:
+        say(f"error: --{modes[0]} and --{modes[1]} are different benchmarks; give one", "bench")
         return 2
     # each option's home, and the options each mode refuses (--steps takes --n and --schemes)
     home = dict.fromkeys(CORE_ONLY, "the stepper benchmark")
     home |= dict.fromkeys(SWEEP_ONLY, "the farm benchmark (--sweep)")
     home |= dict.fromkeys(STEPS_ONLY, "the step limits (--steps)")
+    home |= dict.fromkeys(SCALE_ONLY, "the machinery benchmark (--scale)")
+    home["keep"] = "the farm and machinery benchmarks (--sweep, --scale)"
     if args.sweep:
-        refused: tuple[str, ...] = (*CORE_ONLY, *STEPS_ONLY)
+        refused: tuple[str, ...] = (*CORE_ONLY, *STEPS_ONLY, *SCALE_ONLY)
     elif args.steps:
-        refused = (*SWEEP_ONLY, "strict")
+        refused = (*SWEEP_ONLY, *SCALE_ONLY, "strict")
+    elif args.scale:
+        refused = (*CORE_ONLY, *STEPS_ONLY, *(o for o in SWEEP_ONLY if o != "keep"))
     else:
-        refused = (*SWEEP_ONLY, *STEPS_ONLY)
+        refused = (*SWEEP_ONLY, *STEPS_ONLY, *SCALE_ONLY)
     wrong = [name for name in refused if _given(args, name)]
     if wrong:
         option = "--" + wrong[0].replace("_", "-")
@@ -157,6 +199,8 @@ def _bench(args: argparse.Namespace) -> int:
         return 2
     if args.steps:
         return _steps(args)
+    if args.scale:
+        return _scale(args)
     return _sweep(args) if args.sweep else _steppers(args)
 
 
@@ -401,4 +445,93 @@ def format_sweep(b: SweepBenchmark) -> str:
     return "\n".join(lines)
 
 
-__all__ = ["format_limits", "format_rows", "format_sweep", "register"]
+# --- the machinery at scale ----------------------------------------------------------------------
+
+
+def _scale(args: argparse.Namespace) -> int:
+    from ..exceptions import ConfigError
+    from ..sweep.bench_sweep import (
+        QUICK_SCALE_LOADS,
+        QUICK_SCALE_RUNS,
+        SCALE_LOADS,
+        SCALE_RUNS,
+        measure_scale,
+    )
+
+    runs = args.scale_runs or (QUICK_SCALE_RUNS if args.quick else SCALE_RUNS)
+    loads = args.scale_loads or (QUICK_SCALE_LOADS if args.quick else SCALE_LOADS)
+    try:
+        result = measure_scale(
+            runs,
+            loads,
+            args.keep,
+            on_stage=lambda text: say(f"measuring: {text}", "bench --scale"),
+        )
+    except (ConfigError, RuntimeError) as err:
+        say(f"error: {err}", "bench --scale")
+        return 2
+    print(format_scale(result))
+    return 0
+
+
+def _mb(size: float) -> str:
+    return f"{size / 2**20:.1f} MB"
+
+
+def format_scale(b: ScaleBenchmark) -> str:
+    """The machinery benchmark's figures as text, totals and per run."""
+    from ..sweep.bench_sweep import (
+        SCALE_DT,
+        SCALE_END,
+        SCALE_KAPPA,
+        SCALE_LENGTH,
+        SCALE_POINTS,
+        SCALE_TABLES,
+    )
+
+    lines = [
+        f"scale sweeps: one KdV soliton, kappa = {SCALE_KAPPA[0]}..{SCALE_KAPPA[1]} on one axis, "
+        f"n = {SCALE_POINTS}, L = {SCALE_LENGTH:g}, ETDRK4 dt = {SCALE_DT:g} to t = "
+        f"{SCALE_END:g}, frames at start and end (none kept); {b.cores} cores",
+        "",
+        "loading (load_sweep, a fresh process per size):",
+        f"{'runs':>9} {'load s':>9} {'us/run':>9} {'peak added':>11} {'bytes/run':>10} "
+        f"{'process peak':>13}",
+    ]
+    for ld in b.loads:
+        lines.append(
+            f"{ld.runs:9d} {ld.seconds:9.3f} {1e6 * ld.seconds_per_run:9.1f} "
+            f"{_mb(ld.memory):>11} {ld.bytes_per_run:10.0f} {_mb(ld.peak_rss):>13}"
+        )
+    if b.runs:
+        files = " ".join(f"{t:>9}" for t in SCALE_TABLES)
+        lines += [
+            "",
+            f"running (kdvsweep.sweep.run, {b.workers} workers, a fresh client per size) "
+            "and reading:",
+            f"{'runs':>9} {'failed':>7} {'wall s':>8} {'run CPU s':>10} {'ovh ms/run':>11} "
+            f"{files} {'load s':>7} {'us/run':>7} {'read s':>7} {'us/run':>7} "
+            f"{'client peak':>12}",
+        ]
+        for r in b.runs:
+            counts = " ".join(f"{r.files.get(t, 0):>9d}" for t in SCALE_TABLES)
+            lines.append(
+                f"{r.runs:9d} {r.failed:7d} {r.wall_seconds:8.1f} {r.cpu_seconds:10.2f} "
+                f"{1e3 * r.overhead_per_run:11.2f} {counts} {r.load_seconds:7.3f} "
+                f"{1e6 * r.load_per_run:7.1f} {r.read_seconds:7.3f} {1e6 * r.read_per_run:7.1f} "
+                f"{_mb(r.client_rss):>12}"
+            )
+        lines += [
+            "",
+            "ovh = (wall time of the run call - sum of the runs' cpu_time) / runs; the wall time "
+            "includes the cluster's start-up and the final compaction",
+            f"files: per table of the finished store; load = kdvsweep.load(out), read = "
+            f"pandas.read_parquet(out / 'runs'); rows read {', '.join(str(r.rows_read) for r in b.runs)}",
+        ]
+    lines.append(
+        "peak added = the loader's process peak (getrusage maxrss) minus its memory after imports"
+    )
+    return "\n".join(lines)
+
+
+__all__ = ["format_limits", "format_rows", "format_scale", "format_sweep", "register"]

@@ -374,13 +374,305 @@ def _bench(
     return out
 
 
+# --- the machinery at scale (kdvsweep bench --scale) ---------------------------------------------
+
+#: The scale sweep: one KdV soliton (kappa on one axis from SCALE_KAPPA[0] to [1]) on n = 64
+#: points, stepped to t = 0.01 with frames at the start and the end only, none kept; the physics
+#: costs milliseconds, so what is measured is the machinery (loader, farm, store, readers).
+SCALE_POINTS = 64
+SCALE_LENGTH = 30.0
+SCALE_KAPPA = (0.25, 0.3)
+SCALE_DT = 1e-3
+SCALE_END = 0.01
+#: Sizes loaded and run by default, and sizes only loaded (the loader alone is cheaper).
+SCALE_RUNS = (1_000, 10_000)
+SCALE_LOADS = (100_000,)
+QUICK_SCALE_RUNS = (1_000,)
+QUICK_SCALE_LOADS = (10_000,)
+#: Workers of the embedded cluster of the scale runs.
+SCALE_WORKERS = 2
+#: The tables of a store whose files are counted.
+SCALE_TABLES = ("runs", "solitons", "frames")
+
+
+def scale_text(count: int) -> str:
+    """The sweep file of the scale benchmark with ``count`` runs (one [[vary]] axis)."""
+    return f"""# kdvsweep bench --scale: runs of negligible physics, to measure the machinery.
+[sweep]
+name = "bench-scale-{count}"
+
+[[vary]]
+k = {{ from = {SCALE_KAPPA[0]}, to = {SCALE_KAPPA[1]}, count = {count} }}
+
+[model]
+equation = "kdv"
+points = {SCALE_POINTS}
+length = {SCALE_LENGTH}
+scheme = "etdrk4"
+dt = {SCALE_DT}
+
+[initial]
+kind = "solitons"
+kappa = ["k"]
+position = [0.0]
+
+[run]
+end = {SCALE_END}
+frame_every = {SCALE_END}
+keep_frames = false
+"""
+
+
+@dataclass(frozen=True)
+class ScaleLoad:
+    """Loading (``load_sweep``) one scale sweep in a fresh process.
+
+    ``baseline_rss`` is the process's resident memory after its imports, before loading;
+    ``peak_rss`` its largest resident memory (``getrusage`` maxrss) once the sweep is loaded.
+    """
+
+    runs: int
+    seconds: float
+    baseline_rss: int
+    peak_rss: int
+
+    @property
+    def memory(self) -> int:
+        """Bytes the loading added to the process's peak (peak minus baseline)."""
+        return max(self.peak_rss - self.baseline_rss, 0)
+
+    @property
+    def seconds_per_run(self) -> float:
+        """Load seconds per run."""
+        return self.seconds / self.runs
+
+    @property
+    def bytes_per_run(self) -> float:
+        """Bytes of peak memory per run."""
+        return self.memory / self.runs
+
+
+@dataclass(frozen=True)
+class ScaleRun:
+    """One scale sweep run into a new store on an embedded cluster, in a fresh client process.
+
+    ``wall_seconds`` is the time of ``kdvsweep.sweep.run`` (cluster start-up and the final
+    compaction included), ``cpu_seconds`` the sum of the runs' own ``cpu_time``; ``files`` the
+    files of each table of the finished store; ``load_seconds`` the time of ``kdvsweep.load`` and
+    ``read_seconds`` that of ``pandas.read_parquet(out / "runs")`` (``rows_read`` rows);
+    ``client_rss`` the client process's peak resident memory.
+    """
+
+    runs: int
+    stored: int
+    failed: int
+    wall_seconds: float
+    cpu_seconds: float
+    files: dict[str, int]
+    load_seconds: float
+    read_seconds: float
+    rows_read: int
+    client_rss: int
+
+    @property
+    def overhead_per_run(self) -> float:
+        """Seconds per run of the farm beyond the runs' own CPU: (wall - CPU sum) / runs."""
+        return (self.wall_seconds - self.cpu_seconds) / self.runs
+
+    @property
+    def cpu_per_run(self) -> float:
+        """The runs' own CPU seconds per run."""
+        return self.cpu_seconds / self.runs
+
+    @property
+    def load_per_run(self) -> float:
+        """Seconds of ``kdvsweep.load`` per run."""
+        return self.load_seconds / self.runs
+
+    @property
+    def read_per_run(self) -> float:
+        """Seconds of ``pandas.read_parquet`` per run."""
+        return self.read_seconds / self.runs
+
+    @property
+    def rss_per_run(self) -> float:
+        """Bytes of the client's peak resident memory per run."""
+        return self.client_rss / self.runs
+
+
+@dataclass
+class ScaleBenchmark:
+    """The figures of ``kdvsweep bench --scale``: loads (every size), runs (the run sizes)."""
+
+    loads: list[ScaleLoad] = field(default_factory=list)
+    runs: list[ScaleRun] = field(default_factory=list)
+    workers: int = SCALE_WORKERS
+    cores: int = field(default_factory=lambda: os.cpu_count() or 1)
+
+
+def _rss() -> int:
+    """This process's resident memory now, in bytes (Linux /proc; 0 where unknown)."""
+    try:
+        pages = int(Path("/proc/self/statm").read_text().split()[1])
+    except (OSError, ValueError, IndexError):
+        return 0
+    return pages * os.sysconf("SC_PAGE_SIZE")
+
+
+def _max_rss() -> int:
+    """This process's peak resident memory, in bytes (``getrusage``: kilobytes on Linux)."""
+    import resource
+    import sys
+
+    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+    return int(peak) if sys.platform == "darwin" else int(peak) * 1024
+
+
+def _count_files(out: Path) -> dict[str, int]:
+    """Files of each table of the store ``out`` (hidden and temporary files left out)."""
+    counts = {}
+    for table in SCALE_TABLES:
+        folder = out / table
+        files = folder.iterdir() if folder.is_dir() else iter(())
+        counts[table] = sum(1 for f in files if f.is_file() and not f.name.startswith("."))
+    return counts
+
+
+def scale_child(task: str, sweep_file: str, out: str, result: str) -> None:
+    """The measurement in a fresh process (``task`` "load" or "run"); figures as JSON to ``result``.
+
+    Called by :func:`measure_scale` through ``python -c``, so that each size has its own peak.
+    """
+    import json
+
+    from .config import load_sweep
+
+    if task == "load":
+        baseline = _rss()
+        start = time.perf_counter()
+        sweep = load_sweep(sweep_file)
+        seconds = time.perf_counter() - start
+        figures: dict[str, Any] = {
+            "runs": len(sweep.runs),
+            "seconds": seconds,
+            "baseline_rss": baseline,
+            "peak_rss": _max_rss(),
+        }
+    elif task == "run":
+        import pandas as pd
+
+        from ..results import load
+        from .farm import run
+
+        start = time.perf_counter()
+        report = run(sweep_file, out, workers=SCALE_WORKERS)
+        wall = time.perf_counter() - start
+        start = time.perf_counter()
+        tables = load(out)
+        load_seconds = time.perf_counter() - start
+        start = time.perf_counter()
+        frame = pd.read_parquet(Path(out) / "runs")
+        read_seconds = time.perf_counter() - start
+        figures = {
+            "runs": report.total,
+            "stored": report.stored,
+            "failed": report.failed,
+            "wall_seconds": wall,
+            "cpu_seconds": float(tables.runs["cpu_time"].sum()),
+            "files": _count_files(Path(out)),
+            "load_seconds": load_seconds,
+            "read_seconds": read_seconds,
+            "rows_read": len(frame),
+            "client_rss": _max_rss(),
+        }
+    else:
+        raise ValueError(f"scale task {task!r} unknown, expected 'load' or 'run'")
+    Path(result).write_text(json.dumps(figures), encoding="utf-8")
+
+
+def _in_child(task: str, sweep_file: Path, out: Path, result: Path) -> dict[str, Any]:
+    """Run :func:`scale_child` in a fresh Python process; its figures."""
+    import json
+    import subprocess
+    import sys
+
+    code = (
+        "from kdvsweep.sweep.bench_sweep import scale_child; "
+        f"scale_child({task!r}, {str(sweep_file)!r}, {str(out)!r}, {str(result)!r})"
+    )
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
+    if done.returncode != 0 or not result.exists():
+        last = (done.stderr.strip().splitlines() or ["no message"])[-1]
+        raise RuntimeError(f"bench --scale: the {task} of {sweep_file.name} failed: {last}")
+    figures: dict[str, Any] = json.loads(result.read_text(encoding="utf-8"))
+    return figures
+
+
+def measure_scale(
+    run_sizes: Sequence[int] = SCALE_RUNS,
+    load_sizes: Sequence[int] = SCALE_LOADS,
+    keep: Path | None = None,
+    on_stage: Callable[[str], None] | None = None,
+) -> ScaleBenchmark:
+    """Measure the machinery on sweeps of negligible physics (:func:`scale_text`).
+
+    Every size of ``run_sizes`` and ``load_sizes`` is loaded in a fresh process (load time, peak
+    memory); every size of ``run_sizes`` is also run into a new store on an embedded cluster of
+    :data:`SCALE_WORKERS` workers, from a fresh client process (farm overhead, files per table,
+    read times). Sizes are measured smallest first.
+
+    Parameters
+    ----------
+    run_sizes
+        Numbers of runs to load, run and read.
+    load_sizes
+        Numbers of runs to load only.
+    keep
+        Keep the sweep files and stores in this folder (default: a temporary folder, removed).
+    on_stage
+        Called with a short text before each measurement.
+    """
+    sizes = sorted({*run_sizes, *load_sizes})
+    if not sizes or min(sizes) < 1:
+        raise ConfigError(f"bench --scale: sizes must be positive run counts, got {sizes}")
+    stage = on_stage or (lambda text: None)
+    result = ScaleBenchmark()
+    with tempfile.TemporaryDirectory(prefix="kdvsweep-scale-") as tmp:
+        folder = Path(tmp) if keep is None else Path(keep)
+        folder.mkdir(parents=True, exist_ok=True)
+        for count in sizes:
+            path = folder / f"scale-{count}.toml"
+            path.write_text(scale_text(count), encoding="utf-8")
+            stage(f"loading {count} runs")
+            got = _in_child("load", path, folder, folder / f"load-{count}.json")
+            result.loads.append(ScaleLoad(**got))
+            if count in run_sizes:
+                out = folder / f"store-{count}"
+                if out.exists():
+                    shutil.rmtree(out)
+                stage(f"running {count} runs on {SCALE_WORKERS} workers")
+                got = _in_child("run", path, out, folder / f"run-{count}.json")
+                result.runs.append(ScaleRun(**got))
+    return result
+
+
 __all__ = [
     "GROWTH",
     "QUICK_GROWTH",
+    "QUICK_SCALE_LOADS",
+    "QUICK_SCALE_RUNS",
     "REFERENCE_RUNS",
+    "SCALE_LOADS",
+    "SCALE_RUNS",
     "GrowthRow",
+    "ScaleBenchmark",
+    "ScaleLoad",
+    "ScaleRun",
     "SweepBenchmark",
     "measure",
+    "measure_scale",
     "reference_sweep",
     "reference_text",
+    "scale_child",
+    "scale_text",
 ]
