@@ -52,6 +52,9 @@ def test_times_memory_and_per_run(bench: tuple[ScaleBenchmark, Path]) -> None:
         assert r.client_rss > 0
         assert r.overhead_per_run == pytest.approx((r.wall_seconds - r.cpu_seconds) / r.runs)
         assert r.cpu_per_run == pytest.approx(r.cpu_seconds / r.runs)
+        assert r.core_overhead_per_run == pytest.approx(
+            (r.wall_seconds * r.workers - r.cpu_seconds) / r.runs
+        )
         assert r.load_per_run == pytest.approx(r.load_seconds / r.runs)
         assert r.read_per_run == pytest.approx(r.read_seconds / r.runs)
     text = format_scale(b)

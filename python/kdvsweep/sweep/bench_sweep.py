@@ -473,11 +473,17 @@ class ScaleRun:
     read_seconds: float
     rows_read: int
     client_rss: int
+    workers: int = SCALE_WORKERS
 
     @property
     def overhead_per_run(self) -> float:
         """Seconds per run of the farm beyond the runs' own CPU: (wall - CPU sum) / runs."""
         return (self.wall_seconds - self.cpu_seconds) / self.runs
+
+    @property
+    def core_overhead_per_run(self) -> float:
+        """Core-seconds per run beyond the runs' own CPU: (wall x workers - CPU sum) / runs."""
+        return (self.wall_seconds * self.workers - self.cpu_seconds) / self.runs
 
     @property
     def cpu_per_run(self) -> float:
@@ -603,7 +609,7 @@ def _in_child(task: str, sweep_file: Path, out: Path, result: Path) -> dict[str,
     done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
     if done.returncode != 0 or not result.exists():
         last = (done.stderr.strip().splitlines() or ["no message"])[-1]
-        raise RuntimeError(f"bench --scale: the {task} of {sweep_file.name} failed: {last}")
+        raise RuntimeError(f"the {task} of {sweep_file.name} failed: {last}")
     figures: dict[str, Any] = json.loads(result.read_text(encoding="utf-8"))
     return figures
 
@@ -634,7 +640,7 @@ def measure_scale(
     """
     sizes = sorted({*run_sizes, *load_sizes})
     if not sizes or min(sizes) < 1:
-        raise ConfigError(f"bench --scale: sizes must be positive run counts, got {sizes}")
+        raise ConfigError(f"sizes must be positive run counts, got {sizes}")
     stage = on_stage or (lambda text: None)
     result = ScaleBenchmark()
     with tempfile.TemporaryDirectory(prefix="kdvsweep-scale-") as tmp:
