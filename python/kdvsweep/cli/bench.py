@@ -509,7 +509,7 @@ def format_scale(b: ScaleBenchmark) -> str:
             "",
             f"running (kdvsweep.sweep.run, {b.workers} workers, a fresh client per size) "
             "and reading:",
-            f"{'runs':>9} {'failed':>7} {'wall s':>8} {'run CPU s':>10} {'ovh ms/run':>11} "
+            f"{'runs':>9} {'failed':>7} {'wall s':>8} {'run CPU s':>10} {'wall-CPU ms/run':>15} "
             f"{'core ms/run':>12} "
             f"{files} {'load s':>7} {'us/run':>7} {'read s':>7} {'us/run':>7} "
             f"{'client peak':>12}",
@@ -518,16 +518,17 @@ def format_scale(b: ScaleBenchmark) -> str:
             counts = " ".join(f"{r.files.get(t, 0):>9d}" for t in SCALE_TABLES)
             lines.append(
                 f"{r.runs:9d} {r.failed:7d} {r.wall_seconds:8.1f} {r.cpu_seconds:10.2f} "
-                f"{1e3 * r.overhead_per_run:11.2f} {1e3 * r.core_overhead_per_run:12.2f} {counts} "
+                f"{1e3 * r.overhead_per_run:15.2f} {1e3 * r.core_overhead_per_run:12.2f} {counts} "
                 f"{r.load_seconds:7.3f} "
                 f"{1e6 * r.load_per_run:7.1f} {r.read_seconds:7.3f} {1e6 * r.read_per_run:7.1f} "
                 f"{_mb(r.client_rss):>12}"
             )
         lines += [
             "",
-            "ovh = (wall time of the run call - sum of the runs' cpu_time) / runs; the wall time "
+            "wall-CPU = (wall time of the run call - sum of the runs' cpu_time) / runs; the wall time "
             "includes the cluster's start-up and the final compaction; core = (wall x workers - "
-            "sum of cpu_time) / runs, the core-seconds the farm adds to a run",
+            "sum of cpu_time) / runs, the core-seconds the farm adds to a run (wall-CPU is "
+            "negative when the workers overlap)",
             f"files: per table of the finished store; load = kdvsweep.load(out), read = "
             f"pandas.read_parquet(out / 'runs'); rows read {', '.join(str(r.rows_read) for r in b.runs)}",
         ]
