@@ -40,7 +40,10 @@ same speed (the only decaying travelling waves of KdV), centred at a fixed offse
 from it; a Gardner 2-soliton, exactly two solitary waves as ``t -> +-inf``, maps to the KdV
 2-soliton of the same kappas. The offsets cancel in ``x^+ - x^-``, so each Gardner soliton shifts as
 the KdV soliton of its kappa, whatever the polarities. For ``mu < 0`` the map has imaginary ``e``;
-the shifts, analytic in ``mu``, continue unchanged (checked against simulations in the tests). A
+the shifts, analytic in ``mu``, continue unchanged: the exact N-soliton
+(:func:`kdvsweep.exact.gardner_multisoliton`), whose pair factors are KdV's, solves the equation for
+either sign of ``mu`` (its residual is checked in the tests), and simulated pairs (``mu > 0``, both
+polarities) match the formula to 1e-6. A
 Gardner equation has no simple sum rule: ``d/dt int x u dx = int (a u^2 / 2 + b u^3 / 3)`` is not
 conserved when ``a b != 0``.
 
