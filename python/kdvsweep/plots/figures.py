@@ -104,6 +104,34 @@ def _unit(label: str, unit: str | None) -> str:
     return f"{label} ({unit})" if unit else label
 
 
+#: The dash pattern of a fitted asymptote (its lines and its legend entry).
+_ASYMPTOTE_DASH = (0, (4, 3))
+
+
+def _plot_asymptote(
+    ax: Axes,
+    t: np.ndarray,
+    x: np.ndarray,
+    length: float,
+    view: _View,
+    color: Any,
+    lw: float,
+    signed: bool,
+) -> None:
+    """A fitted asymptote ``x(t)`` (canonical units), wrapped into the box and drawn dashed at the
+    figure's scales ``view``."""
+    at, lx = _wrapped_line(t, x, length)
+    ax.plot(
+        lx * view.x,
+        at * view.t,
+        color=color,
+        lw=lw,
+        ls=_ASYMPTOTE_DASH,
+        gid=ASYMPTOTE_GID,
+        path_effects=_EDGE[signed],
+    )
+
+
 def _wrapped_line(
     t: np.ndarray, x: np.ndarray, length: float, index: np.ndarray | None = None
 ) -> tuple[np.ndarray, np.ndarray]:
@@ -416,16 +444,8 @@ def _draw_tracks(
                 (fit.offset_after, t[0], t_a),
             ):
                 line_t = np.linspace(t_from, t_to, 400)
-                at, lx = _wrapped_line(line_t, fit.speed * line_t + offset - x_ref, length)
-                ax.plot(
-                    lx * view.x,
-                    at * view.t,
-                    color=color,
-                    lw=1.3,
-                    ls=(0, (4, 3)),
-                    gid=ASYMPTOTE_GID,
-                    path_effects=_EDGE[signed],
-                )
+                x_line = fit.speed * line_t + offset - x_ref
+                _plot_asymptote(ax, line_t, x_line, length, view, color, 1.3, signed)
     # Mid-collision the solitons are not identified; show every extremum found there instead.
     gap = _collision_frames(tracks)
     if gap:
@@ -448,7 +468,7 @@ def _draw_tracks(
             handles += dots
     if analysis.fits and legend:
         handles += ax.plot(
-            [], [], color="0.2", lw=1.3, ls=(0, (4, 3)), label="fitted asymptote, extrapolated"
+            [], [], color="0.2", lw=1.3, ls=_ASYMPTOTE_DASH, label="fitted asymptote, extrapolated"
         )
     if handles and legend:
         ax.figure.legend(
@@ -503,19 +523,11 @@ def _draw_emerging(
             late = slice(tt.size // 2, None)
             offset = float(np.mean(xx[late] - e.speed * tt[late]))
             line_t = np.linspace(t[0], t[-1], 600)
-            at, ax_x = _wrapped_line(line_t, e.speed * line_t + offset, length)
-            ax.plot(
-                ax_x * view.x,
-                at * view.t,
-                color=color,
-                lw=1.1,
-                ls=(0, (4, 3)),
-                gid=ASYMPTOTE_GID,
-                path_effects=_EDGE[signed],
-            )
+            x_line = e.speed * line_t + offset
+            _plot_asymptote(ax, line_t, x_line, length, view, color, 1.1, signed)
     if handles:
         handles += ax.plot(
-            [], [], color="0.2", lw=1.2, ls=(0, (4, 3)), label="fitted asymptote, extrapolated"
+            [], [], color="0.2", lw=1.2, ls=_ASYMPTOTE_DASH, label="fitted asymptote, extrapolated"
         )
         ax.figure.legend(
             handles=handles,
