@@ -177,7 +177,7 @@ def test_worker_killed_mid_sweep(
 
 def test_chunks_follow_cost(sweep: Sweep) -> None:
     runs = list(sweep.runs)
-    chunker = _Chunker(runs, seconds=1.0)
+    chunker = _Chunker(sweep.runs, iter(range(len(runs))), len(runs), seconds=1.0)
     unit = cost(runs[0])
     chunker._units, chunker._wall = unit, 0.25  # measured: a run of run 0's cost takes 0.25 s
     first = chunker.next(threads=1)

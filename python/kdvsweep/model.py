@@ -5,6 +5,7 @@ The model is ``u_t + (a u + b u^2) u_x + d u_xxx + f u_xxxxx = -g u + v u_xx`` o
 
 from __future__ import annotations
 
+import functools
 import math
 import sys
 from collections.abc import Mapping
@@ -233,7 +234,7 @@ class Equation:
             )
         return form
 
-    @property
+    @functools.cached_property
     def dealias_fraction(self) -> float:
         """The fraction of the Nyquist band kept in the nonlinear term (the core's own rule)."""
         from . import _core

@@ -13,15 +13,17 @@ be computed does.
 
 from __future__ import annotations
 
+import functools
 import hashlib
 import json
 import math
 import re
 import tomllib
 import warnings
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import Any, overload
 
 import numpy as np
 
@@ -36,7 +38,7 @@ from . import accuracy as acc
 from . import sizing
 from .expr import Expression, ExpressionError
 from .schema import Source, Table, describe, is_finite, is_number, join, suggestion
-from .space import Axis, Value, canonical, check_name, check_text, expand, read_space
+from .space import Axis, Space, Value, canonical, check_name, check_text, read_space
 
 FORMAT = 1
 MAX_FRAMES = 100_000
@@ -257,7 +259,7 @@ class Sweep:
     digest: str
     name: str
     parameters: tuple[str, ...]
-    runs: tuple[RunSpec, ...]
+    runs: Runs
     frames: dict[str, Any]
     warnings: tuple[str, ...]
     layout: Layout
@@ -792,10 +794,14 @@ class _Run:
         self.run_id = run_id
         self.params = params
         self.env: dict[str, Any] = dict(params)
-        shown = ", ".join(f"{k}={v!r}" for k, v in params.items())
+
+    @property
+    def label(self) -> str:
+        """``run 7 (k=0.5, ...)``: how messages name this run (built only for a message)."""
+        shown = ", ".join(f"{k}={v!r}" for k, v in self.params.items())
         if len(shown) > 60:
             shown = shown[:57] + "..."
-        self.label = f"run {run_id}" + (f" ({shown})" if shown else "")
+        return f"run {self.run_id}" + (f" ({shown})" if shown else "")
 
     def fail(self, key: str, given: object, expected: str) -> ConfigError:
         return self.src.error(key, f"{describe(given)} in {self.label}", expected)
@@ -804,7 +810,6 @@ class _Run:
         """The value in this run, checked as ``finite``, ``positive``, ``sign`` or ``integer``."""
         if slot.literal is not None:
             value = slot.literal
-            shown = describe(slot.given)
         else:
             assert slot.expr is not None
             try:
@@ -813,14 +818,18 @@ class _Run:
                 raise self.fail(
                     slot.key, slot.given, f"an expression that evaluates: {err}"
                 ) from None
-            shown = f"{describe(slot.given)} (= {value!r})"
-        expected = {
+        if check == "finite":
+            return value
+        expected, ok = {
             "positive": ("a positive number", value > 0),
             "sign": ("+1 or -1", value in (1.0, -1.0)),
             "integer": ("an integer", value.is_integer()),
-        }.get(check, ("", True))
-        if not expected[1]:
-            raise self.src.error(slot.key, f"{shown} in {self.label}", expected[0])
+        }[check]
+        if not ok:
+            shown = describe(slot.given)
+            if slot.literal is None:
+                shown = f"{shown} (= {value!r})"
+            raise self.src.error(slot.key, f"{shown} in {self.label}", expected)
         return value
 
     def text(self, slot: _Text, choices: tuple[str, ...]) -> str:
@@ -841,15 +850,15 @@ class _Warnings:
     def __init__(self, label: str, total: int) -> None:
         self.label = label
         self.total = total
-        self.items: dict[str, tuple[str, list[int], float, str]] = {}
+        #: key -> (what, runs counted, worst badness, its detail): a count, not a list of runs
+        self.items: dict[str, tuple[str, int, float, str]] = {}
         self.once: list[str] = []
 
     def add(self, key: str, what: str, run_id: int, badness: float, detail: str) -> None:
-        _, runs, worst, worst_detail = self.items.get(key, (what, [], -math.inf, ""))
-        runs.append(run_id)
+        _, count, worst, worst_detail = self.items.get(key, (what, 0, -math.inf, ""))
         if badness > worst:
             worst, worst_detail = badness, f"run {run_id}: {detail}"
-        self.items[key] = (what, runs, worst, worst_detail)
+        self.items[key] = (what, count + 1, worst, worst_detail)
 
     def note(self, key: str, text: str) -> None:
         message = f"{self.label}: {key}: {text}"
@@ -858,10 +867,8 @@ class _Warnings:
 
     def messages(self) -> tuple[str, ...]:
         out = list(self.once)
-        for key, (what, runs, _, detail) in self.items.items():
-            out.append(
-                f"{self.label}: {key}: {len(runs)} of {self.total} runs {what} (worst {detail})"
-            )
+        for key, (what, count, _, detail) in self.items.items():
+            out.append(f"{self.label}: {key}: {count} of {self.total} runs {what} (worst {detail})")
         return tuple(out)
 
 
@@ -878,7 +885,7 @@ def _equation(tpl: _Template, ctx: _Run, system: physunits.System | None = None)
         preset = ctx.text(slot, PRESETS) if isinstance(slot, _Text) else None
         coefs = {k: ctx.num(v) for k, v in spec.items() if isinstance(v, _Num)}
     try:
-        return Equation.preset(preset, **coefs) if preset else Equation(**coefs)  # type: ignore[arg-type]
+        return _make_equation(preset, tuple(coefs.items()))
     except ConfigError as err:
         shown = ", ".join(
             f"{k} = {min(f'{v:g}', repr(v), key=len)}" for k, v in coefs.items()
@@ -886,6 +893,25 @@ def _equation(tpl: _Template, ctx: _Run, system: physunits.System | None = None)
         raise ctx.src.error(
             "model.equation", f"{shown} in {ctx.label}", f"a valid equation ({err})"
         ) from None
+
+
+@functools.lru_cache(maxsize=256, typed=True)
+def _make_equation(preset: str | None, coefs: tuple[tuple[str, float], ...]) -> Equation:
+    """The equation of a preset and coefficients: one object for all the runs that share them
+    (an equation is immutable), so that what it computes once (its dealiasing) is kept."""
+    values = dict(coefs)
+    return Equation.preset(preset, **values) if preset else Equation(**values)  # type: ignore[arg-type]
+
+
+# One object for the runs that share a model or settings: the digest encodes each once.
+_make_model = functools.lru_cache(maxsize=256, typed=True)(ModelSpec)
+_make_settings = functools.lru_cache(maxsize=256, typed=True)(RunSettings)
+
+
+@functools.lru_cache(maxsize=256, typed=True)
+def _make_grid(n: int, length: float) -> Grid:
+    """The grid of ``n`` points on ``length``, one object for the runs that share it."""
+    return Grid(n, length)
 
 
 def _count(value: float) -> str:
@@ -956,15 +982,21 @@ def _check_effort(
         )
 
 
+@functools.lru_cache(maxsize=256, typed=True)
+def _symbol_finite(eq: Equation, dx: float, dt: float) -> bool:
+    """Whether the linear symbol times ``dt`` is finite at the largest wavenumbers ``pi / dx``
+    (on a 16-point grid of the same spacing)."""
+    with np.errstate(all="ignore"):
+        top = reference.linear_symbol(Grid(16, 16 * dx), eq) * dt
+    return bool(np.all(np.isfinite(top)))
+
+
 def _check_scales(
     ctx: _Run, tpl: _Template, eq: Equation, grid: Grid, dt: float, max_u: float, dealias: float
 ) -> None:
     """Refuse a run whose terms overflow float64 from the start: the linear symbol at the largest
     wavenumber times ``dt``, or the nonlinear term at ``max |u|``."""
-    # the symbol at the largest wavenumbers pi / dx, on a 16-point grid of the same spacing
-    with np.errstate(all="ignore"):
-        top = reference.linear_symbol(Grid(16, 16 * grid.dx), eq) * dt
-    if not np.all(np.isfinite(top)):
+    if not _symbol_finite(eq, grid.dx, dt):
         raise ctx.src.error(
             "model.equation",
             f"d = {eq.d:.3g}, f = {eq.f:.3g}, v = {eq.v:.3g} in {ctx.label}",
@@ -1005,15 +1037,17 @@ def _check_units(
             )
 
 
-def _record_times(end: float, every: float) -> list[float]:
-    """``0, every, 2 every, ...`` up to ``end``, ending exactly at ``end``."""
+@functools.lru_cache(maxsize=256, typed=True)
+def _record_times(end: float, every: float) -> tuple[float, ...]:
+    """``0, every, 2 every, ...`` up to ``end``, ending exactly at ``end`` (one tuple for the
+    runs that share it)."""
     count = math.floor(end / every + 1e-9)
     times = [canonical(i * every) for i in range(count + 1)]
     if end - times[-1] > 1e-9 * every:
         times.append(end)
     else:
         times[-1] = end
-    return times
+    return tuple(times)
 
 
 def _solitons(
@@ -1313,7 +1347,7 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
     else:
         n = _given_points(ctx, tpl, scheme)
     try:
-        grid = Grid(n, length)
+        grid = _make_grid(n, length)
     except ConfigError as err:
         raise ctx.fail("model.points", n, f"an even integer >= 16 ({err})") from None
     if tpl.dt_auto and scheme != ADAPTIVE and soliton:  # needs the grid: the stable step
@@ -1353,10 +1387,10 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
         width = narrowest if soliton else min(narrowest, _profile_width(initial))
         _check_units(ctx, warn, system, scales, max_u, width)
     times = _record_times(t_end, tpl.frame_every)
-    model = ModelSpec(eq, grid, scheme, dt, tol)
-    run = RunSettings(
+    model = _make_model(eq, grid, scheme, dt, tol)
+    run = _make_settings(
         t_end=t_end,
-        record_times=tuple(times),
+        record_times=times,
         store_frames=tpl.keep_frames,
         frame_stride=tpl.keep_stride,
         predict_content=tpl.predict_content,
@@ -1618,16 +1652,93 @@ def _check_spectrum(
 # ----------------------------------------------------------------------------- entry point
 
 
-def _digest(frames: dict[str, Any], runs: list[RunSpec]) -> str:
-    def keyed(spec: RunSpec) -> dict[str, Any]:
-        data = spec.plain()
-        if data["initial"]["kind"] == "npy":  # content, not location
-            data["initial"] = {k: v for k, v in data["initial"].items() if k != "path"}
-        return data
+def _plain_json(data: Any) -> str:
+    """The canonical JSON the digest hashes: sorted keys, no spaces, shortest float repr."""
+    return json.dumps(data, sort_keys=True, separators=(",", ":"), allow_nan=False)
 
-    doc = {"format": FORMAT, "frames": frames, "runs": [keyed(r) for r in runs]}
-    text = json.dumps(doc, sort_keys=True, separators=(",", ":"), allow_nan=False)
-    return hashlib.sha256(text.encode()).hexdigest()
+
+def _keyed(spec: RunSpec) -> dict[str, Any]:
+    """A run as the digest sees it: an ``.npy`` file by its content, not its location."""
+    data = spec.plain()
+    if data["initial"]["kind"] == "npy":
+        data["initial"] = {k: v for k, v in data["initial"].items() if k != "path"}
+    return data
+
+
+class Runs(Sequence[RunSpec]):
+    """The runs of a sweep, each expanded from the checked template when it is asked for.
+
+    Nothing per run is kept: ``runs[i]`` and iteration evaluate the template again for that
+    parameter set (expressions, sizing, checks; about 0.1 ms a run), so a sweep of 10^6 runs
+    costs the memory of its axes, and the farm draws its runs one chunk at a time. Every run was
+    evaluated once by :func:`load_sweep`, so expanding one again cannot fail.
+    """
+
+    def __init__(self, src: Source, tpl: _Template, space: Space) -> None:
+        self._src = src
+        self._tpl = tpl
+        self._space = space
+
+    def __len__(self) -> int:
+        return len(self._space)
+
+    def _expand(self, run_id: int, params: dict[str, Value], warn: _Warnings | None) -> RunSpec:
+        sink = warn if warn is not None else _Warnings("", len(self._space))
+        return _expand_run(self._tpl, _Run(self._src, run_id, params), sink)
+
+    @overload
+    def __getitem__(self, index: int) -> RunSpec: ...
+
+    @overload
+    def __getitem__(self, index: slice) -> list[RunSpec]: ...
+
+    def __getitem__(self, index: int | slice) -> RunSpec | list[RunSpec]:
+        if isinstance(index, slice):
+            return [self[i] for i in range(*index.indices(len(self)))]
+        run_id = index + len(self) if index < 0 else index
+        return self._expand(run_id, self._space[index], None)
+
+    def __iter__(self) -> Iterator[RunSpec]:
+        for run_id, params in enumerate(self._space):
+            yield self._expand(run_id, params, None)
+
+    def _json(self, spec: RunSpec, parts: dict[int, tuple[object, str]]) -> str:
+        """``_plain_json(_keyed(spec))``, written from parts: a model or settings object shared
+        by runs (:func:`_make_model`) is encoded once and kept in ``parts`` by identity."""
+
+        def part(obj: ModelSpec | RunSettings) -> str:
+            held = parts.get(id(obj))
+            if held is None or held[0] is not obj:
+                if len(parts) > 1024:
+                    parts.clear()
+                held = parts[id(obj)] = (obj, _plain_json(obj.plain()))
+            return held[1]
+
+        initial = spec.initial.plain()
+        if initial["kind"] == "npy":  # content, not location
+            initial = {k: v for k, v in initial.items() if k != "path"}
+        units = "" if spec.units is None else ',"units":' + _plain_json(spec.units.plain())
+        # the keys of RunSpec.plain in sorted order, as json.dumps(sort_keys=True) writes them
+        return (
+            f'{{"initial":{_plain_json(initial)},"model":{part(spec.model)},'
+            f'"params":{_plain_json(dict(spec.params))},"run":{part(spec.run)},'
+            f'"run_id":{_plain_json(spec.run_id)}{units}}}'
+        )
+
+    def digest(self, frames: dict[str, Any], warn: _Warnings) -> str:
+        """Expand and check every run once, hashing each as it goes (the sha256 of the canonical
+        JSON ``{"format", "frames", "runs": [...]}``, streamed: no list of runs is built), and
+        gather the warnings; raise :class:`ConfigError` on the first run with a mistake."""
+        head = _plain_json({"format": FORMAT, "frames": frames, "runs": []})
+        assert head.endswith("[]}")  # "runs" sorts last: each run is hashed in its place
+        sha = hashlib.sha256(head[:-2].encode())
+        parts: dict[int, tuple[object, str]] = {}
+        for run_id, params in enumerate(self._space):
+            if run_id:
+                sha.update(b",")
+            sha.update(self._json(self._expand(run_id, params, warn), parts).encode())
+        sha.update(b"]}")
+        return sha.hexdigest()
 
 
 def load_sweep(path: str | Path) -> Sweep:
@@ -1664,9 +1775,9 @@ def load_sweep(path: str | Path) -> Sweep:
             "(syntax)", "arrays or tables nested too deeply to read", "a TOML document"
         ) from None
     tpl = _read_template(src, doc, file.resolve().parent, file.stem)
-    combos = expand(tpl.axes)
-    tpl.verified = acc.verified_runs(range(len(combos)), tpl.verify, tpl.seed)
-    warn = _Warnings(label, len(combos))
+    space = Space(tpl.axes)
+    tpl.verified = acc.verified_runs(range(len(space)), tpl.verify, tpl.seed)
+    warn = _Warnings(label, len(space))
     if (
         tpl.sizing_given
         and tpl.length is not None
@@ -1675,20 +1786,21 @@ def load_sweep(path: str | Path) -> Sweep:
         and tpl.initial.get("position") != "auto"
     ):
         warn.note("sizing", "unused: no 'auto' length, end or position")
-    runs = [_expand_run(tpl, _Run(src, i, params), warn) for i, params in enumerate(combos)]
     frames = {
         "store": tpl.keep_frames,
         "stride": tpl.keep_stride,
         "analysis_every": tpl.frame_every,
         "every": canonical(tpl.frame_every * tpl.keep_stride),
     }
+    runs = Runs(src, tpl, space)
+    digest = runs.digest(frames, warn)  # every run checked here, before anything can start
     return Sweep(
         path=file.resolve(),
         text=text,
-        digest=_digest(frames, runs),
+        digest=digest,
         name=tpl.name,
         parameters=tpl.parameters,
-        runs=tuple(runs),
+        runs=runs,
         frames=frames,
         warnings=warn.messages(),
         layout=Layout(
@@ -1700,4 +1812,12 @@ def load_sweep(path: str | Path) -> Sweep:
     )
 
 
-__all__ = ["DEFAULT_DRIFT_LIMIT", "ModelSpec", "RunSettings", "RunSpec", "Sweep", "load_sweep"]
+__all__ = [
+    "DEFAULT_DRIFT_LIMIT",
+    "ModelSpec",
+    "RunSettings",
+    "RunSpec",
+    "Runs",
+    "Sweep",
+    "load_sweep",
+]

@@ -55,7 +55,7 @@ import ctypes.util
 import logging
 import os
 import time
-from collections import deque
+from collections import OrderedDict
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -90,6 +90,10 @@ IN_FLIGHT_PER_THREAD = 2
 
 #: Most runs in one chunk, whatever the estimate (bounds the size of one result message).
 MAX_CHUNK_RUNS = 500
+
+#: Reference tracks the client keeps at hand (a few kB each); an older one is read back from the
+#: store when a later run needs it.
+KEPT_REFERENCES = 256
 
 #: Task retries after an exception (a lost worker is rescheduled by the scheduler itself).
 RETRIES = 2
@@ -169,22 +173,43 @@ class SweepReport:
 
 
 class _Chunker:
-    """Cuts the pending runs into chunks of about ``seconds`` of work each."""
+    """Cuts the pending runs into chunks of about ``seconds`` of work each, drawing the runs from
+    the sweep one at a time (a run is expanded when its chunk is cut, and forgotten once its
+    results are stored: the client holds only the runs in flight, whatever the sweep's size).
 
-    def __init__(self, specs: Sequence[Any], seconds: float) -> None:
-        self.queue = deque(specs)
+    ``pending`` are the ids to run, in order, and ``runs`` the sweep's runs by id. The work left is
+    the number of runs not drawn times the mean cost of those drawn so far (no pass over the runs
+    ahead of time)."""
+
+    def __init__(self, runs: Sequence[Any], pending: Iterator[int], count: int, seconds: float):
+        self._runs = runs
+        self._ids = pending
+        self._left = count  # runs not drawn yet
+        self._next: Any = None
+        self._drawn_units = 0.0
+        self._drawn = 0
         self.seconds = seconds
-        self.remaining = sum(cost(s) for s in specs)
         self._units = 0.0
         self._wall = 0.0
+        self._peek()
+
+    def _peek(self) -> None:
+        run_id = next(self._ids, None)
+        self._next = None if run_id is None else self._runs[run_id]
 
     def __bool__(self) -> bool:
-        return bool(self.queue)
+        return self._next is not None
 
     @property
     def rate(self) -> float:
         """Seconds per cost unit, measured once a run has completed."""
         return self._wall / self._units if self._units > 0 else PRIOR_SECONDS_PER_UNIT
+
+    @property
+    def remaining(self) -> float:
+        """Cost units of the runs not drawn yet (estimated from those drawn)."""
+        mean = self._drawn_units / self._drawn if self._drawn else cost(self._next)
+        return self._left * mean
 
     def observe(self, specs: Sequence[Any], results: Sequence[RunResult]) -> None:
         by_id = {int(s.run_id): s for s in specs}
@@ -201,14 +226,16 @@ class _Chunker:
             target /= 3  # before any measurement, keep the first tasks short
         chunk: list[Any] = []
         spent = 0.0
-        while self.queue and len(chunk) < MAX_CHUNK_RUNS:
-            spec = self.queue[0]
-            c = cost(spec)
+        while self._next is not None and len(chunk) < MAX_CHUNK_RUNS:
+            c = cost(self._next)
             if chunk and spent + c * self.rate > target:
                 break
-            chunk.append(self.queue.popleft())
+            chunk.append(self._next)
             spent += c * self.rate
-            self.remaining -= c
+            self._drawn_units += c
+            self._drawn += 1
+            self._left -= 1
+            self._peek()
         return chunk
 
 
@@ -357,15 +384,18 @@ def run_sweep(
     with _interrupt_guard(), Store.open(out, sweep) as store:
         if retry_failed:
             store.forget_failed()
-        todo = store.pending(sweep.runs)
-        report = SweepReport(Path(out), len(sweep.runs), skipped=len(sweep.runs) - len(todo))
+        total, done = len(sweep.runs), store.done
+        skipped = sum(1 for run_id in done if 0 <= run_id < total)
+        report = SweepReport(Path(out), total, skipped=skipped)
         if on_progress is not None:
             on_progress(report.skipped, len(store.failed), report.total)
-        if todo:
+        if skipped < total:
+            todo = (i for i in range(total) if i not in done)
+            chunker = _Chunker(sweep.runs, todo, total - skipped, chunk_seconds)
             with contextlib.ExitStack() as stack:
                 if client is None:
                     client = stack.enter_context(local_client(workers))
-                _drive(client, store, todo, report, on_progress, chunk_seconds, retries)
+                _drive(client, store, chunker, report, on_progress, retries)
             report.elapsed = time.perf_counter() - start
         # The end of a sweep (not of an interrupted one): many small parts become a few.
         if store.needs_compaction():
@@ -376,10 +406,9 @@ def run_sweep(
 def _drive(
     client: Any,
     store: Store,
-    todo: list[Any],
+    chunker: _Chunker,
     report: SweepReport,
     on_progress: ProgressCallback | None,
-    chunk_seconds: float,
     retries: int,
 ) -> None:
     """Keep a few chunks per worker in flight, store each batch of results as it arrives.
@@ -388,13 +417,14 @@ def _drive(
     is taken from this call's results, or read from the store, or else submitted as a task of its
     own (once per digest); the chunk's task then depends on that task's future, so dask runs the
     reference first and hands its result to every chunk that needs it. Each reference computed is
-    stored as it arrives, before the runs that need it are.
+    stored as it arrives, before the runs that need it are; the client keeps the most recent
+    :data:`KEPT_REFERENCES` tracks and reads an older one back from the store when a later run
+    needs it.
     """
     distributed = _distributed()
     KilledWorker = distributed.KilledWorker
     as_completed = distributed.as_completed
 
-    chunker = _Chunker(todo, chunk_seconds)
     ongoing = as_completed()
     inflight: dict[str, tuple[Any, list[Any]]] = {}  # task key -> (future, its runs)
     threads = max(_threads(client), 1)
@@ -402,23 +432,22 @@ def _drive(
     checked = time.monotonic()
     failed_before = len(store.failed)  # reported to on_progress, not counted in the report
     kills: dict[int, int] = {}  # run id -> tasks holding that run that ended in KilledWorker
-    known: dict[str, Any] = {}  # reference digest -> its track, or the future computing it
-    waiting: dict[str, int] = {}  # reference digest -> runs not submitted yet that need it
-    for spec in todo:
-        for ref in references_for(spec):
-            waiting[ref.digest] = waiting.get(ref.digest, 0) + 1
+    known: dict[str, Any] = {}  # reference digest -> the future computing it
+    tracks: OrderedDict[str, Any] = OrderedDict()  # digest -> its track, most recent last
     computing: dict[str, tuple[Any, str]] = {}  # task key -> (future, reference digest)
 
     def reference(ref: ReferenceSpec) -> Any:
         """The reference's track, or the future of the task computing it (submitted once)."""
         digest = ref.digest
-        waiting[digest] = waiting.get(digest, 1) - 1
         if digest in known:
             return known[digest]
+        if digest in tracks:
+            tracks.move_to_end(digest)
+            return tracks[digest]
         stored = store.reference(digest)
         if stored is not None:
             report.references_reused += 1
-            known[digest] = stored
+            keep(digest, stored)
             return stored
         fut = client.submit(compute_reference, ref, pure=False, retries=retries)
         computing[fut.key] = (fut, digest)
@@ -428,9 +457,6 @@ def _drive(
 
     def submit(chunk: list[Any]) -> None:
         refs = {ref.digest: reference(ref) for spec in chunk for ref in references_for(spec)}
-        for digest in refs:  # what no later run needs is held by the tasks only
-            if waiting.get(digest, 0) <= 0 and isinstance(known.get(digest), ReferenceTrack):
-                del known[digest]
         fut = client.submit(execute_chunk, chunk, refs or None, pure=False, retries=retries)
         inflight[fut.key] = (fut, chunk)
         ongoing.add(fut)
@@ -441,17 +467,25 @@ def _drive(
         try:
             res = fut.result()
         except KilledWorker:
-            known[digest] = ReferenceTrack.failed(
-                "reference run: its worker died each time it was tried (out of memory?)"
+            known.pop(digest, None)
+            keep(
+                digest,
+                ReferenceTrack.failed(
+                    "reference run: its worker died each time it was tried (out of memory?)"
+                ),
             )
             return []
         finally:
             fut.release()
-        if waiting.get(digest, 0) > 0:
-            known[digest] = res.track
-        else:
-            known.pop(digest, None)
+        known.pop(digest, None)
+        keep(digest, res.track)
         return [res]
+
+    def keep(digest: str, track: Any) -> None:
+        tracks[digest] = track
+        tracks.move_to_end(digest)
+        while len(tracks) > KEPT_REFERENCES:
+            tracks.popitem(last=False)
 
     def fill() -> None:
         while chunker and len(inflight) < IN_FLIGHT_PER_THREAD * threads + 1:

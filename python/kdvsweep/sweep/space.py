@@ -12,10 +12,12 @@ from __future__ import annotations
 
 import itertools
 import math
+import operator
 import re
 import unicodedata
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, overload
 
 import numpy as np
 
@@ -246,24 +248,56 @@ def read_space(src: Source, data: object) -> list[Axis]:
     return axes
 
 
-def expand(axes: list[Axis]) -> list[dict[str, Value]]:
-    """One parameter dict per run: the cartesian product of the axes, first axis slowest."""
-    runs = []
-    for position in itertools.product(*(range(len(a)) for a in axes)):
+class Space(Sequence[dict[str, Value]]):
+    """The parameter set of every run, computed on demand: the cartesian product of the axes,
+    first axis slowest, is never stored (a sweep of 10^6 runs holds only its axes)."""
+
+    def __init__(self, axes: Sequence[Axis]) -> None:
+        self.axes = tuple(axes)
+        self._sizes = tuple(len(a) for a in self.axes)
+        self._count = math.prod(self._sizes)
+
+    def __len__(self) -> int:
+        return self._count
+
+    def _at(self, positions: Sequence[int]) -> dict[str, Value]:
         params: dict[str, Value] = {}
-        for axis, i in zip(axes, position, strict=True):
+        for axis, i in zip(self.axes, positions, strict=True):
             for name, col in zip(axis.names, axis.columns, strict=True):
                 params[name] = col[i]
-        runs.append(params)
-    return runs
+        return params
+
+    @overload
+    def __getitem__(self, index: int) -> dict[str, Value]: ...
+
+    @overload
+    def __getitem__(self, index: slice) -> list[dict[str, Value]]: ...
+
+    def __getitem__(self, index: int | slice) -> dict[str, Value] | list[dict[str, Value]]:
+        if isinstance(index, slice):
+            return [self[i] for i in range(*index.indices(self._count))]
+        i = operator.index(index)
+        if i < 0:
+            i += self._count
+        if not 0 <= i < self._count:
+            raise IndexError(f"run {index} of a sweep of {self._count} runs")
+        positions = []
+        for size in reversed(self._sizes):  # mixed radix, the last axis fastest
+            i, digit = divmod(i, size)
+            positions.append(digit)
+        return self._at(positions[::-1])
+
+    def __iter__(self) -> Iterator[dict[str, Value]]:
+        for positions in itertools.product(*(range(n) for n in self._sizes)):
+            yield self._at(positions)
 
 
 __all__ = [
     "MAX_RUNS",
     "Axis",
+    "Space",
     "canonical",
     "check_name",
     "check_text",
-    "expand",
     "read_space",
 ]
