@@ -20,6 +20,7 @@ import math
 import re
 import tomllib
 import warnings
+from collections import OrderedDict
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -45,6 +46,10 @@ MAX_FRAMES = 100_000
 MAX_AUTO_POINTS = 2**18
 #: Most points of the provisional grid on which ``length = 'auto'`` finds the predicted solitons.
 PROVISIONAL_POINTS = 2048
+#: Accuracy asked of each predicted ``kappa`` when it only sizes a run (``length``, ``end``
+#: 'auto'): the sizes are rounded up with margins, so 1e-5 changes none of them, and the spectral
+#: problem is several times smaller than at the measurement's 1e-8.
+SIZING_TOL = 1e-5
 DEFAULT_TAIL = 1e-8
 PRESETS = ("kdv", "kdv-", "mkdv", "mkdv-", "gardner")
 
@@ -1469,7 +1474,7 @@ def _predicted(
         try:
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")  # accuracy notes: sizing needs the speeds only
-                tpl.content_cache[cache_key] = spectrum.bound_states(u0, grid, eq)
+                tpl.content_cache[cache_key] = spectrum.bound_states(u0, grid, eq, tol=SIZING_TOL)
         except (ConfigError, ShapeError) as err:
             raise ctx.fail(
                 key, "auto", f"a number: sizing needs the predicted solitons ({err})"
@@ -1668,23 +1673,34 @@ def _keyed(spec: RunSpec) -> dict[str, Any]:
 class Runs(Sequence[RunSpec]):
     """The runs of a sweep, each expanded from the checked template when it is asked for.
 
-    Nothing per run is kept: ``runs[i]`` and iteration evaluate the template again for that
-    parameter set (expressions, sizing, checks; about 0.1 ms a run), so a sweep of 10^6 runs
+    At most :attr:`KEPT` expanded runs are kept: ``runs[i]`` and iteration evaluate the template
+    again for any other (expressions, sizing, checks; about 0.1 ms a run), so a sweep of 10^6 runs
     costs the memory of its axes, and the farm draws its runs one chunk at a time. Every run was
     evaluated once by :func:`load_sweep`, so expanding one again cannot fail.
     """
+
+    #: Runs kept once expanded (the most recent): a sweep this small is expanded once, whatever
+    #: reads it how often (the plan, the farm); a larger one keeps a bounded few MB.
+    KEPT = 1024
 
     def __init__(self, src: Source, tpl: _Template, space: Space) -> None:
         self._src = src
         self._tpl = tpl
         self._space = space
+        self._kept: OrderedDict[int, RunSpec] = OrderedDict()
 
     def __len__(self) -> int:
         return len(self._space)
 
     def _expand(self, run_id: int, params: dict[str, Value], warn: _Warnings | None) -> RunSpec:
-        sink = warn if warn is not None else _Warnings("", len(self._space))
-        return _expand_run(self._tpl, _Run(self._src, run_id, params), sink)
+        spec = self._kept.get(run_id)
+        if spec is None or warn is not None:
+            sink = warn if warn is not None else _Warnings("", len(self._space))
+            spec = _expand_run(self._tpl, _Run(self._src, run_id, params), sink)
+            self._kept[run_id] = spec
+            if len(self._kept) > self.KEPT:
+                self._kept.popitem(last=False)
+        return spec
 
     @overload
     def __getitem__(self, index: int) -> RunSpec: ...
@@ -1696,9 +1712,13 @@ class Runs(Sequence[RunSpec]):
         if isinstance(index, slice):
             return [self[i] for i in range(*index.indices(len(self)))]
         run_id = index + len(self) if index < 0 else index
-        return self._expand(run_id, self._space[index], None)
+        spec = self._kept.get(run_id)
+        return spec if spec is not None else self._expand(run_id, self._space[index], None)
 
     def __iter__(self) -> Iterator[RunSpec]:
+        if len(self._kept) == len(self):  # all at hand
+            yield from [self._kept[i] for i in range(len(self))]
+            return
         for run_id, params in enumerate(self._space):
             yield self._expand(run_id, params, None)
 
