@@ -286,15 +286,17 @@ SOLITON_COLUMNS: tuple[Column, ...] = (
     Column(
         "shift_uncertainty",
         _F,
-        "error estimate of shift_measured: fit error, window bias and speed drift (reference:"
-        " scatter and drift of the difference in both windows)",
+        "error estimate of shift_measured: fit error, window bias, speed drift and the bound on"
+        " the tail interaction the fit leaves out (reference: scatter and drift of the difference"
+        " in both windows)",
     ),
     Column(
         "shift_error_estimate",
         _F,
         "verified runs (accuracy.verify): |shift_measured - the same at dt/2| times 2^p/(2^p - 1),"
         " p the scheme's order (16/15 etdrk4, ifrk4; 4/3 strang), plus |shift_measured - the same"
-        " on 2n points|",
+        " on 2n points|, plus shift_uncertainty (the analysis's own error, which both re-runs"
+        " share)",
     ),
     Column("amplitude_error_estimate", _F, "the same estimate for amplitude"),
     Column("speed_error_estimate", _F, "the same estimate for speed"),

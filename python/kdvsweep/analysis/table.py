@@ -21,7 +21,7 @@ from .. import theory
 from ..columns import SOLITON_COLUMNS
 from ..exceptions import ConfigError, ShapeError
 from ..model import Equation, Grid
-from .fits import MIN_BIAS_FRAMES, MIN_FRAMES, AsymptoticFit, fit_asymptotes
+from .fits import MIN_BIAS_FRAMES, MIN_FRAMES, AsymptoticFit, fit_windows
 from .peaks import count_peaks, find_peaks_many
 from .tracks import ReferenceTrack, Tracks, check_record, ring_difference, track
 
@@ -464,10 +464,10 @@ def analyse_run(
     if short:
         summary.update(analysis_status="too_short", analysis_reason=short)
         return RunAnalysis(_frame(rows), summary, tracks, [], before, after)
-    fits = [
-        fit_asymptotes(t[b], tracks.position[b, i], t[a], tracks.position[a, i])
-        for i, (b, a) in enumerate(windows)
-    ]
+    heights = np.array([row["kappa_from_height"] for row in rows], dtype=np.float64)
+    fits = fit_windows(
+        t, tracks.position, windows, heights if given is None else given, grid.length
+    )
     measured = theory.kappa_from_speed([f.speed for f in fits], eq)
     use = given if given is not None else measured
     coll = _collision_matrix(n_sol, tracks.pairs(), counts)

@@ -32,20 +32,23 @@ ESTIMATED = ("shift", "amplitude", "speed")
 #: Error model of ``dt = "auto"``: the relative error of a collision's shifts is about
 #: ``C (dt rate)^p`` with ``p`` the scheme's order and ``rate`` the nonlinear term's rate on the
 #: solitons' own scale (:func:`soliton_rate`: 12 for the KdV pair below, 48 kappa^3 for an mKdV
-#: soliton). ``C`` per scheme, measured 2026-12-02 on the KdV pair kappa = (1, 0.5)
+#: soliton). ``C`` per scheme, measured 2026-12-02 (again after the fits gained their
+#: tail-interaction terms, :mod:`kdvsweep.analysis.fits`, which removed an analysis bias of about
+#: 1e-6 that had partly cancelled the temporal error) on the KdV pair kappa = (1, 0.5)
 #: (``points = "auto"`` at 16 decades: n = 512, positions, length and end auto: t = 13.3,
 #: frame_every = 0.1) against the pair formula (Gardner et al. 1974,
 #: :func:`kdvsweep.theory.phase_shifts`), the larger relative shift error of the pair:
-#: ETDRK4 dt = 0.005, 0.0035, 0.0025, 0.00125: 9.5e-5, 1.5e-5, 2.8e-6, 9.1e-8 (C = 7.3, 4.7,
-#: 3.5, 1.8); IFRK4 dt = 0.0025, 0.00125: 2.6e-5, 7.0e-7 (C = 33, 14); Strang dt = 0.005,
-#: 0.0025: 4.7e-4, 1.1e-4 (C = 0.13, 0.12). Larger steps were at the edge of stability (errors
-#: of 1e-3 to 1e-2). The mKdV pair kappa = (1, 0.5) (rate 48, n = 768) with ETDRK4 at dt = 0.001
-#: and 0.0005 gave 5.8e-5 and 2.9e-6 (C = 14 and 11). ``C`` is the largest value of each scheme,
+#: ETDRK4 dt = 0.005, 0.0035, 0.0025, 0.00125: 1.2e-4, 1.9e-5, 3.9e-6, 9.2e-8 (C = 9.4, 6.1,
+#: 4.8, 1.8); IFRK4 dt = 0.0025, 0.00125: 3.5e-5, 1.1e-6 (C = 43, 22); Strang dt = 0.005,
+#: 0.0025: 3.8e-4, 1.1e-4 (C = 0.11, 0.12). Larger steps were at the edge of stability (errors
+#: of 1e-3 to 1e-2). The mKdV pair kappa = (1, 0.5) (rate 48, n = 1536) with ETDRK4 at dt = 0.001
+#: and 0.0005 gave 7.6e-5 and 2.6e-6 (C = 14 and 7.8). ``C`` is the largest value of each scheme,
 #: rounded up (ETDRK4: the mKdV one; Strang: 0.25, as with 0.15 the slow soliton's fit
-#: uncertainty of the KdV pair at a 1e-5 target was 1.04e-5, its shift unreported): the error falls faster than ``dt^4`` for the fourth-order
-#: schemes here, so the model errs on the safe side at small targets (tests/test_accuracy.py
-#: re-measures the KdV points and checks the result on KdV and mKdV pairs).
-ERROR_CONSTANT: dict[str, float] = {"etdrk4": 15.0, "ifrk4": 35.0, "strang": 0.25}
+#: uncertainty of the KdV pair at a 1e-5 target was 1.04e-5, its shift unreported): the error falls
+#: faster than ``dt^4`` for the fourth-order schemes here, so the model errs on the safe side at
+#: small targets (tests/test_accuracy.py re-measures the KdV points and checks the result on KdV
+#: and mKdV pairs).
+ERROR_CONSTANT: dict[str, float] = {"etdrk4": 15.0, "ifrk4": 45.0, "strang": 0.25}
 #: Share of the target the temporal error may take (the rest is left to the analysis's fits).
 TIME_SHARE = 0.25
 #: ``dt = "auto"`` without a target aims at this relative shift error.
@@ -131,6 +134,39 @@ def error_estimates(
     return out
 
 
+#: The analysis's own error of each :data:`ESTIMATED` number: the row's column that bounds it
+#: (``shift``: ``shift_uncertainty``, the asymptotic fit's standard error, far-half bias, speed
+#: drift and tail-interaction residual, :class:`kdvsweep.analysis.AsymptoticFit`). Re-running at
+#: ``dt / 2`` or on ``2 n`` points changes only the discretisation: an error of the fit itself
+#: (finite separation, frames in the windows) is the same in both runs and cancels in their
+#: difference, so it is added here.
+ANALYSIS_ERROR = {"shift": "shift_uncertainty"}
+
+
+def total_estimates(
+    rows: Sequence[Mapping[str, Any]],
+    parts: Sequence[Sequence[Mapping[str, float]]],
+) -> list[dict[str, float]]:
+    """Each soliton's ``<name>_error_estimate``: the sum of the discretisation ``parts``
+    (:func:`error_estimates` against the run at ``dt / 2`` and against the run on ``2 n`` points)
+    and of the analysis's own error (:data:`ANALYSIS_ERROR`, where the row has it). Errors from
+    the step, the grid and the fit are independent and may have either sign; their magnitudes
+    add (a bound, not a standard deviation)."""
+    out = []
+    for i, row in enumerate(rows):
+        est: dict[str, float] = {}
+        for name in ESTIMATED:
+            key = f"{name}_error_estimate"
+            total = sum(part[i].get(key, math.nan) for part in parts)
+            column = ANALYSIS_ERROR.get(name)
+            if column is not None:
+                analysis = _number(row.get(column))
+                total += analysis if math.isfinite(analysis) else 0.0
+            est[key] = float(total)
+        out.append(est)
+    return out
+
+
 def accuracy_met(
     rows: Sequence[Mapping[str, Any]], estimates: Sequence[Mapping[str, float]], target: float
 ) -> bool | None:
@@ -166,6 +202,7 @@ __all__ = [
     "ERROR_CONSTANT",
     "ESTIMATED",
     "EXTRA_DECADES",
+    "ANALYSIS_ERROR",
     "SCHEME_ORDER",
     "TIME_SHARE",
     "VERIFY_COST",
@@ -175,5 +212,6 @@ __all__ = [
     "error_estimates",
     "richardson_factor",
     "soliton_rate",
+    "total_estimates",
     "verified_runs",
 ]

@@ -820,7 +820,9 @@ def _verify(
     (same grid, same record times) and, separately, on twice the points (same step); each
     soliton's ``*_error_estimate`` is the Richardson factor of the scheme's order times the
     difference from the half-step run plus the difference from the finer grid (spectral
-    convergence: the finer grid's own error is far smaller), and ``accuracy_met`` is checked
+    convergence: the finer grid's own error is far smaller) plus the analysis's own error (the
+    fit's ``shift_uncertainty``: :func:`kdvsweep.sweep.accuracy.total_estimates`), and
+    ``accuracy_met`` is checked
     against the target (:mod:`kdvsweep.sweep.accuracy`). The adaptive scheme is not verified (no
     fixed step to halve); a note in ``reason`` says so, or why a re-run gave nothing."""
     model = spec.model
@@ -835,17 +837,15 @@ def _verify(
         units=None,
     )
     finer = replace(half, model=replace(model, grid=Grid(2 * model.grid.n, model.grid.length)))
-    estimates: list[dict[str, float]] = [{} for _ in solitons]
+    parts = []
     for label, other, factor_order in (("dt/2", half, order), ("2n points", finer, None)):
         again = execute(other, simulation, references)
         if not again.ok:
             note = f"not verified: the run at {label} failed ({again.run_row.get('reason')})"
             row["reason"] = _join(str(row.get("reason") or ""), note)
             return
-        part = acc.error_estimates(solitons, again.soliton_rows, factor_order)
-        for total, est in zip(estimates, part, strict=True):
-            for key, value in est.items():
-                total[key] = total.get(key, 0.0) + value
+        parts.append(acc.error_estimates(solitons, again.soliton_rows, factor_order))
+    estimates = acc.total_estimates(solitons, parts)
     for soliton, est in zip(solitons, estimates, strict=True):
         soliton.update(est)
     if spec.run.accuracy is not None:
