@@ -1742,7 +1742,7 @@ class Runs(Sequence[RunSpec]):
         return (
             f'{{"initial":{_plain_json(initial)},"model":{part(spec.model)},'
             f'"params":{_plain_json(dict(spec.params))},"run":{part(spec.run)},'
-            f'"run_id":{_plain_json(spec.run_id)}{units}}}'
+            f'"run_id":{int(spec.run_id)}{units}}}'
         )
 
     def digest(self, frames: dict[str, Any], warn: _Warnings) -> str:
