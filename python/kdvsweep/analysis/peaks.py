@@ -7,13 +7,22 @@ cells around it. A 3-point parabola, by contrast, is exact only for quadratics a
 of order ``dx^2`` times the profile's relative third derivative (about 1e-4 of a width for a
 soliton at ten points per width; common practice, no source).
 
-All extrema of all frames of a record are refined together, so the cost is a few vectorised
-passes over ``(extrema x modes)`` arrays rather than a Python loop per frame.
+All extrema of all frames of a record are refined together, in one vectorised pass over an
+``(extrema x modes)`` array: the interpolant's derivatives of orders ``0 .. TAYLOR_ORDER`` at a
+start point (the vertex of the parabola through the three samples around the discrete extremum)
+give its Taylor polynomial there, whose stationary point is found by Newton's method on short
+vectors. The remainder of that polynomial is bounded from the spectrum (``|e^{iy} - sum_{q<=Q}
+(iy)^q/q!| <= |y|^(Q+1)/(Q+1)!``), and an extremum whose bound is not below round-off (a start
+far from it, or a spectrum full to the Nyquist mode) is refined by the safeguarded Newton
+iteration on the interpolant itself instead.
 """
 
 from __future__ import annotations
 
+import math
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
+from typing import overload
 
 import numpy as np
 
@@ -26,8 +35,21 @@ _NOISE_FACTOR = 10.0
 # median of the quarter below it.
 _PLATEAU = 0.3
 _MAX_NEWTON = 40
+# Modes per block of the phasor tables (_phasors).
+_PHASOR_BLOCK = 32
+# Points evaluated together by Interpolant.taylor (work arrays of ~0.6 MB at n = 512).
+_CACHE_BLOCK = 128
 # Extrema refined per vectorised block (bounds the (extrema x modes) work arrays to ~10 MB).
 _BLOCK = 2048
+#: Highest derivative of the interpolant in the Taylor polynomial about each start point. With the
+#: parabola's vertex as start (at most 0.15 grid steps from the extremum on the soliton records of
+#: the benchmark sweep and the demo), 8 leaves a remainder at round-off (our measurement,
+#: 2026-12-02: positions within 3e-14 of the safeguarded iteration's; common practice, no source).
+TAYLOR_ORDER = 8
+# Accepted when the remainder bound moves the position by less than this many units of the
+# period (the safeguarded iteration stops at steps of 1e-13 L) and the height by less than this
+# fraction of the spectrum's size.
+_TAYLOR_TOL = 1e-14
 
 
 @dataclass(frozen=True)
@@ -79,20 +101,50 @@ class Interpolant:
         self.k = 2.0 * np.pi / self.length * np.arange(spec.shape[1])
         if denoise:
             spec = _drop_noise_band(spec)
-        self.coef = weights * spec
+        # The coefficients padded with zero modes to whole blocks of the phasor tables (_phasors).
+        modes = spec.shape[1]
+        self._padded = np.zeros((u.shape[0], -(-modes // _PHASOR_BLOCK) * _PHASOR_BLOCK), complex)
+        np.multiply(weights, spec, out=self._padded[:, :modes])
+        self.coef = self._padded[:, :modes]
+        self._k_padded = 2.0 * np.pi / self.length * np.arange(self._padded.shape[1])
+        self._abs: np.ndarray | None = None
+        self._sizes: dict[int, np.ndarray] = {}
+
+    def size(self, power: int) -> np.ndarray:
+        """``sum_m |coef_m| k_m^power`` of each frame: a bound on ``|p^(power)|``, shape ``(m,)``."""
+        if power not in self._sizes:
+            if self._abs is None:
+                self._abs = np.abs(self.coef)
+            self._sizes[power] = np.einsum("fm,m->f", self._abs, self.k**power)
+        return self._sizes[power]
+
+    def taylor(self, frame: np.ndarray, x: np.ndarray, order: int) -> np.ndarray:
+        """Derivatives of orders ``0 .. order`` of frame ``frame[p]``'s interpolant at ``x[p]``,
+        shape ``(order + 1, len(x))``, from one pass over the modes."""
+        frame = np.asarray(frame, dtype=np.int64)
+        theta = np.asarray(x, dtype=np.float64) + 0.5 * self.length
+        powers = self._k_padded[None, :] ** np.arange(order + 1)[:, None]
+        signs = np.array([(1.0, -1.0, -1.0, 1.0)[r % 4] for r in range(order + 1)])
+        out = np.empty((order + 1, theta.size))
+        # In blocks of points whose work arrays stay in a core's cache.
+        for b in range(0, theta.size, _CACHE_BLOCK):
+            sl = slice(b, b + _CACHE_BLOCK)
+            z = _phasors(theta[sl], self.k[1], self._padded.shape[1])
+            z *= self._padded[frame[sl]]
+            # p^(r) = Re sum (i k)^r z: k^r times the real part (r even) or the imaginary part
+            # (odd), with the sign of i^r. Contiguous copies and einsum's own loop (no BLAS: a
+            # threaded product was erratic on a loaded machine).
+            parts = (np.ascontiguousarray(z.real), np.ascontiguousarray(z.imag))
+            for r in range(order + 1):
+                out[r, sl] = signs[r] * np.einsum("pm,m->p", parts[r % 2], powers[r])
+        return out
 
     def derivatives(
         self, frame: np.ndarray, x: np.ndarray, orders: tuple[int, ...] = (0, 1, 2)
     ) -> list[np.ndarray]:
         """Derivatives of the requested orders of frame ``frame[p]``'s interpolant at ``x[p]``."""
-        frame = np.asarray(frame, dtype=np.int64)
-        ph = (
-            _phasors(np.asarray(x, dtype=np.float64) + 0.5 * self.length, self.k[1], self.k.size)
-            * self.coef[frame]
-        )
-        # Elementwise sums, not a BLAS matrix-vector product: on a loaded machine a threaded
-        # complex gemv was ten times slower here.
-        return [np.real((ph * (1j * self.k) ** m).sum(axis=1)) for m in orders]
+        d = self.taylor(frame, x, max(orders))
+        return [d[m] for m in orders]
 
     def __call__(self, frame: np.ndarray, x: np.ndarray) -> np.ndarray:
         """Values of frame ``frame[p]``'s interpolant at ``x[p]``."""
@@ -101,27 +153,42 @@ class Interpolant:
 
 def _phasors(theta: np.ndarray, k0: float, modes: int) -> np.ndarray:
     """``exp(i m k0 theta)`` for ``m < modes``, as an outer product of two short exponential tables
-    (``modes / 32 + 32`` complex exponentials per point instead of ``modes``; error ~2 ulp)."""
-    block = 32
-    rows = -(-modes // block)
-    fine = np.exp(1j * k0 * np.outer(theta, np.arange(block)))
-    coarse = np.exp(1j * k0 * block * np.outer(theta, np.arange(rows)))
-    return (coarse[:, :, None] * fine[:, None, :]).reshape(theta.size, -1)[:, :modes]
+    (``modes / 32 + 32`` complex exponentials per point instead of ``modes``; error ~2 ulp).
+    Contiguous when ``modes`` is a multiple of the block."""
+    rows = -(-modes // _PHASOR_BLOCK)
+    fine = np.exp(1j * k0 * np.outer(theta, np.arange(_PHASOR_BLOCK)))
+    coarse = np.exp(1j * k0 * _PHASOR_BLOCK * np.outer(theta, np.arange(rows)))
+    out = np.empty((theta.size, rows, _PHASOR_BLOCK), dtype=np.complex128)
+    np.multiply(coarse[:, :, None], fine[:, None, :], out=out)
+    whole = out.reshape(theta.size, -1)
+    return whole if whole.shape[1] == modes else whole[:, :modes]
 
 
 def _drop_noise_band(spec: np.ndarray) -> np.ndarray:
-    mag = np.abs(spec)
-    m = mag.shape[1]
+    m = spec.shape[1]
     if m - 3 * m // 4 < 4:
         return spec
-    floor = np.median(mag[:, 3 * m // 4 :], axis=1)
-    below = np.median(mag[:, m // 2 : 3 * m // 4], axis=1)
+    half, quarter = m // 2, 3 * m // 4
+    upper = np.abs(spec[:, half:])
+    floor = _median(upper[:, quarter - half :])
+    below = _median(upper[:, : quarter - half])
+    noisy = np.flatnonzero((floor > 0) & (floor >= _PLATEAU * below))
+    if noisy.size == 0:
+        return spec
     out = spec.copy()
-    for f in np.flatnonzero((floor > 0) & (floor >= _PLATEAU * below)):
-        above = np.flatnonzero(mag[f] > _NOISE_FACTOR * floor[f])
+    for f in noisy:
+        above = np.flatnonzero(np.abs(spec[f]) > _NOISE_FACTOR * floor[f])
         if above.size:
             out[f, above[-1] + 1 :] = 0.0
     return out
+
+
+def _median(a: np.ndarray) -> np.ndarray:
+    """Median of each row (``np.median(a, axis=1)``, from one partition)."""
+    w = a.shape[1]
+    mid = w // 2
+    part = np.partition(a, (mid - 1, mid) if w % 2 == 0 else mid, axis=1)
+    return 0.5 * (part[:, mid - 1] + part[:, mid]) if w % 2 == 0 else part[:, mid]
 
 
 def _wrap(x: np.ndarray, length: float) -> np.ndarray:
@@ -182,11 +249,231 @@ def _vertex(v: np.ndarray, frame: np.ndarray, j: np.ndarray, dx: float) -> np.nd
 
 
 def _candidates(u: np.ndarray, threshold: float, sign: int) -> tuple[np.ndarray, np.ndarray]:
-    """(frame, index) of the discrete maxima of ``sign * u`` above ``threshold`` (periodic)."""
-    v = sign * u
-    left, right = np.roll(v, 1, axis=1), np.roll(v, -1, axis=1)
-    rows, cols = np.nonzero((v >= left) & (v > right) & (v > threshold))
-    return rows, cols
+    """(frame, index) of the discrete maxima of ``sign * u`` above ``threshold`` (periodic), in
+    row-major order; only the samples above the threshold are compared with their neighbours."""
+    v = u if sign == 1 else -u
+    n = u.shape[1]
+    flat = v.ravel()
+    at = np.flatnonzero(flat > threshold)
+    rows, cols = np.divmod(at, n)
+    value = flat[at]
+    left = flat[at - 1 + np.where(cols == 0, n, 0)]
+    right = flat[at + 1 - np.where(cols == n - 1, n, 0)]
+    keep = (value >= left) & (value > right)
+    return rows[keep], cols[keep]
+
+
+def _taylor_refine(
+    interp: Interpolant,
+    frame: np.ndarray,
+    x0: np.ndarray,
+    sign: np.ndarray,
+    dx: float,
+    start: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Stationary points of ``sign * p`` near each grid extremum ``x0``, from the Taylor polynomial
+    of degree :data:`TAYLOR_ORDER` about ``start`` (see the module's docstring).
+
+    Returns the positions, the heights ``p`` there and a mask of the extrema found: Newton's method
+    on the polynomial converged inside ``[x0 - dx, x0 + dx]`` with negative curvature, and the
+    remainder bound moves neither the position nor the height beyond round-off.
+    """
+    q = TAYLOR_ORDER
+    d = interp.taylor(frame, start, q) * sign
+    inv = [1.0 / math.factorial(i) for i in range(q + 2)]
+
+    def poly(order: int, delta: np.ndarray) -> np.ndarray:
+        acc = d[q] * inv[q - order]
+        for i in range(q - order - 1, -1, -1):
+            acc = acc * delta + d[order + i] * inv[i]
+        return np.asarray(acc)
+
+    lo, hi = x0 - dx - start, x0 + dx - start
+    tol = _TAYLOR_TOL * max(1.0, interp.length)
+    delta = np.zeros(start.size)
+    ok = np.ones(start.size, dtype=bool)
+    converged = np.zeros(start.size, dtype=bool)
+    curvature = np.zeros(start.size)
+    for _ in range(_MAX_NEWTON):
+        g, curvature = poly(1, delta), poly(2, delta)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            step = np.where(curvature < 0, -g / curvature, np.nan)
+        new = delta + step
+        ok &= np.isfinite(new) & (new >= lo) & (new <= hi)
+        converged = np.abs(step) <= tol
+        delta = np.where(ok, new, 0.0)
+        if np.all(converged | ~ok):
+            break
+    ok &= converged
+    size = interp.size(q + 1)[frame]
+    reach = np.abs(delta)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        moved = size * reach**q * inv[q] / np.abs(curvature)
+    lifted = size * reach ** (q + 1) * inv[q + 1]
+    ok &= (moved <= tol) & (lifted <= _TAYLOR_TOL * interp.size(0)[frame])
+    return start + delta, sign * poly(0, delta), ok
+
+
+def _locate(
+    interp: Interpolant,
+    frame: np.ndarray,
+    x0: np.ndarray,
+    sign: np.ndarray,
+    dx: float,
+    start: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Positions and heights of the extrema near the grid extrema ``x0``: the Taylor pass, and the
+    safeguarded iteration on the interpolant for those it does not settle."""
+    x, height, ok = _taylor_refine(interp, frame, x0, sign, dx, start)
+    rest = np.flatnonzero(~ok)
+    if rest.size:
+        x[rest] = _refine(interp, frame[rest], x0[rest], sign[rest], dx, start[rest])
+        height[rest] = interp(frame[rest], x[rest])
+    return x, height
+
+
+class PeakRecord(Sequence[Peaks]):
+    """The extrema of every frame of a record, stored flat (by frame, then position); indexing
+    gives one frame's :class:`Peaks`.
+
+    Attributes
+    ----------
+    x, height, sign
+        All extrema (see :class:`Peaks`).
+    frame
+        The frame of each extremum, non-decreasing.
+    bounds
+        Shape ``(m + 1,)``: frame ``f``'s extrema are ``bounds[f]:bounds[f + 1]``.
+    """
+
+    def __init__(
+        self, x: np.ndarray, height: np.ndarray, sign: np.ndarray, frame: np.ndarray, frames: int
+    ) -> None:
+        self.x, self.height, self.sign, self.frame = x, height, sign, frame
+        self.bounds = np.searchsorted(frame, np.arange(frames + 1))
+
+    @property
+    def counts(self) -> np.ndarray:
+        """Extrema per frame, shape ``(m,)``."""
+        return np.diff(self.bounds)
+
+    def __len__(self) -> int:
+        return int(self.bounds.size - 1)
+
+    @overload
+    def __getitem__(self, index: int) -> Peaks: ...
+
+    @overload
+    def __getitem__(self, index: slice) -> list[Peaks]: ...
+
+    def __getitem__(self, index: int | slice) -> Peaks | list[Peaks]:
+        if isinstance(index, slice):
+            return [self[f] for f in range(*index.indices(len(self)))]
+        f = range(len(self))[index]  # IndexError, negative indices
+        sel = slice(int(self.bounds[f]), int(self.bounds[f + 1]))
+        return Peaks(self.x[sel], self.height[sel], self.sign[sel])
+
+    def __iter__(self) -> Iterator[Peaks]:
+        return (self[f] for f in range(len(self)))
+
+
+def _check_frames(frames: np.ndarray, length: float) -> np.ndarray:
+    u = np.asarray(frames, dtype=np.float64)
+    if u.ndim != 2 or u.shape[1] < 4 or u.shape[1] % 2:
+        raise ShapeError(f"find_peaks: frames must be (m, n) with n even >= 4, got {u.shape}")
+    if not (np.isfinite(length) and length > 0):
+        raise ConfigError(f"find_peaks: length must be positive and finite, got {length}")
+    return u
+
+
+def peak_record(
+    frames: np.ndarray,
+    length: float,
+    threshold: float,
+    signs: tuple[int, ...] = (1,),
+    denoise: bool = True,
+    merge_distance: float | None = None,
+) -> PeakRecord:
+    """:func:`find_peaks_many` as one flat :class:`PeakRecord` (no per-frame object is built until
+    a frame is indexed)."""
+    u = _check_frames(frames, length)
+    m, n = u.shape
+    dx = length / n
+    found = [_candidates(u, threshold, s) for s in signs]
+    frame = np.concatenate([f for f, _ in found])
+    if frame.size == 0:
+        empty = np.empty(0)
+        return PeakRecord(empty, empty, np.empty(0, dtype=np.int64), frame.astype(np.int64), m)
+    interp = Interpolant(u, length, denoise=denoise)
+    j = np.concatenate([j for _, j in found])
+    sign = np.concatenate(
+        [np.full(f.size, s, dtype=np.int64) for (f, _), s in zip(found, signs, strict=True)]
+    )
+    grid0 = -0.5 * length + dx * j
+    start = grid0 + np.concatenate(
+        [_vertex(s * u, f, jj, dx) for (f, jj), s in zip(found, signs, strict=True)]
+    )
+    x = np.empty(frame.size)
+    height = np.empty(frame.size)
+    for b in range(0, frame.size, _BLOCK):
+        sl = slice(b, b + _BLOCK)
+        x[sl], height[sl] = _locate(
+            interp, frame[sl], grid0[sl], sign[sl].astype(float), dx, start[sl]
+        )
+    x = _wrap(x, length)
+    merge = dx if merge_distance is None else merge_distance
+    order = np.lexsort((x, frame))
+    frame, x, height, sign = frame[order], x[order], height[order], sign[order]
+    bounds = np.searchsorted(frame, np.arange(m + 1))
+    # Frames with two same-sign extrema closer than ``merge`` (neighbours in x, or the last and
+    # first across x = L/2) need merging; the rest are kept as they are.
+    same = (frame[1:] == frame[:-1]) & (sign[1:] == sign[:-1]) & (np.diff(x) < merge)
+    crowded = set(frame[1:][same].tolist())
+    lo, hi = bounds[:-1], bounds[1:] - 1
+    wraps = (hi > lo) & (x[np.maximum(hi, 0)] - x[lo.clip(max=x.size - 1)] > length - merge)
+    crowded.update(np.flatnonzero(wraps).tolist())
+    if crowded:
+        keep = np.ones(frame.size, dtype=bool)
+        for f in sorted(crowded):
+            a, b = int(bounds[f]), int(bounds[f + 1])
+            mine = np.zeros(b - a, dtype=bool)
+            mine[_merge(x[a:b], sign[a:b] * height[a:b], sign[a:b], length, merge)] = True
+            keep[a:b] = mine
+        frame, x, height, sign = frame[keep], x[keep], height[keep], sign[keep]
+    return PeakRecord(x, height, sign, frame, m)
+
+
+def count_many(
+    frames: np.ndarray,
+    length: float,
+    threshold: float,
+    signs: tuple[int, ...] = (1,),
+    merge_distance: float | None = None,
+) -> np.ndarray:
+    """The number of extrema in each frame, equal to ``len`` of each of :func:`find_peaks_many`'s
+    (``denoise`` on), without locating them: the discrete extrema are counted, and only frames
+    where two of one sign are close enough to be merged (within ``merge_distance`` plus two grid
+    steps, the most their sub-grid positions can move) are searched in full."""
+    u = _check_frames(frames, length)
+    m, n = u.shape
+    dx = length / n
+    merge = dx if merge_distance is None else merge_distance
+    counts = np.zeros(m, dtype=np.int64)
+    crowded = []
+    for s in signs:
+        f, j = _candidates(u, threshold, s)
+        counts += np.bincount(f, minlength=m)
+        close = (f[1:] == f[:-1]) & ((j[1:] - j[:-1]) * dx < merge + 2.0 * dx)
+        crowded.append(f[1:][close])
+        bounds = np.searchsorted(f, np.arange(m + 1))
+        lo, hi = bounds[:-1], bounds[1:] - 1
+        two = np.flatnonzero(hi > lo)
+        around = (n - (j[hi[two]] - j[lo[two]])) * dx < merge + 2.0 * dx
+        crowded.append(two[around])
+    redo = np.unique(np.concatenate(crowded))
+    if redo.size:
+        counts[redo] = peak_record(u[redo], length, threshold, signs, True, merge).counts
+    return counts
 
 
 def find_peaks_many(
@@ -219,56 +506,7 @@ def find_peaks_many(
     list of Peaks
         One per frame, sorted by position.
     """
-    u = np.asarray(frames, dtype=np.float64)
-    if u.ndim != 2 or u.shape[1] < 4 or u.shape[1] % 2:
-        raise ShapeError(f"find_peaks: frames must be (m, n) with n even >= 4, got {u.shape}")
-    if not (np.isfinite(length) and length > 0):
-        raise ConfigError(f"find_peaks: length must be positive and finite, got {length}")
-    m, n = u.shape
-    dx = length / n
-    interp = Interpolant(u, length, denoise=denoise)
-    found = [_candidates(u, threshold, s) for s in signs]
-    frame = np.concatenate([f for f, _ in found])
-    j = np.concatenate([j for _, j in found])
-    sign = np.concatenate(
-        [np.full(f.size, s, dtype=np.int64) for (f, _), s in zip(found, signs, strict=True)]
-    )
-    grid0 = -0.5 * length + dx * j
-    start = grid0 + np.concatenate(
-        [_vertex(s * u, f, jj, dx) for (f, jj), s in zip(found, signs, strict=True)]
-    )
-    x = np.empty(frame.size)
-    for b in range(0, frame.size, _BLOCK):
-        sl = slice(b, b + _BLOCK)
-        x[sl] = _refine(interp, frame[sl], grid0[sl], sign[sl].astype(float), dx, start[sl])
-    x = _wrap(x, length)
-    height = np.empty(frame.size)
-    for b in range(0, frame.size, _BLOCK):
-        sl = slice(b, b + _BLOCK)
-        height[sl] = interp(frame[sl], x[sl])
-    if frame.size == 0:
-        empty = np.empty(0)
-        return [Peaks(empty, empty, np.empty(0, dtype=np.int64)) for _ in range(m)]
-    merge = dx if merge_distance is None else merge_distance
-    order = np.lexsort((x, frame))
-    frame, x, height, sign = frame[order], x[order], height[order], sign[order]
-    bounds = np.searchsorted(frame, np.arange(m + 1))
-    # Frames with two same-sign extrema closer than ``merge`` (neighbours in x, or the last and
-    # first across x = L/2) need merging; the rest are split off as they are.
-    same = (frame[1:] == frame[:-1]) & (sign[1:] == sign[:-1]) & (np.diff(x) < merge)
-    crowded = set(frame[1:][same].tolist())
-    lo, hi = bounds[:-1], bounds[1:] - 1
-    wraps = (hi > lo) & (x[np.maximum(hi, 0)] - x[lo.clip(max=x.size - 1)] > length - merge)
-    crowded.update(np.flatnonzero(wraps).tolist())
-    out = []
-    for f in range(m):
-        sel = slice(bounds[f], bounds[f + 1])
-        if f in crowded:
-            keep = np.sort(_merge(x[sel], sign[sel] * height[sel], sign[sel], length, merge))
-            out.append(Peaks(x[sel][keep], height[sel][keep], sign[sel][keep]))
-        else:
-            out.append(Peaks(x[sel], height[sel], sign[sel]))
-    return out
+    return list(peak_record(frames, length, threshold, signs, denoise, merge_distance))
 
 
 def find_peaks(
@@ -307,10 +545,14 @@ def count_peaks(
 
 
 __all__ = [
+    "TAYLOR_ORDER",
     "Interpolant",
+    "PeakRecord",
     "Peaks",
+    "count_many",
     "count_peaks",
     "find_peaks",
     "find_peaks_many",
+    "peak_record",
     "ring_distance",
 ]

@@ -12,11 +12,17 @@ others collide (``Tracks.alone``), so its fit windows need not stop at collision
 
 Positions are unwrapped on the periodic domain: each match moves the soliton by its predicted
 displacement plus the shortest arc to the extremum found.
+
+The linking is sequential by definition (each frame is predicted from the last one linked), but it
+is computed for all frames at once: the decisions of every frame are taken from the states that a
+provisional set of decisions gives, and repeated until they reproduce themselves; each round fixes
+at least the first frame that was wrong, so this ends, in two or three rounds in practice.
 """
 
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from itertools import combinations
 
@@ -26,7 +32,7 @@ from scipy.optimize import linear_sum_assignment
 from .. import theory
 from ..exceptions import ConfigError, ShapeError
 from ..model import Equation, SolitonForm
-from .peaks import Peaks, find_peaks, find_peaks_many
+from .peaks import PeakRecord, Peaks, find_peaks, peak_record
 
 # Frame-0 extrema below this fraction of max|u| are radiation, when no kappas are given.
 RADIATION_LEVEL = 0.05
@@ -94,7 +100,7 @@ class Tracks:
     threshold: float
     separation: float
     reason: str = ""
-    extrema: list[Peaks] = field(default_factory=list)
+    extrema: Sequence[Peaks] = field(default_factory=list)
     alone: np.ndarray = field(default_factory=lambda: np.zeros((0, 0), dtype=bool))
 
     @property
@@ -141,6 +147,9 @@ class _Kinematics:
 
     def tail(self, height: float) -> float:
         return float(self.form.tail_length(self.form.kappa_of_height(height)))
+
+    def tails(self, heights: np.ndarray) -> np.ndarray:
+        return np.asarray(self.form.tail_length(self.form.kappa_of_height(heights)), dtype=float)
 
     def kappa(self, heights: np.ndarray) -> np.ndarray:
         return np.asarray(self.form.kappa_of_height(heights))
@@ -247,8 +256,8 @@ def track(
                 threshold = radiation
             else:
                 threshold = THRESHOLD_FRACTION * float(np.abs(first.height).min())
-    peaks = find_peaks_many(u, length, threshold, signs)
-    counts = np.array([len(p) for p in peaks])
+    peaks = peak_record(u, length, threshold, signs)
+    counts = peaks.counts
     given = None if kappas is None else np.atleast_1d(np.asarray(kappas, dtype=np.float64))
     chosen, reason = _initial_solitons(peaks[0], given, kin.form, max(radiation, threshold))
     n_sol = chosen.size
@@ -318,14 +327,12 @@ def _locate_alone(tracks: Tracks, kin: _Kinematics, separation: float) -> None:
     tails = [kin.tail(h) for h in h0]
     speeds = kin.speeds(tracks.height[0]).tolist()
     reach = separation * max(tails) + _widest_shift(kin.kappa(np.abs(tracks.height[0])).tolist())
-    for f in np.flatnonzero(tracks.linked).tolist():
-        xs = tracks.x[f].tolist()
-        for i in range(n):
-            alone[f, i] = all(
-                abs((xs[i] - xs[j] + half) % length - half) >= separation * max(tails[i], tails[j])
-                for j in range(n)
-                if j != i
-            )
+    on = np.flatnonzero(tracks.linked)
+    xs = tracks.x[on]
+    apart = np.abs((xs[:, :, None] - xs[:, None, :] + half) % length - half)
+    need = separation * np.maximum(np.array(tails)[:, None], np.array(tails)[None, :])
+    apart[:, np.arange(n), np.arange(n)] = np.inf
+    alone[on] = np.all(apart >= need[None, :, :], axis=2)
     if n < 3:  # a pair that is not linked is colliding: neither soliton is alone
         return
     last_f = [0] * n
@@ -364,52 +371,158 @@ def _locate_alone(tracks: Tracks, kin: _Kinematics, separation: float) -> None:
 def _link(tracks: Tracks, kin: _Kinematics, link_separation: float, separation: float) -> None:
     """Match the solitons of frame 0 through the later frames, filling ``tracks`` in place.
 
-    Each frame: predict every soliton's position from its last one and speed, match by the
-    Hungarian method on height and position mismatch, accept if every soliton found a same-sign
-    extremum of nearly its height and all are ``link_separation`` apart. The loop runs on Python
-    floats: a frame holds a few extrema, where NumPy's per-call overhead would dominate.
+    Each frame: predict every soliton's position from the last linked frame and its speed (the
+    position difference of the last two consecutive linked frames, or the speed of its first
+    height), match by the Hungarian method on height and position mismatch, accept if every
+    soliton found a same-sign extremum of nearly its height and all are ``link_separation``
+    apart. The decisions of all frames are computed together (see the module's docstring).
     """
-    t, length, sign = tracks.times, tracks.length, tracks.sign.tolist()
-    n, half = len(sign), 0.5 * tracks.length
-    last_x, last_h = tracks.position[0].tolist(), tracks.height[0].tolist()
-    velocity = kin.speeds(tracks.height[0]).tolist()
-    last_t, last_frame = float(t[0]), 0
-    for f in range(1, t.size):
-        pk = tracks.extrema[f]
-        if len(pk) < n:
-            continue
-        cx, ch, cs = pk.x.tolist(), pk.height.tolist(), pk.sign.tolist()
-        dt = float(t[f]) - last_t
-        pred = [last_x[i] + velocity[i] * dt for i in range(n)]
-        log_h = [math.log(abs(h)) for h in ch]
-        cost = []
-        for i in range(n):
-            ref, tail = math.log(abs(last_h[i])), kin.tail(last_h[i])
-            row = []
-            for j in range(len(cx)):
-                r = abs(log_h[j] - ref)
-                if cs[j] != sign[i] or r > HEIGHT_GATE:
-                    row.append(_NO_MATCH)
-                    continue
-                d = abs((cx[j] - pred[i] + half) % length - half) / tail
-                row.append((r / HEIGHT_TOLERANCE) ** 2 + (d / POSITION_SCALE) ** 2)
-            cost.append(row)
-        cols = [min(range(len(row)), key=row.__getitem__) for row in cost]
-        if len(set(cols)) < n:
+    ext = tracks.extrema
+    if not isinstance(ext, PeakRecord):
+        ext = PeakRecord(
+            np.concatenate([p.x for p in ext]),
+            np.concatenate([p.height for p in ext]),
+            np.concatenate([p.sign for p in ext]),
+            np.repeat(np.arange(len(ext)), [len(p) for p in ext]),
+            len(ext),
+        )
+    m, n = tracks.x.shape
+    counts = ext.counts
+    frames = np.flatnonzero(counts >= n)
+    frames = frames[frames > 0]
+    if frames.size == 0:
+        return
+    width = int(counts.max())
+    slot = np.arange(ext.x.size) - ext.bounds[ext.frame]
+    cx = np.full((m, width), np.nan)
+    ch = np.full((m, width), np.nan)
+    cs = np.zeros((m, width), dtype=np.int64)
+    cx[ext.frame, slot], ch[ext.frame, slot], cs[ext.frame, slot] = ext.x, ext.height, ext.sign
+    cand = _Candidates(cx[frames], ch[frames], cs[frames], counts[frames])
+    linked = np.zeros(frames.size, dtype=bool)
+    cols = np.zeros((frames.size, n), dtype=np.int64)
+    for _ in range(frames.size + 1):
+        states = _states(tracks, kin, frames, linked, cols, cand)
+        new_linked, new_cols, gap = _decide(tracks, kin, frames, states, cand, link_separation)
+        same = np.array_equal(new_linked, linked) and np.array_equal(
+            new_cols[new_linked], cols[new_linked]
+        )
+        linked, cols = new_linked, new_cols
+        if same:
+            break
+    done = frames[linked]
+    tracks.x[done] = _chosen(cand, linked, cols, "x")
+    tracks.height[done] = _chosen(cand, linked, cols, "h")
+    tracks.position[done] = states.unwrapped
+    tracks.linked[done] = True
+    tracks.separated[done] = gap[linked] >= separation
+
+
+@dataclass(frozen=True)
+class _Candidates:
+    """The extrema of the frames that may be linked, padded to one width (NaN, sign 0)."""
+
+    x: np.ndarray
+    h: np.ndarray
+    sign: np.ndarray
+    count: np.ndarray
+
+
+@dataclass(frozen=True)
+class _States:
+    """What each candidate frame is predicted from (the last linked frame before it), and the
+    unwrapped positions of the linked frames."""
+
+    pred: np.ndarray
+    log_h: np.ndarray
+    tail: np.ndarray
+    unwrapped: np.ndarray
+
+
+def _chosen(cand: _Candidates, linked: np.ndarray, cols: np.ndarray, which: str) -> np.ndarray:
+    values = getattr(cand, which)[linked]
+    return np.take_along_axis(values, cols[linked], axis=1)
+
+
+def _states(
+    tracks: Tracks,
+    kin: _Kinematics,
+    frames: np.ndarray,
+    linked: np.ndarray,
+    cols: np.ndarray,
+    cand: _Candidates,
+) -> _States:
+    """The states the provisional decisions (``linked``, ``cols``) give: positions unwrapped by
+    the shortest arc from each prediction, the speed of the last consecutive pair."""
+    t, length = tracks.times, tracks.length
+    chain = np.concatenate([[0], frames[linked]])
+    xg = np.concatenate([tracks.x[:1], _chosen(cand, linked, cols, "x")])
+    hg = np.concatenate([tracks.height[:1], _chosen(cand, linked, cols, "h")])
+    tg = t[chain]
+    dt = np.diff(tg)[:, None]
+    start = kin.speeds(tracks.height[0])[None, :]
+    # Each linked frame's speed is that of the last consecutive pair at or before it (else the
+    # first frame's); the wrap of each step depends on the speed before it.
+    pair = np.concatenate([[0], np.where(np.diff(chain) == 1, np.arange(1, chain.size), 0)])
+    source = np.maximum.accumulate(pair)
+    speed = np.repeat(start, chain.size, axis=0)
+    unwrapped = xg.copy()
+    for _ in range(chain.size + 1):
+        wraps = np.round((xg[:-1] - xg[1:] + speed[:-1] * dt) / length)
+        unwrapped = xg + length * np.concatenate([np.zeros((1, xg.shape[1])), np.cumsum(wraps, 0)])
+        steps = np.concatenate([start, (unwrapped[1:] - unwrapped[:-1]) / dt])
+        new = steps[source]
+        if np.array_equal(new, speed, equal_nan=True):
+            break
+        speed = new
+    last = np.searchsorted(chain, frames) - 1
+    pred = unwrapped[last] + speed[last] * (t[frames] - tg[last])[:, None]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        log_h = np.log(np.abs(hg))[last]
+    return _States(pred, log_h, kin.tails(hg)[last], unwrapped[1:])
+
+
+def _decide(
+    tracks: Tracks,
+    kin: _Kinematics,
+    frames: np.ndarray,
+    states: _States,
+    cand: _Candidates,
+    link_separation: float,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Each candidate frame's match (``cols``), whether it links, and its smallest gap."""
+    length, half = tracks.length, 0.5 * tracks.length
+    sign = tracks.sign
+    with np.errstate(divide="ignore", invalid="ignore"):
+        r = np.abs(np.log(np.abs(cand.h))[:, None, :] - states.log_h[:, :, None])
+        d = (
+            np.abs((cand.x[:, None, :] - states.pred[:, :, None] + half) % length - half)
+            / states.tail[:, :, None]
+        )
+        cost = (r / HEIGHT_TOLERANCE) ** 2 + (d / POSITION_SCALE) ** 2
+    bad = (cand.sign[:, None, :] != sign[None, :, None]) | ~(r <= HEIGHT_GATE) | np.isnan(cost)
+    cost[bad] = _NO_MATCH
+    cols = np.argmin(cost, axis=2)
+    n = sign.size
+    if n > 1:
+        ordered = np.sort(cols, axis=1)
+        for row in np.flatnonzero(np.any(ordered[:, 1:] == ordered[:, :-1], axis=1)):
             # Two solitons prefer the same extremum: solve the assignment properly.
-            cols = linear_sum_assignment(np.array(cost))[1].tolist()
-        if any(cost[i][c] >= _NO_MATCH for i, c in enumerate(cols)):
-            continue
-        xf, hf = [cx[c] for c in cols], [ch[c] for c in cols]
-        gap = _min_ring_gap(xf, [kin.tail(h) for h in hf], length)
-        if gap < link_separation:
-            continue
-        new_x = [p + ((x - p + half) % length - half) for p, x in zip(pred, xf, strict=True)]
-        if last_frame == f - 1:
-            velocity = [(a - b) / dt for a, b in zip(new_x, last_x, strict=True)]
-        tracks.x[f], tracks.position[f], tracks.height[f] = xf, new_x, hf
-        tracks.linked[f], tracks.separated[f] = True, gap >= separation
-        last_x, last_t, last_h, last_frame = new_x, float(t[f]), hf, f
+            cols[row] = linear_sum_assignment(cost[row, :, : cand.count[row]])[1]
+    rows = np.arange(frames.size)[:, None]
+    ok = np.all(cost[rows, np.arange(n)[None, :], cols] < _NO_MATCH, axis=1)
+    xf = np.take_along_axis(cand.x, cols, axis=1)
+    hf = np.take_along_axis(cand.h, cols, axis=1)
+    gap = np.full(frames.size, np.inf)
+    if n > 1:
+        tails = kin.tails(hf)
+        for i, j in combinations(range(n), 2):
+            with np.errstate(invalid="ignore"):
+                apart = np.abs((xf[:, i] - xf[:, j] + half) % length - half) / np.maximum(
+                    tails[:, i], tails[:, j]
+                )
+            gap = np.fmin(gap, apart)
+    return ok & (gap >= link_separation), cols, gap
 
 
 @dataclass(frozen=True)
