@@ -1,6 +1,8 @@
 """``kdvsweep bench``: the core against bare FFTs and NumPy; ``--sweep``: the farm's throughput;
 ``--steps``: each fixed-step scheme's largest stable step (the constants of the step rule);
-``--scale``: the machinery (loader, farm, store, readers) on sweeps of 10^3 to 10^6 trivial runs."""
+``--scale``: the machinery (loader, farm, store, readers) on sweeps of 10^3 to 10^6 trivial runs;
+``--accuracy``: shifts of pair and triple sweeps at accuracy targets against the formula, with
+their error estimates and cost."""
 
 from __future__ import annotations
 
@@ -15,6 +17,7 @@ from .common import say
 if TYPE_CHECKING:
     from ..bench import Budget, Row
     from ..steplimits import Limit
+    from ..sweep.bench_accuracy import AccuracyBenchmark
     from ..sweep.bench_sweep import ScaleBenchmark, SweepBenchmark
 
 #: Options of the core benchmark and of the farm benchmark (``--sweep``); one may not take the
@@ -25,6 +28,8 @@ SWEEP_ONLY = ("runs", "numpy_runs", "growth", "keep")
 STEPS_ONLY = ("equations", "kappas", "fifth")
 #: Options of the machinery benchmark (``--scale``; it also takes --keep).
 SCALE_ONLY = ("scale_runs", "scale_loads")
+#: Options of the accuracy benchmark (``--accuracy``).
+ACCURACY_ONLY = ("targets", "workers")
 
 
 def _int_list(text: str) -> list[int]:
@@ -62,7 +67,8 @@ def register(sub: Any) -> None:
     p = sub.add_parser(
         "bench",
         help="core against bare FFTs and NumPy; --sweep: the farm's runs per hour; "
-        "--steps: each scheme's largest stable step; --scale: the machinery at 10^3-10^6 runs",
+        "--steps: each scheme's largest stable step; --scale: the machinery at 10^3-10^6 runs; "
+        "--accuracy: shifts at accuracy targets against the formula, with their error estimates",
         description="Benchmark of the Rust steppers against their FFT floor and plain NumPy; "
         "with --sweep, the throughput of the sweep farm on a reference sweep of KdV pair "
         "collisions.",
@@ -82,9 +88,16 @@ def register(sub: Any) -> None:
         "on sweeps of trivial runs",
     )
     p.add_argument(
+        "--accuracy",
+        action="store_true",
+        help="run KdV/mKdV pair and KdV triple sweeps at accuracy targets: each shift's error "
+        "against the formula, its error estimate, and the cost against hand-picked settings",
+    )
+    p.add_argument(
         "--quick",
         action="store_true",
-        help="fewer and shorter timings (rougher figures); --steps: n = 256, 512 and kappa = 1",
+        help="fewer and shorter timings (rougher figures); --steps: n = 256, 512 and kappa = 1; "
+        "--accuracy: fewer runs",
     )
     core = p.add_argument_group("steppers (without --sweep)")
     core.add_argument(
@@ -170,11 +183,22 @@ def register(sub: Any) -> None:
         help=f"sizes to load only (default {','.join(map(str, SCALE_LOADS))}; "
         f"{','.join(map(str, QUICK_SCALE_LOADS))} with --quick; e.g. 100000,1000000)",
     )
+    accuracy = p.add_argument_group("accuracy (with --accuracy)")
+    accuracy.add_argument(
+        "--targets",
+        type=_float_list,
+        default=None,
+        metavar="LIST",
+        help="accuracy targets (relative shift errors), comma separated (default 1e-5,1e-7)",
+    )
+    accuracy.add_argument(
+        "--workers", type=int, default=None, metavar="N", help="farm workers (default 2)"
+    )
     p.set_defaults(handler=_bench)
 
 
 def _bench(args: argparse.Namespace) -> int:
-    modes = [name for name in ("sweep", "steps", "scale") if getattr(args, name)]
+    modes = [name for name in ("sweep", "steps", "scale", "accuracy") if getattr(args, name)]
     if len(modes) > 1:
         say(f"error: --{modes[0]} and --{modes[1]} are different benchmarks; give one", "bench")
         return 2
@@ -184,14 +208,22 @@ def _bench(args: argparse.Namespace) -> int:
     home |= dict.fromkeys(STEPS_ONLY, "the step limits (--steps)")
     home |= dict.fromkeys(SCALE_ONLY, "the machinery benchmark (--scale)")
     home["keep"] = "the farm and machinery benchmarks (--sweep, --scale)"
+    home |= dict.fromkeys(ACCURACY_ONLY, "the accuracy benchmark (--accuracy)")
     if args.sweep:
-        refused: tuple[str, ...] = (*CORE_ONLY, *STEPS_ONLY, *SCALE_ONLY)
+        refused: tuple[str, ...] = (*CORE_ONLY, *STEPS_ONLY, *SCALE_ONLY, *ACCURACY_ONLY)
     elif args.steps:
-        refused = (*SWEEP_ONLY, *SCALE_ONLY, "strict")
+        refused = (*SWEEP_ONLY, *SCALE_ONLY, *ACCURACY_ONLY, "strict")
     elif args.scale:
-        refused = (*CORE_ONLY, *STEPS_ONLY, *(o for o in SWEEP_ONLY if o != "keep"))
+        refused = (
+            *CORE_ONLY,
+            *STEPS_ONLY,
+            *ACCURACY_ONLY,
+            *(o for o in SWEEP_ONLY if o != "keep"),
+        )
+    elif args.accuracy:
+        refused = (*SWEEP_ONLY, *STEPS_ONLY, *SCALE_ONLY, *(o for o in CORE_ONLY if o != "strict"))
     else:
-        refused = (*SWEEP_ONLY, *STEPS_ONLY, *SCALE_ONLY)
+        refused = (*SWEEP_ONLY, *STEPS_ONLY, *SCALE_ONLY, *ACCURACY_ONLY)
     wrong = [name for name in refused if _given(args, name)]
     if wrong:
         option = "--" + wrong[0].replace("_", "-")
@@ -201,6 +233,8 @@ def _bench(args: argparse.Namespace) -> int:
         return _steps(args)
     if args.scale:
         return _scale(args)
+    if args.accuracy:
+        return _accuracy(args)
     return _sweep(args) if args.sweep else _steppers(args)
 
 
@@ -539,3 +573,81 @@ def format_scale(b: ScaleBenchmark) -> str:
 
 
 __all__ = ["format_limits", "format_rows", "format_scale", "format_sweep", "register"]
+
+
+# --- accuracy ------------------------------------------------------------------------------------
+
+
+def _accuracy(args: argparse.Namespace) -> int:
+    from ..sweep import bench_accuracy as ba
+
+    targets = tuple(args.targets) if args.targets is not None else ba.TARGETS
+    workers = args.workers if args.workers is not None else 2
+    if workers < 1:
+        say(f"error: --workers {workers}: expected at least 1", "bench")
+        return 2
+    options: dict[str, Any] = {}
+    if args.quick:
+        options = {"pair_k2": ba.QUICK_PAIR_K2, "triple_k": ba.QUICK_TRIPLE_K}
+    try:
+        result = ba.measure(
+            targets, workers=workers, on_message=lambda m: say(m, "bench"), **options
+        )
+    except ValueError as exc:
+        say(f"error: {exc}", "bench")
+        return 2
+    print(format_accuracy(result, targets))
+    if args.strict and not all(_accuracy_met(result, t) for t in targets):
+        return 1
+    return 0
+
+
+def _accuracy_met(result: AccuracyBenchmark, target: float) -> bool:
+    """Every shift reported and within the target, 90 % bracketed, none understated more than 3x,
+    cost at most the hand-picked settings' (the accuracy issue's demands)."""
+    s = result.summary(target)
+    return (
+        not result.failures
+        and s["within"] == s["shifts"]
+        and s["bracketed"] >= 0.9
+        and s["max_understatement"] <= 3.0
+        and s["cost_ratio"] <= 1.0
+    )
+
+
+def format_accuracy(result: AccuracyBenchmark, targets: Sequence[float]) -> str:
+    """The accuracy benchmark's table and summary."""
+    lines = [
+        f"{'sweep':<7} {'target':>6} {'run':>3} {'equation, kappas':<30} {'n':>5} {'dt':>9} "
+        f"{'sol':>3} {'error':>9} {'estimate':>9} {'brackets':>8}"
+    ]
+    for c in result.checks:
+        error = f"{c.error:9.2e}" if c.reported else f"{'unrep.':>9}"
+        mark = ("yes" if c.brackets else "NO") if c.reported else "-"
+        lines.append(
+            f"{c.sweep:<7} {c.target:>6.0e} {c.run_id:>3} {c.label:<30} {c.n:>5} {c.dt:>9.3g} "
+            f"{c.soliton:>3} {error} {c.estimate:>9.2e} {mark:>8}"
+        )
+    lines.append("")
+    for target in targets:
+        s = result.summary(target)
+        parts = [
+            f"target {target:g}: {int(s['within'])}/{int(s['shifts'])} shifts within the target "
+            f"({int(s['reported'])} reported), largest error {s['max_error']:.2e}",
+            f"estimates bracket {100 * s['bracketed']:.0f} %, largest understatement "
+            f"{s['max_understatement']:.2f}x",
+        ]
+        for sweep in sorted({c.sweep for c in result.checks if c.target == target}):
+            cost = result.costs.get((sweep, target), math.nan)
+            hand = result.hand_costs.get(sweep, math.nan)
+            verified = result.verified_costs.get((sweep, target), math.nan)
+            parts.append(
+                f"{sweep}: cost {cost:.3g} = {cost / hand:.2f} x hand-picked ({hand:.3g}); "
+                f"with the verification re-runs {verified / hand:.2f} x"
+            )
+        parts.append(f"all: cost {s['cost_ratio']:.2f} x hand-picked")
+        lines.append("; ".join(parts[:2]))
+        lines += ["  " + p for p in parts[2:]]
+    for failure in result.failures:
+        lines.append(f"failed: {failure}")
+    return "\n".join(lines)

@@ -10,7 +10,10 @@ from __future__ import annotations
 import hashlib
 import math
 from collections.abc import Iterable, Mapping, Sequence
-from typing import Any
+from typing import TYPE_CHECKING, Any
+
+if TYPE_CHECKING:
+    from ..model import Equation
 
 #: Default ``accuracy.verify``: no run is re-run.
 DEFAULT_VERIFY = 0.0
@@ -61,6 +64,29 @@ DEFAULT_AUTO_TARGET = 1e-6
 #: fit uncertainty of the slow soliton at 1.3e-5, above the target (so the shift was not
 #: reported); with three (n = 256) the uncertainty is 2.6e-7 (2026-12-02).
 EXTRA_DECADES = 3.0
+
+
+#: ``sizing.tail`` with a target: at most this fraction of the target. Solitons given one by one
+#: (``kind = "solitons"``) start as a sum of single solitons, which differs from the N-soliton
+#: of the same kappas by the tails' overlap: relative ``tail`` near each soliton (the leading
+#: term of the tau function's expansion, as in :mod:`kdvsweep.analysis.fits`). That changes the
+#: kappas by about ``tail`` (the fast soliton of the mKdV pair kappa = (1, 0.7): 4.6e-8 at
+#: tail 1e-8, 3.7e-10 at 1e-10) and sends radiation of that relative height through which the
+#: peaks move (position scatter 9e-9 at 1e-8, 4e-10 at 1e-10). Neither is seen by the re-runs
+#: at ``dt / 2`` or ``2 n`` (same initial data). The shift error follows through the formula's
+#: sensitivity to the kappas (:func:`kappa_errors`): the slow soliton of that pair was 7.8e-8 off
+#: at tail 1e-8 and 6.6e-10 at 1e-10 (2026-12-02), so a hundredth of the target keeps it to a
+#: few per cent of the target.
+TAIL_FRACTION = 0.01
+
+
+def auto_tail(target: float | None, tail: float) -> float:
+    """The ``sizing.tail`` of a run with an accuracy ``target``: ``min(tail, TAIL_FRACTION *
+    target)`` (:data:`TAIL_FRACTION`); ``tail`` as given without a target. For the loader's
+    automatic positions, end and length of soliton runs."""
+    if target is None:
+        return tail
+    return min(tail, TAIL_FRACTION * target)
 
 
 def richardson_factor(order: int) -> float:
@@ -143,15 +169,83 @@ def error_estimates(
 ANALYSIS_ERROR = {"shift": "shift_uncertainty"}
 
 
+def _collision_counts(
+    rows: Sequence[Mapping[str, Any]], kappas: Sequence[float], equation: Equation
+) -> Any:
+    """The ``(N, N)`` collision counts behind the rows' ``shift_predicted``: every pair once,
+    or what the rows' ``collisions`` give for two or three solitons (``n_i = sum_j C_ij``
+    solves for ``C`` then); ``None`` when none of these reproduces the predictions."""
+    import numpy as np
+
+    from .. import theory
+
+    n = len(rows)
+    predicted = np.array([_number(r.get("shift_predicted")) for r in rows])
+    candidates = [np.ones((n, n)) - np.eye(n)]
+    counts = [_number(r.get("collisions")) for r in rows]
+    if n == 2:
+        candidates.append(np.array([[0.0, counts[0]], [counts[0], 0.0]]))
+    elif n == 3:
+        c01 = 0.5 * (counts[0] + counts[1] - counts[2])
+        c02 = 0.5 * (counts[0] + counts[2] - counts[1])
+        c12 = 0.5 * (counts[1] + counts[2] - counts[0])
+        candidates.append(np.array([[0, c01, c02], [c01, 0, c12], [c02, c12, 0]], dtype=float))
+    for cand in candidates:
+        if not (np.all(np.isfinite(cand)) and np.all(cand >= 0)):
+            continue
+        shifts = theory.phase_shifts(kappas, equation, cand)
+        if np.allclose(shifts, predicted, rtol=1e-9, atol=1e-12):
+            return cand
+    return None
+
+
+def kappa_errors(rows: Sequence[Mapping[str, Any]], equation: Equation) -> list[float]:
+    """How far each ``shift_predicted`` is from the formula at the kappas the solitons have: the
+    sum over ``j`` of ``|Delta_i(kappa with kappa_j measured) - Delta_i(kappa as given)|`` (the
+    pair formula, Gardner et al. 1974, :func:`kdvsweep.theory.phase_shifts`; ``kappa_measured``
+    from the asymptotic speed). A sum of single solitons starts with kappas slightly off the
+    given ones (:data:`TAIL_FRACTION`); the re-runs share the initial data, so only this sees
+    it. Zero for a perturbed equation (its shift is not the formula's) and where a kappa or the
+    collision counts are not known."""
+    import numpy as np
+
+    from .. import theory
+
+    zero = [0.0] * len(rows)
+    if equation.perturbed or not rows:
+        return zero
+    given = np.array([_number(r.get("kappa")) for r in rows])
+    measured = np.array([_number(r.get("kappa_measured")) for r in rows])
+    if not (np.all(np.isfinite(given)) and np.all(np.isfinite(measured))):
+        return zero
+    if np.unique(measured).size != measured.size or np.any(measured <= 0):
+        return zero
+    counts = _collision_counts(rows, list(given), equation)
+    if counts is None:
+        return zero
+    base = theory.phase_shifts(given, equation, counts)
+    total = np.zeros(len(rows))
+    for j in range(len(rows)):
+        moved = given.copy()
+        moved[j] = measured[j]
+        if np.unique(moved).size != moved.size:
+            continue
+        total += np.abs(theory.phase_shifts(moved, equation, counts) - base)
+    return [float(v) for v in total]
+
+
 def total_estimates(
     rows: Sequence[Mapping[str, Any]],
     parts: Sequence[Sequence[Mapping[str, float]]],
+    equation: Equation | None = None,
 ) -> list[dict[str, float]]:
     """Each soliton's ``<name>_error_estimate``: the sum of the discretisation ``parts``
-    (:func:`error_estimates` against the run at ``dt / 2`` and against the run on ``2 n`` points)
-    and of the analysis's own error (:data:`ANALYSIS_ERROR`, where the row has it). Errors from
-    the step, the grid and the fit are independent and may have either sign; their magnitudes
-    add (a bound, not a standard deviation)."""
+    (:func:`error_estimates` against the run at ``dt / 2`` and against the run on ``2 n`` points),
+    of the analysis's own error (:data:`ANALYSIS_ERROR`, where the row has it) and, for shifts
+    with an ``equation``, of the initial kappas' error (:func:`kappa_errors`). Errors from the
+    step, the grid, the fit and the initial data are independent and may have either sign; their
+    magnitudes add (a bound, not a standard deviation)."""
+    initial = kappa_errors(rows, equation) if equation is not None else [0.0] * len(rows)
     out = []
     for i, row in enumerate(rows):
         est: dict[str, float] = {}
@@ -162,6 +256,8 @@ def total_estimates(
             if column is not None:
                 analysis = _number(row.get(column))
                 total += analysis if math.isfinite(analysis) else 0.0
+            if name == "shift":
+                total += initial[i]
             est[key] = float(total)
         out.append(est)
     return out
@@ -196,20 +292,23 @@ def _number(value: object) -> float:
 
 
 __all__ = [
+    "ANALYSIS_ERROR",
     "DEFAULT_AUTO_TARGET",
     "DEFAULT_SEED",
     "DEFAULT_VERIFY",
     "ERROR_CONSTANT",
     "ESTIMATED",
     "EXTRA_DECADES",
-    "ANALYSIS_ERROR",
     "SCHEME_ORDER",
+    "TAIL_FRACTION",
     "TIME_SHARE",
     "VERIFY_COST",
     "accuracy_met",
     "auto_decades",
     "auto_dt",
+    "auto_tail",
     "error_estimates",
+    "kappa_errors",
     "richardson_factor",
     "soliton_rate",
     "total_estimates",

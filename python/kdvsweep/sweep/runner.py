@@ -838,7 +838,8 @@ def _verify(
     soliton's ``*_error_estimate`` is the Richardson factor of the scheme's order times the
     difference from the half-step run plus the difference from the finer grid (spectral
     convergence: the finer grid's own error is far smaller) plus the analysis's own error (the
-    fit's ``shift_uncertainty``: :func:`kdvsweep.sweep.accuracy.total_estimates`), and
+    fit's ``shift_uncertainty``) plus the initial kappas' error (the formula at the measured
+    kappas: :func:`kdvsweep.sweep.accuracy.total_estimates`), and
     ``accuracy_met`` is checked
     against the target (:mod:`kdvsweep.sweep.accuracy`). The adaptive scheme is not verified (no
     fixed step to halve); a note in ``reason`` says so, or why a re-run gave nothing."""
@@ -862,7 +863,7 @@ def _verify(
             row["reason"] = _join(str(row.get("reason") or ""), note)
             return
         parts.append(acc.error_estimates(solitons, again.soliton_rows, factor_order))
-    estimates = acc.total_estimates(solitons, parts)
+    estimates = acc.total_estimates(solitons, parts, model.equation)
     for soliton, est in zip(solitons, estimates, strict=True):
         soliton.update(est)
     if spec.run.accuracy is not None:

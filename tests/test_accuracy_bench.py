@@ -1,0 +1,127 @@
+"""The accuracy benchmark (``kdvsweep bench --accuracy``) on one small sweep: its figures are
+consistent.
+
+No timing is asserted (speed is the benchmark's job). The error of each shift is against the pair
+formula (Gardner, Greene, Kruskal & Miura 1974, :func:`kdvsweep.theory.phase_shifts`), computed
+here again; the hand-picked settings it costs against are the demo's (the same runs of
+``data/demo.toml``).
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import pytest
+
+from kdvsweep import cli, theory
+from kdvsweep.cli.bench import format_accuracy
+from kdvsweep.sweep import accuracy as acc
+from kdvsweep.sweep.bench_accuracy import (
+    AccuracyBenchmark,
+    ShiftCheck,
+    measure,
+    sweep_cost,
+    sweep_text,
+)
+from kdvsweep.sweep.config import load_sweep
+from kdvsweep.sweep.plan import fixed_steps
+
+DEMO = Path(__file__).resolve().parents[1] / "python" / "kdvsweep" / "data" / "demo.toml"
+
+
+def test_hand_picked_pairs_are_the_demo_runs(tmp_path: Path) -> None:
+    # the reference of the cost: the demo's own settings for the same equations and k2
+    path = tmp_path / "hand.toml"
+    path.write_text(sweep_text("pairs", None, pair_k2=(0.3, 0.7)))
+    hand = load_sweep(path).runs
+    demo = [s for s in load_sweep(DEMO).runs if s.params["k2"] in (0.3, 0.7)]
+    key = lambda s: (s.model.equation.name, s.params["polarity"], s.params["k2"])  # noqa: E731
+    assert sorted(map(key, hand)) == sorted(map(key, demo))
+    by_key = {key(s): s for s in demo}
+    for spec in hand:
+        other = by_key[key(spec)]
+        assert spec.model.dt == other.model.dt
+        assert spec.model.grid == other.model.grid
+        assert spec.run.t_end == other.run.t_end
+    total = sum(
+        fixed_steps(s.run.record_times, s.model.dt) * s.model.grid.n * math.log2(s.model.grid.n)
+        for s in demo
+    )
+    assert sweep_cost(sweep_text("pairs", None, pair_k2=(0.3, 0.7)), tmp_path) == total
+
+
+def test_target_sweeps_are_automatic_and_verified(tmp_path: Path) -> None:
+    for kind in ("pairs", "triple"):
+        path = tmp_path / f"{kind}.toml"
+        path.write_text(sweep_text(kind, 1e-7))
+        specs = load_sweep(path).runs
+        assert specs
+        for spec in specs:
+            assert spec.run.accuracy == 1e-7
+            assert spec.run.verify
+            assert "dt" not in spec.params  # the step is the automatic one, not a swept value
+    assert "tail = 1e-09" in sweep_text("pairs", 1e-7)  # accuracy.auto_tail
+    assert acc.auto_tail(1e-7, 1e-8) == pytest.approx(1e-9)
+    with pytest.raises(ValueError, match="unknown sweep 'quad'"):
+        sweep_text("quad", 1e-5)
+
+
+def _check(error: float, estimate: float, target: float = 1e-5) -> ShiftCheck:
+    return ShiftCheck(
+        "pairs", target, 0, "kdv", "", 256, 1e-3, 10.0, 1.0, 0, 1.0, 1.0, error, estimate
+    )
+
+
+def test_summary_counts_brackets_and_understatement() -> None:
+    b = AccuracyBenchmark(
+        checks=[_check(1e-6, 2e-6), _check(3e-6, 1e-6), _check(math.nan, 1e-6)],
+        costs={("pairs", 1e-5): 5.0},
+        verified_costs={("pairs", 1e-5): 20.0},
+        hand_costs={"pairs": 10.0},
+    )
+    s = b.summary(1e-5)
+    assert s["shifts"] == 3
+    assert s["reported"] == 2
+    assert s["within"] == 2
+    assert s["max_error"] == 3e-6
+    assert s["bracketed"] == 0.5
+    assert s["max_understatement"] == pytest.approx(3.0)
+    assert s["cost_ratio"] == 0.5
+    text = format_accuracy(b, [1e-5])
+    assert "unrep." in text
+    assert "NO" in text
+    assert "0.50 x hand-picked" in text
+
+
+@pytest.fixture(scope="module")
+def small() -> AccuracyBenchmark:
+    return measure(targets=(1e-4,), sweeps=("pairs",), workers=1, pair_k2=(0.6,))
+
+
+def test_small_benchmark_checks_each_shift_against_the_formula(small: AccuracyBenchmark) -> None:
+    assert not small.failures
+    assert len(small.checks) == 6  # three equations, two solitons
+    for c in small.checks:
+        kappas = [1.0, 0.6]
+        predicted = theory.phase_shifts(kappas, "kdv")[c.soliton]  # the same for mKdV (in kappa)
+        assert c.predicted == pytest.approx(predicted, rel=1e-12)
+        assert c.reported
+        assert c.error <= 1e-4
+        assert c.error <= 3 * c.estimate
+    s = small.summary(1e-4)
+    assert s["within"] == 6
+    assert 0 < s["cost_ratio"] < 1
+    assert small.verified_costs[("pairs", 1e-4)] > small.costs[("pairs", 1e-4)]
+    kdv = [c for c in small.checks if c.label.startswith("kdv")]
+    assert {c.regimes for c in kdv} == {theory.interaction_regime(1.0, 0.6)}
+
+
+def test_options_of_other_benchmarks_are_refused(capsys: pytest.CaptureFixture[str]) -> None:
+    assert cli.main(["bench", "--targets", "1e-5"]) == 2
+    assert (
+        "--targets applies to the accuracy benchmark (--accuracy) only" in capsys.readouterr().err
+    )
+    assert cli.main(["bench", "--accuracy", "--runs", "4"]) == 2
+    assert cli.main(["bench", "--accuracy", "--sweep"]) == 2
+    assert cli.main(["bench", "--accuracy", "--workers", "0"]) == 2
