@@ -70,8 +70,9 @@ class RunAnalysis:
 
     Attributes
     ----------
-    table
-        One row per soliton (columns ``TABLE_COLUMNS``), numbered left to right at the first frame.
+    rows
+        One dict per soliton (keys ``TABLE_COLUMNS``), numbered left to right at the first frame;
+        :attr:`table` is their table (built on first use), :meth:`records` their plain values.
     summary
         Per-run values: ``analysis_status``, ``analysis_reason``, ``n_solitons``, ``regime``,
         ``amplitude_ratio``, ``peaks_at_closest``, ``min_peaks``, ``t_closest``,
@@ -87,12 +88,26 @@ class RunAnalysis:
         and ``frames_after`` of ``table``).
     """
 
-    table: pd.DataFrame
+    rows: list[dict[str, Any]]
     summary: dict[str, Any]
     tracks: Tracks
     fits: list[AsymptoticFit] = field(default_factory=list)
     before: np.ndarray | None = None
     after: np.ndarray | None = None
+    _table: pd.DataFrame | None = field(default=None, init=False, repr=False, compare=False)
+
+    @property
+    def table(self) -> pd.DataFrame:
+        """One row per soliton (columns ``TABLE_COLUMNS``), numbered left to right at the first
+        frame."""
+        if self._table is None:
+            self._table = _frame(self.rows)
+        return self._table
+
+    def records(self) -> list[dict[str, Any]]:
+        """The rows of :attr:`table` as dicts of plain Python values (what ``to_dict("records")``
+        of the table gives), without building the table (see :func:`_records`)."""
+        return _records(self.rows)
 
     @property
     def ok(self) -> bool:
@@ -459,7 +474,7 @@ def analyse_run(
     rows = _empty_rows(tracks, given, eq)
     if tracks.reason:
         summary.update(analysis_status="failed", analysis_reason=tracks.reason)
-        return RunAnalysis(_frame(rows), summary, tracks)
+        return RunAnalysis(rows, summary, tracks)
     before, after, counts, status, reason = _windows(tracks)
     summary.update(
         analysis_status=status,
@@ -469,7 +484,7 @@ def analyse_run(
     )
     _fill_speeds(rows, tracks, before | after, eq)
     if status != "ok":
-        return RunAnalysis(_frame(rows), summary, tracks, [], before, after)
+        return RunAnalysis(rows, summary, tracks, [], before, after)
     windows = _soliton_windows(tracks, before, after)
     short = _short_windows(windows, separation)
     summary.update(
@@ -478,7 +493,7 @@ def analyse_run(
     )
     if short:
         summary.update(analysis_status="too_short", analysis_reason=short)
-        return RunAnalysis(_frame(rows), summary, tracks, [], before, after)
+        return RunAnalysis(rows, summary, tracks, [], before, after)
     heights = np.array([row["kappa_from_height"] for row in rows], dtype=np.float64)
     fits = fit_windows(
         t, tracks.position, windows, heights if given is None else given, grid.length
@@ -527,7 +542,7 @@ def analyse_run(
     notes += [note] if note else []
     if notes:
         summary["analysis_reason"] = "; ".join(dict.fromkeys(notes))
-    return RunAnalysis(_frame(rows), summary, tracks, fits, before, after)
+    return RunAnalysis(rows, summary, tracks, fits, before, after)
 
 
 def _usable(
@@ -802,6 +817,29 @@ def _pair_summary(
 
 
 _INT_COLUMNS = ("soliton", "sign", "collisions", "frames_before", "frames_after")
+
+
+def _records(rows: list[dict[str, Any]]) -> list[dict[str, Any]]:
+    """``rows`` with the types of :func:`_frame`'s columns, as plain Python values: the integer
+    columns as ``int``; a column of numbers as ``float`` unless all are integers; NumPy scalars
+    as Python ones."""
+    columns: dict[str, list[Any]] = {}
+    for name in TABLE_COLUMNS:
+        values = [_plain(row.get(name, math.nan)) for row in rows]
+        if name in _INT_COLUMNS:
+            values = [int(v) for v in values]
+        elif _numbers(values) and not all(isinstance(v, int) for v in values):
+            values = [float(v) for v in values]
+        columns[name] = values
+    return [{name: columns[name][i] for name in TABLE_COLUMNS} for i in range(len(rows))]
+
+
+def _numbers(values: list[Any]) -> bool:
+    return all(isinstance(v, int | float) and not isinstance(v, bool) for v in values)
+
+
+def _plain(value: Any) -> Any:
+    return value.item() if isinstance(value, np.generic) else value
 
 
 def _frame(rows: list[dict[str, Any]]) -> pd.DataFrame:

@@ -452,7 +452,8 @@ def format_sweep(b: SweepBenchmark) -> str:
         f"cluster start-up (not counted above): 1 worker {b.startups[1]:.1f} s, "
         f"2 workers {b.startups[2]:.1f} s",
         f"serial run time: stepping {100 * b.serial_step_share:.0f}%, "
-        f"analysis {100 * b.serial_analysis_share:.0f}%; NumPy runs: "
+        f"analysis {100 * b.serial_analysis_share:.0f}% "
+        f"(analysis/stepping {100 * b.serial_analysis_per_step:.0f}%); NumPy runs: "
         f"stepping {100 * b.numpy_step_share:.0f}%",
     ]
     if b.failed_serial:

@@ -257,6 +257,7 @@ class SweepBenchmark:
     startups: dict[int, float] = field(default_factory=dict)  # workers -> cluster start-up, s
     serial_step_share: float = math.nan  # of serial run wall time: stepping
     serial_analysis_share: float = math.nan  # of serial run wall time: analysis
+    serial_analysis_per_step: float = math.nan  # serial runs: analysis time / stepping time
     numpy_step_share: float = math.nan
     failed_serial: list[int] = field(default_factory=list)
     growth: list[GrowthRow] = field(default_factory=list)
@@ -319,6 +320,7 @@ def _bench(
     share = {k: sum(r[k] for r in serial) for k in ("step_time", "analysis_time", "wall_time")}
     out.serial_step_share = share["step_time"] / share["wall_time"]
     out.serial_analysis_share = share["analysis_time"] / share["wall_time"]
+    out.serial_analysis_per_step = share["analysis_time"] / share["step_time"]
 
     # 2. NumPy reference on a 2-process pool
     stage("NumPy baseline")

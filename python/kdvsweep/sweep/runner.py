@@ -377,13 +377,10 @@ def _collision_rows(
         rows = _input_soliton_rows(spec, equation)
         note = _end_values(rows, found.tracks, times, equation)
         return rows, {**extra, "reason": _join(reason, note)}
-    # Column by column (``tolist`` gives Python scalars): half the cost of ``to_dict("records")``.
-    table = found.table
-    columns = {str(k): table[k].tolist() for k in table.columns if k != "run_id"}
     rows = []
-    for i in range(len(table)):
+    for rec in found.records():  # the table's rows without building the table (pandas)
         row: dict[str, Any] = {"run_id": int(spec.run_id)}
-        row.update({k: _plain(v[i]) for k, v in columns.items()})
+        row.update({str(k): v for k, v in rec.items() if k != "run_id"})
         rows.append(row)
     if len(rows) == len(solitons):  # numbered left to right at the start, as the input
         for row, given in zip(rows, solitons, strict=True):
