@@ -45,13 +45,14 @@ _CACHE_BLOCK = 128
 _BLOCK = 2048
 #: Highest derivative of the interpolant in the Taylor polynomial about each start point. With the
 #: parabola's vertex as start (at most 0.13 grid steps from the extremum on the records of the
-#: benchmark sweep, 0.005 on the demo's finer grids), 6 settles all but 4 of the 757 extrema of a
-#: benchmark record within the remainder bound (8 settles all; the rest take the safeguarded
-#: iteration), with positions within 3e-14 of that iteration's (our measurement, 2026-12-02).
-TAYLOR_ORDER = 6
+#: benchmark sweep, 0.005 on the demo's finer grids), 8 settles every extremum of a benchmark
+#: record within the remainder bound (6 leaves 4 of 757 to the safeguarded iteration, which costs
+#: more than the two orders), with positions within 3e-14 of that iteration's (our measurement,
+#: 2026-12-02).
+TAYLOR_ORDER = 8
 # Accepted when the remainder bound moves the position by less than this many units of the
 # period (the safeguarded iteration stops at steps of 1e-13 L) and the height by less than this
-# fraction of the spectrum's size.
+# fraction of the interpolant's value at the start.
 _TAYLOR_TOL = 1e-15
 
 
@@ -262,10 +263,13 @@ def _refine(
     return x
 
 
-def _vertex(v: np.ndarray, frame: np.ndarray, j: np.ndarray, dx: float) -> np.ndarray:
-    """Offset of the parabola through three samples around each discrete maximum (a start)."""
-    n = v.shape[1]
-    a, b, c = v[frame, (j - 1) % n], v[frame, j], v[frame, (j + 1) % n]
+def _vertex(
+    u: np.ndarray, frame: np.ndarray, j: np.ndarray, dx: float, sign: int = 1
+) -> np.ndarray:
+    """Offset of the parabola through three samples around each discrete maximum of ``sign * u``
+    (a start)."""
+    n = u.shape[1]
+    a, b, c = (sign * u[frame, i] for i in ((j - 1) % n, j, (j + 1) % n))
     den = a - 2.0 * b + c
     with np.errstate(divide="ignore", invalid="ignore"):
         off = np.where(den < 0, 0.5 * (a - c) / den, 0.0)
@@ -276,14 +280,14 @@ def _candidates(u: np.ndarray, threshold: float, sign: int) -> tuple[np.ndarray,
     """(frame, index) of the discrete maxima of ``sign * u`` above ``threshold`` (periodic), in
     row-major order; only the samples above the threshold are compared with their neighbours."""
     n = u.shape[1]
-    flat = (u if sign == 1 else -u).ravel()
-    at = np.flatnonzero(flat > threshold)
+    flat = u.ravel()
+    at = np.flatnonzero(flat > threshold if sign == 1 else flat < -threshold)
     cols = at % n
     left, right = at - 1, at + 1
     left[cols == 0] += n
     right[cols == n - 1] -= n
-    value = flat[at]
-    at = at[(value >= flat[left]) & (value > flat[right])]
+    value = sign * flat[at]
+    at = at[(value >= sign * flat[left]) & (value > sign * flat[right])]
     return at // n, at % n
 
 
@@ -334,7 +338,7 @@ def _taylor_refine(
     with np.errstate(divide="ignore", invalid="ignore"):
         moved = size * reach**q * inv[q] / np.abs(curvature)
     lifted = size * reach ** (q + 1) * inv[q + 1]
-    ok &= (moved <= tol) & (lifted <= _TAYLOR_TOL * interp.size(0)[frame])
+    ok &= (moved <= tol) & (lifted <= _TAYLOR_TOL * np.abs(d[0]))
     return start + delta, sign * poly(0, delta), ok
 
 
@@ -435,7 +439,7 @@ def peak_record(
     )
     grid0 = -0.5 * length + dx * j
     start = grid0 + np.concatenate(
-        [_vertex(s * u, f, jj, dx) for (f, jj), s in zip(found, signs, strict=True)]
+        [_vertex(u, f, jj, dx, s) for (f, jj), s in zip(found, signs, strict=True)]
     )
     x = np.empty(frame.size)
     height = np.empty(frame.size)
