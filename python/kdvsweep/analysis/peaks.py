@@ -133,20 +133,20 @@ class Interpolant:
         shape ``(order + 1, len(x))``, from one pass over the modes."""
         frame = np.asarray(frame, dtype=np.int64)
         theta = np.asarray(x, dtype=np.float64) + 0.5 * self.length
-        powers = self._k_padded[None, :] ** np.arange(order + 1)[:, None]
+        # p^(r) = Re sum (i k)^r z = s_r sum k^r Re z (r even) or s_r sum k^r Im z (r odd), with
+        # s_r the sign of i^r: two real products, of the real and of the imaginary parts.
         signs = np.array([(1.0, -1.0, -1.0, 1.0)[r % 4] for r in range(order + 1)])
+        weights = self._k_padded[:, None] ** np.arange(order + 1)[None, :] * signs
         out = np.empty((order + 1, theta.size))
-        # In blocks of points whose work arrays stay in a core's cache.
+        # In blocks of points whose work arrays stay in a core's cache, and whose products are
+        # small enough for a single-threaded BLAS call (a threaded one was erratic on a loaded
+        # machine).
         for b in range(0, theta.size, _CACHE_BLOCK):
             sl = slice(b, b + _CACHE_BLOCK)
             z = _phasors(theta[sl], self.k[1], self._padded.shape[1])
             z *= self._padded[frame[sl]]
-            # p^(r) = Re sum (i k)^r z: k^r times the real part (r even) or the imaginary part
-            # (odd), with the sign of i^r. Contiguous copies and einsum's own loop (no BLAS: a
-            # threaded product was erratic on a loaded machine).
-            parts = (np.ascontiguousarray(z.real), np.ascontiguousarray(z.imag))
-            for r in range(order + 1):
-                out[r, sl] = signs[r] * np.einsum("pm,m->p", parts[r % 2], powers[r])
+            out[0::2, sl] = (np.ascontiguousarray(z.real) @ weights[:, 0::2]).T
+            out[1::2, sl] = (np.ascontiguousarray(z.imag) @ weights[:, 1::2]).T
         return out
 
     def derivatives(
