@@ -98,34 +98,44 @@ class Interpolant:
         self.n = n
         self.length = float(length)
         modes = n // 2 + 1
-        # The coefficients are kept padded with zero modes to whole blocks of the phasor tables
-        # (_phasors); the transform is written into them.
-        self._padded = np.empty((u.shape[0], -(-modes // _PHASOR_BLOCK) * _PHASOR_BLOCK), complex)
-        self._padded[:, modes:] = 0.0
-        spec = self._padded[:, :modes]
+        # The transform, padded with zero modes to whole blocks of the phasor tables (_phasors).
+        padded = -(-modes // _PHASOR_BLOCK) * _PHASOR_BLOCK
+        self._spec = np.empty((u.shape[0], padded), complex)
+        self._spec[:, modes:] = 0.0
+        spec = self._spec[:, :modes]
         if _RFFT_OUT:
             np.fft.rfft(u, axis=1, out=spec)
         else:
             spec[...] = np.fft.rfft(u, axis=1)
-        # p(x) = Re sum_m w_m U_m exp(i k_m (x + L/2)); the Nyquist mode enters as a cosine.
-        weights = np.full(modes, 2.0 / n)
-        weights[0] = 1.0 / n
-        weights[-1] = 1.0 / n
+        # p(x) = Re sum_m w_m U_m exp(i k_m (x + L/2)); the Nyquist mode enters as a cosine. The
+        # weights w_m are applied in the sums (Interpolant.taylor), not to the spectrum.
+        self._weights = np.zeros(padded)
+        self._weights[:modes] = 2.0 / n
+        self._weights[0] = 1.0 / n
+        self._weights[modes - 1] = 1.0 / n
         self.k = 2.0 * np.pi / self.length * np.arange(modes)
         if denoise:
             _drop_noise_band(spec)
-        spec *= weights
-        self.coef = spec
-        self._k_padded = 2.0 * np.pi / self.length * np.arange(self._padded.shape[1])
+        self._k_padded = 2.0 * np.pi / self.length * np.arange(padded)
+        self._coef: np.ndarray | None = None
         self._abs: np.ndarray | None = None
         self._sizes: dict[int, np.ndarray] = {}
+
+    @property
+    def coef(self) -> np.ndarray:
+        """``w_m U_m``: the coefficients of the series, shape ``(m, n/2 + 1)``."""
+        if self._coef is None:
+            modes = self.k.size
+            self._coef = self._spec[:, :modes] * self._weights[:modes]
+        return self._coef
 
     def size(self, power: int) -> np.ndarray:
         """``sum_m |coef_m| k_m^power`` of each frame: a bound on ``|p^(power)|``, shape ``(m,)``."""
         if power not in self._sizes:
             if self._abs is None:
-                self._abs = np.abs(self.coef)
-            self._sizes[power] = np.einsum("fm,m->f", self._abs, self.k**power)
+                self._abs = np.abs(self._spec)
+            scale = self._weights * self._k_padded**power
+            self._sizes[power] = np.einsum("fm,m->f", self._abs, scale)
         return self._sizes[power]
 
     def taylor(self, frame: np.ndarray, x: np.ndarray, order: int) -> np.ndarray:
@@ -133,18 +143,20 @@ class Interpolant:
         shape ``(order + 1, len(x))``, from one pass over the modes."""
         frame = np.asarray(frame, dtype=np.int64)
         theta = np.asarray(x, dtype=np.float64) + 0.5 * self.length
-        # p^(r) = Re sum (i k)^r z = s_r sum k^r Re z (r even) or s_r sum k^r Im z (r odd), with
+        # p^(r) = Re sum w (i k)^r z = s_r sum w k^r Re z (r even) or s_r sum w k^r Im z (r odd), with
         # s_r the sign of i^r: two real products, of the real and of the imaginary parts.
         signs = np.array([(1.0, -1.0, -1.0, 1.0)[r % 4] for r in range(order + 1)])
-        weights = self._k_padded[:, None] ** np.arange(order + 1)[None, :] * signs
+        weights = (
+            self._k_padded[:, None] ** np.arange(order + 1)[None, :] * signs
+        ) * self._weights[:, None]
         out = np.empty((order + 1, theta.size))
         # In blocks of points whose work arrays stay in a core's cache, and whose products are
         # small enough for a single-threaded BLAS call (a threaded one was erratic on a loaded
         # machine).
         for b in range(0, theta.size, _CACHE_BLOCK):
             sl = slice(b, b + _CACHE_BLOCK)
-            z = _phasors(theta[sl], self.k[1], self._padded.shape[1])
-            z *= self._padded[frame[sl]]
+            z = _phasors(theta[sl], self.k[1], self._spec.shape[1])
+            z *= self._spec[frame[sl]]
             out[0::2, sl] = (np.ascontiguousarray(z.real) @ weights[:, 0::2]).T
             out[1::2, sl] = (np.ascontiguousarray(z.imag) @ weights[:, 1::2]).T
         return out
