@@ -386,3 +386,21 @@ def test_a_1e7_target_is_reached_and_bracketed(tmp_path: Path) -> None:
         assert true <= target, (row["soliton"], true)
         assert true <= 3 * est, (row["soliton"], true, est)
     assert result.run_row["accuracy_met"] is True
+
+
+def test_peak_spread_and_the_decades_it_adds() -> None:
+    # KdV amplitude 2 kappa^2 (Korteweg & de Vries 1895), mKdV 2 kappa (Wadati 1973 [memory]):
+    # the spread (A_max/A_min)(kappa_max/kappa_min) is (k_max/k_min)^3 and ^2.
+    from kdvsweep import Equation
+
+    kdv = Equation.kdv().soliton_form
+    mkdv = Equation.mkdv().soliton_form
+    assert acc.peak_spread([1.0, 0.6, 0.25], kdv) == pytest.approx(64.0)
+    assert acc.peak_spread([1.0, 0.5], mkdv, [1, -1]) == pytest.approx(4.0)
+    assert acc.REFERENCE_SPREAD == pytest.approx(acc.peak_spread([1.0, 0.6], kdv))
+    # without a spread: the margin measured on the reference pair; with one, log10 of the ratio
+    assert acc.auto_decades(1e-5, 16.0) == pytest.approx(5.0 + acc.EXTRA_DECADES)
+    more = acc.auto_decades(1e-7, 16.0, 64.0) - acc.auto_decades(1e-7, 16.0)
+    assert more == pytest.approx(math.log10(64.0 / acc.REFERENCE_SPREAD))
+    assert acc.auto_decades(1e-12, 16.0, 64.0) == 16.0
+    assert acc.auto_decades(None, 16.0, 64.0) == 16.0

@@ -21,6 +21,7 @@ from kdvsweep.sweep.bench_accuracy import (
     AccuracyBenchmark,
     ShiftCheck,
     measure,
+    resolved_text,
     sweep_cost,
     sweep_text,
 )
@@ -65,6 +66,26 @@ def test_target_sweeps_are_automatic_and_verified(tmp_path: Path) -> None:
     assert acc.auto_tail(1e-7, 1e-8) == pytest.approx(1e-9)
     with pytest.raises(ValueError, match="unknown sweep 'quad'"):
         sweep_text("quad", 1e-5)
+
+
+def test_resolved_grids_follow_the_spread(tmp_path: Path) -> None:
+    # points = "auto" with the run's spread (accuracy.peak_spread): the KdV triple (1, 0.6, 0.25)
+    # at 1e-7 needs more points than the loader's grid at the reference spread
+    from kdvsweep.sweep.sizing import WARN_DECADES, auto_points
+
+    text = sweep_text("triple", 1e-7, triple_k=((0.6, 0.25),))
+    resolved = resolved_text("triple", text, 1e-7, tmp_path)
+    path = tmp_path / "r.toml"
+    path.write_text(resolved)
+    (spec,) = load_sweep(path).runs
+    form = spec.model.equation.soliton_form
+    decades = acc.auto_decades(1e-7, WARN_DECADES, acc.peak_spread([1.0, 0.6, 0.25], form))
+    want = auto_points(1.0, spec.model.grid.length, spec.model.equation.dealias_fraction, decades)
+    assert spec.model.grid.n == want
+    path.write_text(text)
+    (plain,) = load_sweep(path).runs
+    assert want >= plain.model.grid.n
+    assert spec.model.grid.length == plain.model.grid.length
 
 
 def _check(error: float, estimate: float, target: float = 1e-5) -> ShiftCheck:

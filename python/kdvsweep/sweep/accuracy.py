@@ -13,7 +13,7 @@ from collections.abc import Iterable, Mapping, Sequence
 from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:
-    from ..model import Equation
+    from ..model import Equation, SolitonForm
 
 #: Default ``accuracy.verify``: no run is re-run.
 DEFAULT_VERIFY = 0.0
@@ -56,14 +56,19 @@ ERROR_CONSTANT: dict[str, float] = {"etdrk4": 15.0, "ifrk4": 45.0, "strang": 0.2
 TIME_SHARE = 0.25
 #: ``dt = "auto"`` without a target aims at this relative shift error.
 DEFAULT_AUTO_TARGET = 1e-6
-#: Decades of spectrum ``points = "auto"`` keeps beyond the target (``-log10(target) + 3``): the
-#: truncation error of a resolved profile is about the spectrum's level at the cutoff, and a
-#: shift is read from positions of peaks of width ``1/kappa``, so a field error ``e`` moves a peak
-#: by about ``e`` widths. The margin is measured, not derived: with two decades the KdV pair
-#: kappa = (1, 0.6) at target 1e-5 (n = 192) had its shifts right to 1.3e-6 but the analysis's
-#: fit uncertainty of the slow soliton at 1.3e-5, above the target (so the shift was not
-#: reported); with three (n = 256) the uncertainty is 2.6e-7 (2026-12-02).
+#: Decades of spectrum ``points = "auto"`` keeps beyond the target
+#: (``-log10(target) + EXTRA_DECADES + log10(spread / REFERENCE_SPREAD)``, :func:`auto_decades`): the truncation
+#: error of a resolved profile is about the spectrum's level at the cutoff, and a field error
+#: ``e`` (relative to the largest amplitude) moves a peak by about ``e`` widths of the fastest
+#: soliton. The margin is measured, not derived: with two decades the KdV pair kappa = (1, 0.6)
+#: at target 1e-5 (n = 192) had its shifts right to 1.3e-6 but the analysis's fit uncertainty of
+#: the slow soliton at 1.3e-5, above the target (so the shift was not reported); with three
+#: (n = 256) the uncertainty is 2.6e-7 (2026-12-02). That pair's spread (:func:`peak_spread`)
+#: is :data:`REFERENCE_SPREAD`; runs of other spreads keep more or fewer decades.
 EXTRA_DECADES = 3.0
+#: :func:`peak_spread` of the KdV pair kappa = (1, 0.6) at which :data:`EXTRA_DECADES` was measured:
+#: ``(1 / 0.6)^3``.
+REFERENCE_SPREAD = (1.0 / 0.6) ** 3
 
 
 #: ``sizing.tail`` with a target: at most this fraction of the target. Solitons given one by one
@@ -128,13 +133,39 @@ def auto_dt(scheme: str, target: float, rate: float, limit: float) -> float:
     return float(f"{math.floor(dt / scale) * scale:.3g}")
 
 
-def auto_decades(target: float | None, ceiling: float) -> float:
-    """Spectrum decades ``points = "auto"`` keeps at the cutoff: ``-log10(target) + 3``
-    (:data:`EXTRA_DECADES`), at most ``ceiling`` (the double precision level); ``ceiling``
-    without a target."""
+def peak_spread(
+    kappas: Sequence[float], form: SolitonForm, signs: Sequence[int] | None = None
+) -> float:
+    """``(A_max / A_min) (kappa_max / kappa_min)``: how much more a field error moves the peak of
+    the widest, lowest soliton, relative to its shift, than that of the fastest. A field error
+    ``e A_max`` at the cutoff wavenumber ``k_c`` has a slope ``e A_max k_c`` and moves the peak
+    of soliton ``j`` (curvature ``~ A_j kappa_j^2``) by ``~ e A_max k_c / (A_j kappa_j^2)``; its
+    shift is ``~ 1/kappa_j`` (the pair formula, Gardner et al. 1974), so the relative error
+    grows as ``(A_max / A_j) (kappa_max / kappa_j)``: ``(kappa_max / kappa_min)^3`` for KdV,
+    ``^2`` for mKdV. Measured on the KdV triple kappa = (1, 0.6, 0.25) at a 1e-7 target: at
+    n = 2048 (10 decades) the slowest soliton's positions scattered by 2.7e-7 and its shift was
+    not reported (uncertainty 2.7e-7 of it); at n = 3072 (the spread's 1.8 decades more) the
+    scatter is 4.5e-9 and the error 1.3e-9 (2026-12-02). ``signs``: each soliton's polarity
+    (Gardner amplitudes depend on it)."""
+    ks = [float(k) for k in kappas]
+    if not ks:
+        return 1.0
+    pol = list(signs) if signs is not None else [None] * len(ks)
+    amps = [float(form.amplitude(k, s)) for k, s in zip(ks, pol, strict=True)]
+    if not all(math.isfinite(a) and a > 0 for a in amps):
+        return 1.0
+    return (max(amps) / min(amps)) * (max(ks) / min(ks))
+
+
+def auto_decades(target: float | None, ceiling: float, spread: float = REFERENCE_SPREAD) -> float:
+    """Spectrum decades ``points = "auto"`` keeps at the cutoff: ``-log10(target) +
+    EXTRA_DECADES + log10(spread / REFERENCE_SPREAD)`` (:data:`EXTRA_DECADES`; ``spread`` of the
+    run's solitons, :func:`peak_spread`; without it, that of the pair the margin was measured
+    on), at most ``ceiling`` (the double precision level); ``ceiling`` without a target."""
     if target is None:
         return ceiling
-    return min(ceiling, -math.log10(target) + EXTRA_DECADES)
+    extra = EXTRA_DECADES + math.log10(max(spread, 1.0) / REFERENCE_SPREAD)
+    return min(ceiling, -math.log10(target) + extra)
 
 
 def error_estimates(
@@ -299,6 +330,7 @@ __all__ = [
     "ERROR_CONSTANT",
     "ESTIMATED",
     "EXTRA_DECADES",
+    "REFERENCE_SPREAD",
     "SCHEME_ORDER",
     "TAIL_FRACTION",
     "TIME_SHARE",
@@ -309,6 +341,7 @@ __all__ = [
     "auto_tail",
     "error_estimates",
     "kappa_errors",
+    "peak_spread",
     "richardson_factor",
     "soliton_rate",
     "total_estimates",
