@@ -559,6 +559,10 @@ def _scan(out: Path, manifest: Mapping[str, Any], keep: bool) -> tuple[StoreChec
     return _scan_once(out, manifest, lay, keep, tolerate=True)
 
 
+#: The columns of a runs part the check reads (:func:`_scan_once` without ``keep``).
+_CHECK_COLUMNS = ("run_id", "status", "failure", "reason")
+
+
 def _scan_once(
     out: Path, manifest: Mapping[str, Any], lay: Layout, keep: bool, tolerate: bool
 ) -> tuple[StoreCheck, Tables]:
@@ -583,6 +587,8 @@ def _scan_once(
             where, problem = exc.args if len(exc.args) == 2 else (path, str(exc))
             broken.append(Damage(seq, Path(where), str(problem)))
             continue
+        if not keep:  # only what the check reads: one batch's tables in memory at a time
+            runs, solitons = runs.select(_CHECK_COLUMNS), None
         whole[seq] = (path, runs, solitons, record)
     # A whole merged part replaces its batches: they are left-overs of a compaction that
     # committed (readers skip them; a writer removes them), damaged or not.
