@@ -130,6 +130,9 @@ def test_small_benchmark_checks_each_shift_against_the_formula(small: AccuracyBe
         assert c.reported
         assert c.error <= 1e-4
         assert c.error <= 3 * c.estimate
+        # the sum rule sum_i kappa_i Delta x_i = 0 (the first moment of the mass moves at a
+        # constant rate; Drazin & Johnson 1989 [memory]) holds to the shifts' accuracy
+        assert abs(c.balance) <= 3e-4
     s = small.summary(1e-4)
     assert s["within"] == 6
     assert 0 < s["cost_ratio"] < 1

@@ -622,14 +622,14 @@ def format_accuracy(result: AccuracyBenchmark, targets: Sequence[float]) -> str:
     """The accuracy benchmark's table and summary."""
     lines = [
         f"{'sweep':<7} {'target':>6} {'run':>3} {'equation, kappas':<30} {'n':>5} {'dt':>9} "
-        f"{'sol':>3} {'error':>9} {'estimate':>9} {'brackets':>8}"
+        f"{'sol':>3} {'error':>9} {'estimate':>9} {'brackets':>8} {'sum rule':>9}"
     ]
     for c in result.checks:
         error = f"{c.error:9.2e}" if c.reported else f"{'unrep.':>9}"
         mark = ("yes" if c.brackets else "NO") if c.reported else "-"
         lines.append(
             f"{c.sweep:<7} {c.target:>6.0e} {c.run_id:>3} {c.label:<30} {c.n:>5} {c.dt:>9.3g} "
-            f"{c.soliton:>3} {error} {c.estimate:>9.2e} {mark:>8}"
+            f"{c.soliton:>3} {error} {c.estimate:>9.2e} {mark:>8} {c.balance:>9.1e}"
         )
     lines.append("")
     for target in targets:

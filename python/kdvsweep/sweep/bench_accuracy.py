@@ -269,6 +269,10 @@ class ShiftCheck:
         ``|shift_measured - predicted| / |predicted|`` (NaN when the run did not report it).
     estimate
         ``shift_error_estimate / |predicted|``.
+    balance
+        The run's sum rule ``sum_i kappa_i Delta x_i`` of the measured shifts (zero for any
+        collision: :func:`kdvsweep.theory.shift_balance`) over ``sum_i |kappa_i Delta x_i|``
+        (NaN when a shift was not reported).
     """
 
     sweep: str
@@ -285,6 +289,7 @@ class ShiftCheck:
     predicted: float
     error: float
     estimate: float
+    balance: float = math.nan
 
     @property
     def reported(self) -> bool:
@@ -398,6 +403,9 @@ def _checks(
         polarity = int(spec.params.get("polarity", 1))
         name = eq.name if family == "kdv" else f"{eq.name} {polarity:+d}"
         label = f"{name} kappa=({', '.join(f'{k:g}' for k in kappas)})"
+        shifts = [float(v) for v in solitons["shift_measured"]]
+        weights = sum(abs(k * d) for k, d in zip(kappas, shifts, strict=True))
+        balance = theory.shift_balance(kappas, shifts) / weights if weights > 0 else math.nan
         for (_, sol), pred in zip(solitons.iterrows(), predicted, strict=True):
             measured = float(sol["shift_measured"])
             checks.append(
@@ -416,6 +424,7 @@ def _checks(
                     predicted=float(pred),
                     error=abs(measured - pred) / abs(pred),
                     estimate=float(sol["shift_error_estimate"]) / abs(pred),
+                    balance=balance,
                 )
             )
     return checks, failures, verified
