@@ -48,14 +48,15 @@ Restart = Callable[[np.ndarray, float, np.ndarray], np.ndarray]
 #: Fine frames of a restarted collision: this many per time ``T`` the pair takes to move one tail
 #: length ``1/(2 kappa)`` of the wider soliton against each other (Lax's two-peak window at the
 #: symmetric instant is only included exactly, as the time ``t_closest`` itself), equally spaced
-#: from a stored frame through ``t_closest`` (one step size for the restart), at most
-#: ``CLOSE_MAX_FRAMES`` in all.
+#: from a stored frame through ``t_closest`` (one step size for the restart), about
+#: ``CLOSE_MAX_FRAMES`` at most.
 CLOSE_FRAMES_PER_TAIL = 64
 CLOSE_MAX_FRAMES = 4096
 #: Half-width of the restarted window around ``t_closest``, in units of ``T``. The exact Hirota
 #: 2-solitons of KdV and mKdV (same and opposite polarities, kappa2/kappa1 from 0.1 to 0.9) show
 #: fewer than two maxima only within 1.75 T of their symmetric instant (our measurement,
-#: 2026-12-02, frames every T/200); the stored frames still count outside the window.
+#: 2026-12-02, frames every T/200; KdV's widest at amplitude ratios 6 to 10, where the closest
+#: approach itself has one); the stored frames still count outside the window.
 CLOSE_HALF_WINDOW = 2.0
 # Values per restarted chunk (frames x points): ~32 MB of frames at a time.
 _CLOSE_VALUES = 1 << 22
