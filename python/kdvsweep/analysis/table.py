@@ -644,9 +644,13 @@ def _changes(
 
 #: What to change when one term dominates a shift's uncertainty (see AsymptoticFit).
 _REMEDIES = {
-    "shift_se": "scatter of the positions: record frames more often",
+    "shift_se": (
+        "scatter of the positions: more points or a smaller step (a low, wide peak feels field "
+        "errors most) or frames more often"
+    ),
     "shift_bias": "tail overlap or a drift in the windows: start the solitons farther apart",
     "shift_drift": "the speed changed across the collisions: a smaller time step or finer grid",
+    "shift_tail_residual": "tail interaction left by the fit: start the solitons farther apart",
 }
 
 
