@@ -21,7 +21,6 @@ from kdvsweep.sweep.bench_accuracy import (
     AccuracyBenchmark,
     ShiftCheck,
     measure,
-    resolved_text,
     sweep_cost,
     sweep_text,
 )
@@ -62,30 +61,50 @@ def test_target_sweeps_are_automatic_and_verified(tmp_path: Path) -> None:
             assert spec.run.accuracy == 1e-7
             assert spec.run.verify
             assert "dt" not in spec.params  # the step is the automatic one, not a swept value
-    assert "tail = 1e-09" in sweep_text("pairs", 1e-7)  # accuracy.auto_tail
-    assert acc.auto_tail(1e-7, 1e-8) == pytest.approx(1e-9)
     with pytest.raises(ValueError, match="unknown sweep 'quad'"):
         sweep_text("quad", 1e-5)
 
 
-def test_resolved_grids_follow_the_spread(tmp_path: Path) -> None:
-    # points = "auto" with the run's spread (accuracy.peak_spread): the KdV triple (1, 0.6, 0.25)
-    # at 1e-7 needs more points than the loader's grid at the reference spread
+def test_loader_grids_follow_the_spread(tmp_path: Path) -> None:
+    # points = "auto" with a target keeps the spread's decades (accuracy.peak_spread): the KdV
+    # triple (1, 0.6, 0.25) at 1e-7 gets the grid auto_decades gives with its spread, more points
+    # than a pair's reference spread would give on the same length
     from kdvsweep.sweep.sizing import WARN_DECADES, auto_points
 
-    text = sweep_text("triple", 1e-7, triple_k=((0.6, 0.25),))
-    resolved = resolved_text("triple", text, 1e-7, tmp_path)
     path = tmp_path / "r.toml"
-    path.write_text(resolved)
+    path.write_text(sweep_text("triple", 1e-7, triple_k=((0.6, 0.25),)))
     (spec,) = load_sweep(path).runs
-    form = spec.model.equation.soliton_form
-    decades = acc.auto_decades(1e-7, WARN_DECADES, acc.peak_spread([1.0, 0.6, 0.25], form))
-    want = auto_points(1.0, spec.model.grid.length, spec.model.equation.dealias_fraction, decades)
+    eq = spec.model.equation
+    spread = acc.peak_spread([1.0, 0.6, 0.25], eq.soliton_form)
+    decades = acc.auto_decades(1e-7, WARN_DECADES, spread)
+    want = auto_points(1.0, spec.model.grid.length, eq.dealias_fraction, decades)
     assert spec.model.grid.n == want
-    path.write_text(text)
-    (plain,) = load_sweep(path).runs
-    assert want >= plain.model.grid.n
-    assert spec.model.grid.length == plain.model.grid.length
+    reference = acc.auto_decades(1e-7, WARN_DECADES)
+    assert want > auto_points(1.0, spec.model.grid.length, eq.dealias_fraction, reference)
+
+
+def test_loader_lowers_the_tail_with_a_target(tmp_path: Path) -> None:
+    # sizing.tail 1e-8 with a 1e-7 target sizes the run as tail 1e-9 would (accuracy.auto_tail)
+    path = tmp_path / "t.toml"
+    path.write_text(sweep_text("pairs", 1e-7, pair_k2=(0.5,)))
+    auto = load_sweep(path).runs[0]
+    path.write_text(
+        sweep_text("pairs", 1e-7, pair_k2=(0.5,)).replace("tail = 1e-08", "tail = 1e-09")
+    )
+    given = load_sweep(path).runs[0]
+    assert auto.initial == given.initial
+    assert auto.model.grid == given.model.grid
+    assert auto.run.t_end == given.run.t_end
+    # and tail 1e-9 does size it otherwise than 1e-8 (so the comparison above can fail)
+    assert auto.initial != load_sweep(_without_target(path, "tail = 1e-08")).runs[0].initial
+
+
+def _without_target(path: Path, tail: str) -> Path:
+    """The sweep at ``path`` with ``tail`` and no ``[accuracy]`` table (the hand-picked tail)."""
+    text = path.read_text().replace("tail = 1e-09", tail)
+    out = path.with_name("plain.toml")
+    out.write_text(text[: text.index("[accuracy]")].replace('dt = "auto"', "dt = 0.001"))
+    return out
 
 
 def _check(error: float, estimate: float, target: float = 1e-5) -> ShiftCheck:

@@ -117,7 +117,9 @@ tail = 1e-8
 def test_gardner_pairs_shift_as_the_formula_says(tmp_path: Path) -> None:
     """Same and opposite polarities (b = 24 gives both moderate heights): the measured shifts
     agree with the pair formula in kappa, kappa from the speed 4 d kappa^2."""
-    out = make_store(tmp_path, GARDNER_PAIRS.format(b=24), "gardner")
+    # every run verified: the error estimates (dt/2, 2n, the fit) cover the step's error too
+    text = GARDNER_PAIRS.format(b=24) + "\n[accuracy]\nverify = 1\n"
+    out = make_store(tmp_path, text, "gardner")
     res = kv.load(out)
     assert list(res.runs["status"]) == ["ok", "ok"]
     assert list(res.runs["analysis_status"]) == ["ok", "ok"]
@@ -128,7 +130,13 @@ def test_gardner_pairs_shift_as_the_formula_says(tmp_path: Path) -> None:
     np.testing.assert_allclose(sol["shift_predicted"], expected, rtol=1e-12)
     error = np.abs(sol["shift_measured"].to_numpy() - expected)
     assert np.all(error < 1e-5), error
-    assert np.all(error < 3.0 * sol["shift_uncertainty"].to_numpy() + 1e-7)
+    # the fit's uncertainty alone does not cover the time step's error (1.8e-6 for the opposite
+    # polarities at this dt, 6e-8 at dt/2); the verified estimate does, within the factor 3 the
+    # accuracy estimates promise (README, "Asking for an accuracy")
+    assert np.all(error <= 3.0 * sol["shift_error_estimate"].to_numpy()), (
+        error,
+        sol["shift_error_estimate"].to_numpy(),
+    )
     np.testing.assert_allclose(sol["kappa_measured"], sol["kappa"], rtol=1e-5)
 
 

@@ -31,8 +31,6 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from . import accuracy as acc
-
 #: Targets of ``kdvsweep bench --accuracy`` by default.
 TARGETS = (1e-5, 1e-7)
 #: ``sizing.tail`` of the hand-picked settings (the demo's), and of any run without a target.
@@ -68,37 +66,6 @@ equation = "{{equation}}"
 scheme = "etdrk4"
 dt = {dt}
 points = "auto"
-length = "auto"
-
-[initial]
-kind = "solitons"
-kappa = [1.0, "k2"]
-position = "auto"
-polarity = [1, "polarity"]
-
-[run]
-end = "auto"
-frame_every = 0.1
-
-[sizing]
-tail = {tail!r}
-{accuracy}"""
-
-_PAIRS_RESOLVED = """
-[sweep]
-name = "accuracy-pairs"
-
-[[vary]]
-equation = [{equations}]
-polarity = [{polarities}]
-k2 = [{k2}]
-grid_points = [{points}]
-
-[model]
-equation = "{{equation}}"
-scheme = "etdrk4"
-dt = "auto"
-points = "grid_points"
 length = "auto"
 
 [initial]
@@ -155,9 +122,9 @@ def sweep_text(
     triple_k: Sequence[tuple[float, float]] = TRIPLE_K,
 ) -> str:
     """The sweep file of ``kind`` (``"pairs"`` or ``"triple"``): with a ``target``, ``dt =
-    "auto"``, every run verified and ``sizing.tail`` from :func:`kdvsweep.sweep.accuracy.auto_tail`;
-    without, the hand-picked steps and tail."""
-    tail = acc.auto_tail(target, HAND_TAIL)
+    "auto"``, every run verified (the loader then lowers ``sizing.tail`` to a hundredth of the
+    target, :func:`kdvsweep.sweep.accuracy.auto_tail`); without, the hand-picked steps."""
+    tail = HAND_TAIL
     accuracy = "" if target is None else f"\n[accuracy]\nshift = {target!r}\nverify = 1\n"
     if kind == "pairs":
         dts = f"dt = [{_numbers(list(HAND_DT.values()))}]\n" if target is None else ""
@@ -179,52 +146,6 @@ def sweep_text(
             accuracy=accuracy,
         )
     raise ValueError(f"accuracy benchmark: unknown sweep {kind!r}; expected 'pairs' or 'triple'")
-
-
-def resolved_text(kind: str, text: str, target: float, folder: Path) -> str:
-    """``text`` with each run's ``points`` as :func:`kdvsweep.sweep.accuracy.auto_decades` gives
-    them with the spread of the run's solitons (:func:`kdvsweep.sweep.accuracy.peak_spread`):
-    the grid ``points = "auto"`` is meant to choose. ``text`` itself when the loader already
-    chooses those grids; else the same runs with ``points`` given per run."""
-    from .config import load_sweep
-    from .sizing import WARN_DECADES, auto_points
-
-    path = folder / "resolve.toml"
-    path.write_text(text)
-    specs = load_sweep(path).runs
-    wanted = []
-    for spec in specs:
-        rows = initial_rows(spec)
-        kappas = [r["kappa"] for r in rows]
-        signs = [r["sign"] for r in rows]
-        eq = spec.model.equation
-        form = eq.soliton_form
-        spread = acc.peak_spread(kappas, form, signs)
-        narrowest = min(float(form.width(k, sg)) for k, sg in zip(kappas, signs, strict=True))
-        decades = acc.auto_decades(target, WARN_DECADES, spread)
-        wanted.append(auto_points(narrowest, spec.model.grid.length, eq.dealias_fraction, decades))
-    if wanted == [spec.model.grid.n for spec in specs]:
-        return text
-    tail = acc.auto_tail(target, HAND_TAIL)
-    accuracy = f"\n[accuracy]\nshift = {target!r}\nverify = 1\n"
-    if kind == "pairs":
-        return _PAIRS_RESOLVED.format(
-            equations=", ".join(f'"{spec.params["equation"]}"' for spec in specs),
-            polarities=", ".join(str(int(spec.params["polarity"])) for spec in specs),
-            k2=_numbers([float(spec.params["k2"]) for spec in specs]),
-            points=", ".join(map(str, wanted)),
-            tail=tail,
-            accuracy=accuracy,
-        )
-    return _TRIPLE.format(
-        k2=_numbers([float(spec.params["k2"]) for spec in specs]),
-        k3=_numbers([float(spec.params["k3"]) for spec in specs]),
-        points_axis=f"\ngrid_points = [{', '.join(map(str, wanted))}]",
-        points='"grid_points"',
-        dt='"auto"',
-        tail=tail,
-        accuracy=accuracy,
-    )
 
 
 def initial_rows(spec: Any) -> list[dict[str, Any]]:
@@ -453,7 +374,6 @@ def measure(
                 if on_message is not None:
                     on_message(f"{sweep} at target {target:g}")
                 text = sweep_text(sweep, target, pair_k2, triple_k)
-                text = resolved_text(sweep, text, target, folder)
                 result.costs[(sweep, target)] = sweep_cost(text, folder)
                 checks, failures, verified = _checks(sweep, target, folder, text, workers)
                 result.checks += checks
@@ -476,7 +396,6 @@ __all__ = [
     "ShiftCheck",
     "initial_rows",
     "measure",
-    "resolved_text",
     "sweep_cost",
     "sweep_text",
 ]

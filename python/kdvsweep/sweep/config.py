@@ -1180,8 +1180,13 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
     initial: init.InitialData
     narrowest = math.inf
     max_u = 0.0
+    spread = acc.REFERENCE_SPREAD  # of the solitons' peaks (points = 'auto' with a target)
     if soliton:
         form, kappas, signs = _solitons(tpl, ctx, eq, scales)
+        # with a target, solitons overlap at most a hundredth of it (accuracy.auto_tail)
+        tail = acc.auto_tail(tpl.target, tpl.tail)
+        if tpl.target is not None:
+            spread = acc.peak_spread(kappas, form, signs)
         speeds = [form.speed(k) for k in kappas]
         narrowest = min(form.width(k, s) for k, s in zip(kappas, signs, strict=True))
         amplitudes = [form.amplitude(k, s) for k, s in zip(kappas, signs, strict=True)]
@@ -1204,7 +1209,7 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
                 "the f, g, v terms change them",
             )
         if tpl.initial["position"] == "auto":
-            x0 = [canonical(p) for p in sizing.auto_positions(kappas, form, tpl.tail)]
+            x0 = [canonical(p) for p in sizing.auto_positions(kappas, form, tail)]
         else:
             x0 = [ctx.num(slot) for slot in tpl.initial["position"]]
             if scales is not None:  # metres (at t = 0 the run's frame and the lab's agree)
@@ -1220,7 +1225,7 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
                         f" = {x0[i - 1]!r} (solitons are listed left to right)",
                     )
         if tpl.end is None:
-            t_end = sizing.end_time(x0, kappas, speeds, form, tpl.tail)
+            t_end = sizing.end_time(x0, kappas, speeds, form, tail)
             if t_end <= 0:
                 raise ctx.src.error(
                     "run.end",
@@ -1240,7 +1245,7 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
             t_end = ctx.num(tpl.end, "positive")
         if not tpl.dt_auto:
             _check_steps(ctx, scheme, dt, t_end)
-        need = sizing.min_length(x0, kappas, speeds, form, tpl.tail, t_end)
+        need = sizing.min_length(x0, kappas, speeds, form, tail, t_end)
         if not math.isfinite(need):
             raise ctx.fail(
                 f"initial.{tpl.initial['size']}",
@@ -1334,7 +1339,7 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
 
     dealias = eq.dealias_fraction
     if tpl.points is None:
-        decades = acc.auto_decades(tpl.target, sizing.WARN_DECADES)
+        decades = acc.auto_decades(tpl.target, sizing.WARN_DECADES, spread)
         need = sizing.points_needed(narrowest, length, dealias, decades)
         n = (
             sizing.auto_points(narrowest, length, dealias, decades)
