@@ -175,6 +175,20 @@ def test_worker_killed_mid_sweep(
     assert killed["pid"] not in set(client.run(os.getpid).values())
 
 
+def test_scheduler_keeps_few_messages(client: Any, reference: Results) -> None:
+    # Each message to a worker holds a chunk of run specs; dask keeps the last 1000 of each
+    # connection for debugging by default, which held every run of a long sweep in this process
+    # (measured: ~1 kB a run, all RunSpecs of a 3e4-run sweep alive at its end). The embedded
+    # cluster keeps SCHEDULER_CONFIG's few.
+    from kdvsweep.sweep.cluster import SCHEDULER_CONFIG
+
+    keep = SCHEDULER_CONFIG["distributed.admin.low-level-log-length"]
+    comms = client.cluster.scheduler.stream_comms
+    assert comms
+    for comm in comms.values():
+        assert comm.recent_message_log.maxlen == keep
+
+
 def test_chunks_follow_cost(sweep: Sweep) -> None:
     runs = list(sweep.runs)
     chunker = _Chunker(sweep.runs, iter(range(len(runs))), len(runs), seconds=1.0)

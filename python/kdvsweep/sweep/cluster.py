@@ -49,6 +49,19 @@ from typing import Any
 from ..exceptions import ConfigError, KdvsweepError
 from .schema import Source, Table
 
+#: dask settings of the process that runs the scheduler (ours when the cluster is embedded or a
+#: batch cluster started from here). dask keeps the last ``low-level-log-length`` messages of
+#: each connection for debugging (1000 by default): a message to a worker holds a chunk of run
+#: specs, so the default kept every run of a 10^5-run sweep in the client (about 1 kB a run).
+SCHEDULER_CONFIG = {"distributed.admin.low-level-log-length": 16}
+
+
+def _dask_config(config: Mapping[str, Any]) -> contextlib.AbstractContextManager[Any]:
+    import dask
+
+    return dask.config.set(dict(config))
+
+
 log = logging.getLogger(__name__)
 
 
@@ -623,7 +636,10 @@ def cluster_client(
             kwargs["security"] = files.enter_context(
                 _session_certificate(kwargs["security"], certificate_folder(profile, logs))
             )
-        with _managed(cluster_class(profile)(**kwargs), profile, log_dir, say) as client:
+        with (
+            _dask_config(SCHEDULER_CONFIG),
+            _managed(cluster_class(profile)(**kwargs), profile, log_dir, say) as client,
+        ):
             yield client
 
 

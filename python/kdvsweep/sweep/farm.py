@@ -658,8 +658,11 @@ def local_client(workers: int | None = None) -> Iterator[Any]:
     count = workers if workers is not None else (os.cpu_count() or 1)
     if count < 1:
         raise ConfigError(f"workers must be >= 1, got {count}")
+    from .cluster import SCHEDULER_CONFIG
+
     config = {
         **WORKER_CONFIG,
+        **SCHEDULER_CONFIG,
         "distributed.scheduler.http.routes": HTTP_ROUTES,
         "distributed.worker.http.routes": HTTP_ROUTES,
     }
