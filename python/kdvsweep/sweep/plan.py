@@ -59,7 +59,10 @@ MAX_CALIBRATIONS = 8
 #: time measured as here (and the setup), over frames x n. Medians: 2.3e-7 on the demo sweep (27
 #: pairs, n = 384..2048; a least-squares fit gives 1.3e-7 plus 0.013 s a run), 2.2e-7 on
 #: ``three-solitons.toml`` (3 of its runs, 510..582 frames), 2.2e-7 on ``sech2-damped.toml``
-#: (profile data, n = 8192).
+#: (profile data, n = 8192). The collision analysis has since become about 5 times cheaper (its
+#: peaks located in one pass), which this constant does not follow; the step time dominates, and
+#: the plan's total was still 0.97 of the measured CPU time on the demo and 1.17 on
+#: ``three-solitons.toml`` afterwards (runs executed serially, same day).
 FRAME_SECONDS = 2.0e-7
 #: Core-seconds of a run besides its steps and frames (initial data, rows), same measurement.
 OVERHEAD = 0.005
