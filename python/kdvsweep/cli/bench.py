@@ -547,7 +547,7 @@ def format_scale(b: ScaleBenchmark) -> str:
             f"{'runs':>9} {'failed':>7} {'wall s':>8} {'run CPU s':>10} {'wall-CPU ms/run':>15} "
             f"{'core ms/run':>12} "
             f"{files} {'load s':>7} {'us/run':>7} {'read s':>7} {'us/run':>7} "
-            f"{'client peak':>12}",
+            f"{'sweep peak':>11} {'read peak':>10}",
         ]
         for r in b.runs:
             counts = " ".join(f"{r.files.get(t, 0):>9d}" for t in SCALE_TABLES)
@@ -556,7 +556,7 @@ def format_scale(b: ScaleBenchmark) -> str:
                 f"{1e3 * r.overhead_per_run:15.2f} {1e3 * r.core_overhead_per_run:12.2f} {counts} "
                 f"{r.load_seconds:7.3f} "
                 f"{1e6 * r.load_per_run:7.1f} {r.read_seconds:7.3f} {1e6 * r.read_per_run:7.1f} "
-                f"{_mb(r.client_rss):>12}"
+                f"{_mb(r.client_rss):>11} {_mb(r.read_rss):>10}"
             )
         lines += [
             "",
@@ -566,6 +566,8 @@ def format_scale(b: ScaleBenchmark) -> str:
             "negative when the workers overlap)",
             f"files: per table of the finished store; load = kdvsweep.load(out), read = "
             f"pandas.read_parquet(out / 'runs'); rows read {', '.join(str(r.rows_read) for r in b.runs)}",
+            "sweep peak = the client's peak resident memory up to the end of the sweep (its "
+            "compaction included); read peak = once both reads hold their tables too",
         ]
     lines.append(
         "peak added = the loader's process peak (getrusage maxrss) minus its memory after imports"

@@ -462,7 +462,8 @@ class ScaleRun:
     compaction included), ``cpu_seconds`` the sum of the runs' own ``cpu_time``; ``files`` the
     files of each table of the finished store; ``load_seconds`` the time of ``kdvsweep.load`` and
     ``read_seconds`` that of ``pandas.read_parquet(out / "runs")`` (``rows_read`` rows);
-    ``client_rss`` the client process's peak resident memory.
+    ``client_rss`` the client process's peak resident memory during the sweep (start, runs,
+    compaction), ``read_rss`` its peak once the tables are read too (both held at once).
     """
 
     runs: int
@@ -475,6 +476,7 @@ class ScaleRun:
     read_seconds: float
     rows_read: int
     client_rss: int
+    read_rss: int = 0
     workers: int = SCALE_WORKERS
 
     @property
@@ -575,6 +577,7 @@ def scale_child(task: str, sweep_file: str, out: str, result: str) -> None:
         start = time.perf_counter()
         report = run(sweep_file, out, workers=SCALE_WORKERS)
         wall = time.perf_counter() - start
+        sweep_rss = _max_rss()
         start = time.perf_counter()
         tables = load(out)
         load_seconds = time.perf_counter() - start
@@ -591,7 +594,8 @@ def scale_child(task: str, sweep_file: str, out: str, result: str) -> None:
             "load_seconds": load_seconds,
             "read_seconds": read_seconds,
             "rows_read": len(frame),
-            "client_rss": _max_rss(),
+            "client_rss": sweep_rss,
+            "read_rss": _max_rss(),
         }
     else:
         raise ValueError(f"scale task {task!r} unknown, expected 'load' or 'run'")
