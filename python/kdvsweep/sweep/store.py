@@ -116,8 +116,8 @@ _OLD_FRAMES = re.compile(r"^run_(\d+)\.npz$")
 #: Compaction: a merged part holds at most this many runs rows, this many bytes of Parquet
 #: (runs and solitons parts together) and this many bytes of frames. A merge holds its rows in
 #: memory (about 2 kB a run), so the rows bound the client's memory at the end of a sweep
-#: (50 MB), whatever its size; 10^6 runs make 40 parts.
-COMPACT_ROWS = 25_000
+#: (20 MB), whatever its size; 10^5 runs make 10 parts, 10^6 runs 100.
+COMPACT_ROWS = 10_000
 COMPACT_BYTES = 64 * 2**20
 COMPACT_FRAMES_BYTES = 2**30
 #: The farm compacts a store at the end of a sweep when its runs table has more parts than this.
