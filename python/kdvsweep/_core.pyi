@@ -11,8 +11,10 @@ __all__ = [
     "dealias_fraction",
     "fft_floor",
     "fixed_step_count",
+    "interpolant_spectra",
     "invariants",
     "kdv_multisoliton",
+    "locate_extrema",
     "mkdv_multisoliton",
     "simulation_memory",
 ]
@@ -97,3 +99,15 @@ def mkdv_multisoliton(
 def fft_floor(n: int, forward: int, inverse: int, repeats: int) -> float: ...
 def simulation_memory(n: int) -> int: ...
 def fixed_step_count(start: float, times: NDArray[np.float64], dt: float) -> int: ...
+def locate_extrema(
+    frames: NDArray[np.float64],
+    length: float,
+    frame: NDArray[np.int64],
+    index: NDArray[np.int64],
+    sign: NDArray[np.int64],
+    *,
+    denoise: bool = True,
+) -> tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.bool_]]: ...
+def interpolant_spectra(
+    frames: NDArray[np.float64], *, denoise: bool = True
+) -> NDArray[np.complex128]: ...

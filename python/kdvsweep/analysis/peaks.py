@@ -2,58 +2,33 @@
 
 A resolved spectral solution *is* its trigonometric interpolant, so the extremum of that interpolant
 is the extremum of the solution to round-off. It is found by a safeguarded Newton iteration on the
-derivative of the Fourier series, started from the discrete extremum and kept inside the two grid
-cells around it. A 3-point parabola, by contrast, is exact only for quadratics and leaves an error
-of order ``dx^2`` times the profile's relative third derivative (about 1e-4 of a width for a
-soliton at ten points per width; common practice, no source).
+derivative of the Fourier series, started from the vertex of the parabola through the three samples
+around the discrete extremum and kept inside the two grid cells around it (bisection on the sign of
+the derivative when a step leaves them). A 3-point parabola alone is exact only for quadratics and
+leaves an error of order ``dx^2`` times the profile's relative third derivative (about 1e-4 of a
+width for a soliton at ten points per width; common practice, no source).
 
-All extrema of all frames of a record are refined together, in one vectorised pass over an
-``(extrema x modes)`` array: the interpolant's derivatives of orders ``0 .. TAYLOR_ORDER`` at a
-start point (the vertex of the parabola through the three samples around the discrete extremum)
-give its Taylor polynomial there, whose stationary point is found by Newton's method on short
-vectors. The remainder of that polynomial is bounded from the spectrum (``|e^{iy} - sum_{q<=Q}
-(iy)^q/q!| <= |y|^(Q+1)/(Q+1)!``), and an extremum whose bound is not below round-off (a start
-far from it, or a spectrum full to the Nyquist mode) is refined by the safeguarded Newton
-iteration on the interpolant itself instead.
+The candidates (the discrete extrema above the threshold) are chosen here; the transforms of their
+frames, the noise band and the iteration run in the compiled core (``kdvsweep._core.locate_extrema``:
+one transform per frame, phases by recurrence), as does the noise band of :class:`Interpolant`
+(``kdvsweep._core.interpolant_spectra``).
 """
 
 from __future__ import annotations
 
-import math
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 from typing import overload
 
 import numpy as np
 
+from .. import _core
 from ..exceptions import ConfigError, ShapeError
 
-# Modes whose magnitude stays below this multiple of the high-band noise floor are dropped before
-# the search, so added noise cannot make spurious extrema out of the unresolved band.
-_NOISE_FACTOR = 10.0
-# The top quarter of the band is a noise plateau if its median is at least this fraction of the
-# median of the quarter below it.
-_PLATEAU = 0.3
-_MAX_NEWTON = 40
-# NumPy 2 transforms into a given array (``out``); older ones return a new one.
-_RFFT_OUT = np.lib.NumpyVersion(np.__version__) >= "2.0.0"
 # Modes per block of the phasor tables (_phasors).
 _PHASOR_BLOCK = 32
 # Points evaluated together by Interpolant.taylor (work arrays of ~0.6 MB at n = 512).
 _CACHE_BLOCK = 128
-# Extrema refined per vectorised block (bounds the (extrema x modes) work arrays to ~10 MB).
-_BLOCK = 2048
-#: Highest derivative of the interpolant in the Taylor polynomial about each start point. With the
-#: parabola's vertex as start (at most 0.13 grid steps from the extremum on the records of the
-#: benchmark sweep, 0.005 on the demo's finer grids), 8 settles every extremum of a benchmark
-#: record within the remainder bound (6 leaves 4 of 757 to the safeguarded iteration, which costs
-#: more than the two orders), with positions within 3e-14 of that iteration's (our measurement,
-#: 2026-12-02).
-TAYLOR_ORDER = 8
-# Accepted when the remainder bound moves the position by less than this many units of the
-# period (the safeguarded iteration stops at steps of 1e-13 L) and the height by less than this
-# fraction of the interpolant's value at the start.
-_TAYLOR_TOL = 1e-15
 
 
 @dataclass(frozen=True)
@@ -89,11 +64,12 @@ class Interpolant:
         The period ``L``.
     denoise
         Drop the high modes that sit at a noise floor (estimated per frame from the top quarter of
-        the band); a spectrum still decaying there is kept whole.
+        the band; the core's rule, see ``kdvsweep._core.interpolant_spectra``); a spectrum still
+        decaying there is kept whole.
     """
 
     def __init__(self, frames: np.ndarray, length: float, denoise: bool = True) -> None:
-        u = np.atleast_2d(np.asarray(frames, dtype=np.float64))
+        u = np.ascontiguousarray(np.atleast_2d(np.asarray(frames, dtype=np.float64)))
         n = u.shape[1]
         self.n = n
         self.length = float(length)
@@ -102,11 +78,7 @@ class Interpolant:
         padded = -(-modes // _PHASOR_BLOCK) * _PHASOR_BLOCK
         self._spec = np.empty((u.shape[0], padded), complex)
         self._spec[:, modes:] = 0.0
-        spec = self._spec[:, :modes]
-        if _RFFT_OUT:
-            np.fft.rfft(u, axis=1, out=spec)
-        else:
-            spec[...] = np.fft.rfft(u, axis=1)
+        self._spec[:, :modes] = _core.interpolant_spectra(u, denoise=denoise)
         # p(x) = Re sum_m w_m U_m exp(i k_m (x + L/2)); the Nyquist mode enters as a cosine. The
         # weights w_m are applied in the sums (Interpolant.taylor), not to the spectrum.
         self._weights = np.zeros(padded)
@@ -114,8 +86,6 @@ class Interpolant:
         self._weights[0] = 1.0 / n
         self._weights[modes - 1] = 1.0 / n
         self.k = 2.0 * np.pi / self.length * np.arange(modes)
-        if denoise:
-            _drop_noise_band(spec)
         self._k_padded = 2.0 * np.pi / self.length * np.arange(padded)
         self._coef: np.ndarray | None = None
         self._abs: np.ndarray | None = None
@@ -204,30 +174,6 @@ def _powers(w: np.ndarray, count: int) -> np.ndarray:
     return out
 
 
-def _drop_noise_band(spec: np.ndarray) -> None:
-    """Zero, in place, the modes of each frame above the last one that stands clear of a noise
-    plateau in the top quarter of the band (see :class:`Interpolant`)."""
-    m = spec.shape[1]
-    if m - 3 * m // 4 < 4:
-        return
-    half, quarter = m // 2, 3 * m // 4
-    upper = np.abs(spec[:, half:])
-    floor = _median(upper[:, quarter - half :])
-    below = _median(upper[:, : quarter - half])
-    for f in np.flatnonzero((floor > 0) & (floor >= _PLATEAU * below)):
-        above = np.flatnonzero(np.abs(spec[f]) > _NOISE_FACTOR * floor[f])
-        if above.size:
-            spec[f, above[-1] + 1 :] = 0.0
-
-
-def _median(a: np.ndarray) -> np.ndarray:
-    """Median of each row (``np.median(a, axis=1)``, from one partition)."""
-    w = a.shape[1]
-    mid = w // 2
-    part = np.partition(a, (mid - 1, mid) if w % 2 == 0 else mid, axis=1)
-    return 0.5 * (part[:, mid - 1] + part[:, mid]) if w % 2 == 0 else part[:, mid]
-
-
 def _wrap(x: np.ndarray, length: float) -> np.ndarray:
     return (x + 0.5 * length) % length - 0.5 * length
 
@@ -235,57 +181,6 @@ def _wrap(x: np.ndarray, length: float) -> np.ndarray:
 def ring_distance(a: np.ndarray, b: np.ndarray, length: float) -> np.ndarray:
     """Shortest distance between points on the circle of circumference ``length``."""
     return np.abs(_wrap(np.asarray(a) - np.asarray(b), length))
-
-
-def _refine(
-    interp: Interpolant,
-    frame: np.ndarray,
-    x0: np.ndarray,
-    sign: np.ndarray,
-    dx: float,
-    start: np.ndarray,
-) -> np.ndarray:
-    """Safeguarded Newton on ``p'(x) = 0`` near each grid extremum ``x0`` (of ``sign * p``).
-
-    Newton starts from ``start`` (a parabola's vertex, ~1e-4 dx off, so two or three steps reach
-    round-off). A step that leaves ``[x0 - dx, x0 + dx]`` or meets the wrong curvature switches that
-    extremum to bisection on the sign of ``p'`` inside the bracket.
-    """
-    x = start.copy()
-    lo, hi = x0 - dx, x0 + dx
-    tol = 1e-13 * max(1.0, interp.length)
-    active = np.ones(x.size, dtype=bool)
-    bisect = np.zeros(x.size, dtype=bool)
-    for _ in range(_MAX_NEWTON):
-        idx = np.flatnonzero(active)
-        if idx.size == 0:
-            break
-        xa = x[idx]
-        g, h = (sign[idx] * d for d in interp.derivatives(frame[idx], xa, (1, 2)))
-        lo[idx] = np.where(g > 0, np.maximum(lo[idx], xa), lo[idx])
-        hi[idx] = np.where(g < 0, np.minimum(hi[idx], xa), hi[idx])
-        with np.errstate(divide="ignore", invalid="ignore"):
-            xn = np.where(h < 0, xa - g / h, np.nan)
-        bad = ~np.isfinite(xn) | (xn < lo[idx]) | (xn > hi[idx])
-        bisect[idx] |= bad
-        xn = np.where(bisect[idx], 0.5 * (lo[idx] + hi[idx]), xn)
-        step = np.abs(xn - xa)
-        active[idx] = np.where(bisect[idx], hi[idx] - lo[idx] > tol, step > tol)
-        x[idx] = xn
-    return x
-
-
-def _vertex(
-    u: np.ndarray, frame: np.ndarray, j: np.ndarray, dx: float, sign: int = 1
-) -> np.ndarray:
-    """Offset of the parabola through three samples around each discrete maximum of ``sign * u``
-    (a start)."""
-    n = u.shape[1]
-    a, b, c = (sign * u[frame, i] for i in ((j - 1) % n, j, (j + 1) % n))
-    den = a - 2.0 * b + c
-    with np.errstate(divide="ignore", invalid="ignore"):
-        off = np.where(den < 0, 0.5 * (a - c) / den, 0.0)
-    return np.clip(off, -0.5, 0.5) * dx
 
 
 def _candidates(u: np.ndarray, threshold: float, sign: int) -> tuple[np.ndarray, np.ndarray]:
@@ -301,75 +196,6 @@ def _candidates(u: np.ndarray, threshold: float, sign: int) -> tuple[np.ndarray,
     value = sign * flat[at]
     at = at[(value >= sign * flat[left]) & (value > sign * flat[right])]
     return at // n, at % n
-
-
-def _taylor_refine(
-    interp: Interpolant,
-    frame: np.ndarray,
-    x0: np.ndarray,
-    sign: np.ndarray,
-    dx: float,
-    start: np.ndarray,
-) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Stationary points of ``sign * p`` near each grid extremum ``x0``, from the Taylor polynomial
-    of degree :data:`TAYLOR_ORDER` about ``start`` (see the module's docstring).
-
-    Returns the positions, the heights ``p`` there and a mask of the extrema found: Newton's method
-    on the polynomial converged inside ``[x0 - dx, x0 + dx]`` with negative curvature, and the
-    remainder bound moves neither the position nor the height beyond round-off.
-    """
-    q = TAYLOR_ORDER
-    d = interp.taylor(frame, start, q) * sign
-    inv = [1.0 / math.factorial(i) for i in range(q + 2)]
-
-    def poly(order: int, delta: np.ndarray) -> np.ndarray:
-        acc = d[q] * inv[q - order]
-        for i in range(q - order - 1, -1, -1):
-            acc = acc * delta + d[order + i] * inv[i]
-        return np.asarray(acc)
-
-    lo, hi = x0 - dx - start, x0 + dx - start
-    tol = _TAYLOR_TOL * max(1.0, interp.length)
-    delta = np.zeros(start.size)
-    ok = np.ones(start.size, dtype=bool)
-    converged = np.zeros(start.size, dtype=bool)
-    curvature = np.zeros(start.size)
-    for _ in range(_MAX_NEWTON):
-        g, curvature = poly(1, delta), poly(2, delta)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            step = np.where(curvature < 0, -g / curvature, np.nan)
-        new = delta + step
-        ok &= np.isfinite(new) & (new >= lo) & (new <= hi)
-        converged = np.abs(step) <= tol
-        delta = np.where(ok, new, 0.0)
-        if np.all(converged | ~ok):
-            break
-    ok &= converged
-    size = interp.size(q + 1)[frame]
-    reach = np.abs(delta)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        moved = size * reach**q * inv[q] / np.abs(curvature)
-    lifted = size * reach ** (q + 1) * inv[q + 1]
-    ok &= (moved <= tol) & (lifted <= _TAYLOR_TOL * np.abs(d[0]))
-    return start + delta, sign * poly(0, delta), ok
-
-
-def _locate(
-    interp: Interpolant,
-    frame: np.ndarray,
-    x0: np.ndarray,
-    sign: np.ndarray,
-    dx: float,
-    start: np.ndarray,
-) -> tuple[np.ndarray, np.ndarray]:
-    """Positions and heights of the extrema near the grid extrema ``x0``: the Taylor pass, and the
-    safeguarded iteration on the interpolant for those it does not settle."""
-    x, height, ok = _taylor_refine(interp, frame, x0, sign, dx, start)
-    rest = np.flatnonzero(~ok)
-    if rest.size:
-        x[rest] = _refine(interp, frame[rest], x0[rest], sign[rest], dx, start[rest])
-        height[rest] = interp(frame[rest], x[rest])
-    return x, height
 
 
 class PeakRecord(Sequence[Peaks]):
@@ -444,22 +270,18 @@ def peak_record(
     if frame.size == 0:
         empty = np.empty(0)
         return PeakRecord(empty, empty, np.empty(0, dtype=np.int64), frame.astype(np.int64), m)
-    interp = Interpolant(u, length, denoise=denoise)
     j = np.concatenate([j for _, j in found])
     sign = np.concatenate(
         [np.full(f.size, s, dtype=np.int64) for (f, _), s in zip(found, signs, strict=True)]
     )
-    grid0 = -0.5 * length + dx * j
-    start = grid0 + np.concatenate(
-        [_vertex(u, f, jj, dx, s) for (f, jj), s in zip(found, signs, strict=True)]
+    x, height, _ = _core.locate_extrema(
+        np.ascontiguousarray(u),
+        float(length),
+        frame.astype(np.int64, copy=False),
+        j.astype(np.int64, copy=False),
+        sign,
+        denoise=denoise,
     )
-    x = np.empty(frame.size)
-    height = np.empty(frame.size)
-    for b in range(0, frame.size, _BLOCK):
-        sl = slice(b, b + _BLOCK)
-        x[sl], height[sl] = _locate(
-            interp, frame[sl], grid0[sl], sign[sl].astype(float), dx, start[sl]
-        )
     x = _wrap(x, length)
     merge = dx if merge_distance is None else merge_distance
     order = np.lexsort((x, frame))
@@ -585,7 +407,6 @@ def count_peaks(
 
 
 __all__ = [
-    "TAYLOR_ORDER",
     "Interpolant",
     "PeakRecord",
     "Peaks",

@@ -31,6 +31,7 @@ pub mod bench;
 pub mod equation;
 pub mod error;
 pub mod exact;
+pub mod extrema;
 pub mod grid;
 pub mod invariants;
 pub mod memory;

@@ -6,7 +6,10 @@ mod detach;
 mod errors;
 
 use kdvsweep_core as kc;
-use numpy::{IntoPyArray, PyArray1, PyArray2, PyArrayMethods, PyReadonlyArray1};
+use numpy::{
+    Complex64, IntoPyArray, PyArray1, PyArray2, PyArrayMethods, PyReadonlyArray1, PyReadonlyArray2,
+    PyUntypedArrayMethods,
+};
 use pyo3::prelude::*;
 
 use crate::detach::run_detached;
@@ -317,9 +320,90 @@ fn simulation_memory(n: usize) -> u128 {
     kc::simulation::memory_bound(n)
 }
 
+/// Indices from an int64 array, each checked to be non-negative.
+fn indices(name: &'static str, values: &[i64]) -> PyResult<Vec<usize>> {
+    let mut out = kc::memory::try_filled(name, values.len(), 0usize).map_err(to_py)?;
+    for (o, &v) in out.iter_mut().zip(values) {
+        *o = usize::try_from(v).map_err(|_| {
+            to_py(kc::CoreError::InvalidParameter {
+                name,
+                value: v.to_string(),
+                expected: "a non-negative index".into(),
+            })
+        })?;
+    }
+    Ok(out)
+}
+
+/// The extrema of the trigonometric interpolants of ``frames`` (float64, shape ``(m, n)``, each
+/// row one period ``length`` sampled at ``x_j = -length/2 + j length/n``, ``n`` even) near
+/// candidate discrete extrema: candidate ``c`` is the extremum of ``sign[c] * u`` (``sign`` +1 or
+/// -1) at grid index ``index[c]`` of frame ``frame[c]`` (int64 arrays of one length).
+///
+/// Each frame with a candidate is transformed once (its noise band dropped when ``denoise``,
+/// see ``interpolant_spectra``); each candidate is refined by Newton's method on the derivative
+/// of the Fourier series from the vertex of the parabola through its three samples, kept inside
+/// the two grid cells around it (bisection on the derivative's sign when a step leaves them).
+/// Returns ``(x, height, converged)``: positions (not wrapped), the interpolant's values there
+/// and whether each iteration met its tolerance. Runs with the GIL released. Raises
+/// ``ConfigError`` for a bad shape, length, index, sign or a non-finite value in a frame with a
+/// candidate, ``ShapeError`` when the candidate arrays differ in length.
+#[pyfunction]
+#[pyo3(signature = (frames, length, frame, index, sign, *, denoise=true))]
+#[allow(clippy::type_complexity)] // the three result arrays
+fn locate_extrema<'py>(
+    py: Python<'py>,
+    frames: PyReadonlyArray2<'py, f64>,
+    length: f64,
+    frame: PyReadonlyArray1<'py, i64>,
+    index: PyReadonlyArray1<'py, i64>,
+    sign: PyReadonlyArray1<'py, i64>,
+    denoise: bool,
+) -> PyResult<(
+    Bound<'py, PyArray1<f64>>,
+    Bound<'py, PyArray1<f64>>,
+    Bound<'py, PyArray1<bool>>,
+)> {
+    let n = frames.shape()[1];
+    let values = kc::memory::try_copy("the frames", frames.as_slice()?).map_err(to_py)?;
+    let frame = indices("frame", frame.as_slice()?)?;
+    let index = indices("index", index.as_slice()?)?;
+    let sign: Vec<f64> = sign.as_slice()?.iter().map(|&s| s as f64).collect();
+    let found = run_detached(py, move |hook| {
+        kc::extrema::locate_extrema(&values, n, length, &frame, &index, &sign, denoise, hook)
+    })?;
+    Ok((
+        found.x.into_pyarray(py),
+        found.height.into_pyarray(py),
+        found.converged.into_pyarray(py),
+    ))
+}
+
+/// The unnormalised real-to-complex spectra (complex128, shape ``(m, n/2 + 1)``) of ``frames``
+/// (float64, shape ``(m, n)``, ``n`` even), with the modes of each frame above the last one that
+/// stands clear of a noise plateau dropped when ``denoise``: when the median magnitude of the
+/// top quarter of the band is positive and at least 0.3 of the median of the quarter below, the
+/// modes above the last one exceeding 10 times it are zeroed (a spectrum still decaying there is
+/// kept whole). Raises ``ConfigError`` for a bad shape or a non-finite value.
+#[pyfunction]
+#[pyo3(signature = (frames, *, denoise=true))]
+fn interpolant_spectra<'py>(
+    py: Python<'py>,
+    frames: PyReadonlyArray2<'py, f64>,
+    denoise: bool,
+) -> PyResult<Bound<'py, PyArray2<Complex64>>> {
+    let (m, n) = (frames.shape()[0], frames.shape()[1]);
+    let values = kc::memory::try_copy("the frames", frames.as_slice()?).map_err(to_py)?;
+    let out = py
+        .detach(move || kc::extrema::spectra(&values, n, denoise))
+        .map_err(to_py)?;
+    out.into_pyarray(py).reshape([m, n / 2 + 1])
+}
+
 /// The compiled core of kdvsweep: the ``Simulation`` stepper, spectral ``invariants``, the core's
 /// ``dealias_fraction`` rule, exact KdV/mKdV multi-solitons, an FFT timing floor, the memory bound
-/// ``simulation_memory``, and ``SCHEMES``
+/// ``simulation_memory``, sub-grid extrema of frames (``locate_extrema``, ``interpolant_spectra``)
+/// and ``SCHEMES``
 /// (the names of the time-stepping schemes, in documented order).
 #[pymodule]
 fn _core(m: &Bound<'_, PyModule>) -> PyResult<()> {
@@ -331,6 +415,8 @@ fn _core(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_function(wrap_pyfunction!(fft_floor, m)?)?;
     m.add_function(wrap_pyfunction!(simulation_memory, m)?)?;
     m.add_function(wrap_pyfunction!(fixed_step_count, m)?)?;
+    m.add_function(wrap_pyfunction!(locate_extrema, m)?)?;
+    m.add_function(wrap_pyfunction!(interpolant_spectra, m)?)?;
     m.add("SCHEMES", kc::Scheme::ALL.map(|s| s.name()).to_vec())?;
     Ok(())
 }
