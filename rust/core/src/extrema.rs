@@ -310,13 +310,16 @@ impl Series {
 
     /// The extremum of `sign * p` near the grid point `x0` (spacing `dx`), from `start`:
     /// `(position, value, converged)`. The iteration stops at a Newton step (or a bracket) of at
-    /// most `tol`, or at a Newton step whose quadratic convergence leaves an error
-    /// `|p'''| step^2 / (2 |p''|)` below a thousandth of `tol`.
+    /// most `tol`, or at a Newton step `s_k` after which the error estimated from the last two
+    /// steps, `|s_k|^3 / |s_(k-1)|^2` (the quadratic rate `|s_k| / |s_(k-1)|^2` times `s_k^2`; an
+    /// overestimate when convergence is faster, as at a symmetric peak), is below a thousandth
+    /// of `tol`.
     fn refine(&self, x0: f64, dx: f64, sign: f64, start: f64, tol: f64) -> (f64, f64, bool) {
         let (mut lo, mut hi) = (x0 - dx, x0 + dx);
         let mut x = start;
         let mut bisect = false;
         let mut height = f64::NAN;
+        let mut previous = 0.0;
         for _ in 0..MAX_ITERATIONS {
             let d = self.eval(x);
             let (g, h) = (sign * d.d1, sign * d.d2);
@@ -336,10 +339,10 @@ impl Series {
             let done = if bisect {
                 hi - lo <= tol
             } else {
-                step.abs() <= tol
-                    || (step.abs() <= 1e-3 * dx
-                        && d.d3.abs() * step * step <= 2e-3 * tol * d.d2.abs())
+                let s = step.abs();
+                s <= tol || s * s * s <= 1e-3 * tol * previous * previous
             };
+            previous = step.abs();
             x = next;
             if done {
                 return (x, height, true);
