@@ -78,11 +78,17 @@ RUN_COLUMNS: tuple[Column, ...] = (
     Column("rejected", _I, "rejected trial steps (adaptive scheme; 0 otherwise)"),
     Column("wall_time", _F, "seconds of wall time for the whole run"),
     Column("cpu_time", _F, "seconds of CPU time of the run's thread"),
-    Column("step_time", _F, "seconds of wall time spent stepping"),
+    Column(
+        "step_time",
+        _F,
+        "seconds of wall time spent stepping (the run, and the restart around a pair's closest "
+        "approach)",
+    ),
     Column(
         "analysis_time",
         _F,
-        "seconds of wall time spent in the collision analysis or the content measurement",
+        "seconds of wall time spent in the collision analysis or the content measurement "
+        "(its restarted stepping counted in step_time)",
     ),
     Column(
         "mass_drift",
