@@ -64,6 +64,9 @@ pub fn ensure_available(what: &'static str, bytes: u128) -> Result<()> {
     let len = usize::try_from(bytes).map_err(|_| refused.clone())?;
     let mut probe: Vec<u8> = Vec::new();
     probe.try_reserve_exact(len).map_err(|_| refused)?;
+    // The probe is never written: without this the optimiser may drop the allocation and its
+    // failure with it (it did once a new module changed the crate's inlining).
+    std::hint::black_box(&mut probe);
     Ok(())
 }
 
