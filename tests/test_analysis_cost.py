@@ -70,8 +70,8 @@ def _exact_maxima(a: np.ndarray, b: np.ndarray, n: int, threshold: float) -> np.
 @pytest.mark.parametrize(
     ("modes", "decay"),
     [
-        (40, 0.25),  # smooth: the Taylor pass settles the extrema
-        (60, 0.1),  # rough: most take the safeguarded iteration on the interpolant
+        (40, 0.25),  # smooth
+        (60, 0.1),  # rough: sharper extrema, more Newton steps in the core's search
     ],
 )
 def test_extrema_of_random_smooth_profiles_match_brentq(
