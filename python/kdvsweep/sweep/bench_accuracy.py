@@ -88,13 +88,13 @@ name = "accuracy-triple"
 
 [[vary]]
 k2 = [{k2}]
-k3 = [{k3}]{points_axis}
+k3 = [{k3}]
 
 [model]
 equation = "kdv"
 scheme = "etdrk4"
 dt = {dt}
-points = {points}
+points = "auto"
 length = "auto"
 
 [initial]
@@ -139,8 +139,6 @@ def sweep_text(
         return _TRIPLE.format(
             k2=_numbers([k[0] for k in triple_k]),
             k3=_numbers([k[1] for k in triple_k]),
-            points_axis="",
-            points='"auto"',
             dt=repr(HAND_TRIPLE_DT) if target is None else '"auto"',
             tail=tail,
             accuracy=accuracy,
