@@ -179,3 +179,21 @@ def test_memory_does_not_grow_with_the_runs(tmp_path: Path) -> None:
     load_sweep(small)  # imports and first-use caches out of the measurement
     growth = (_peak(large) - _peak(small)) / 3000
     assert growth < 400, f"{growth:.0f} bytes per run"
+
+
+def test_shared_models_keep_their_equation_names() -> None:
+    # equations compare without their names; a model shared between runs must not hand one run's
+    # name to another (the name is in the digest and in the runs table)
+    from kdvsweep.model import Equation, Grid
+    from kdvsweep.sweep.config import _make_model
+
+    grid = Grid(64, 30.0)
+    named = Equation.preset("kdv")
+    custom = Equation(a=named.a, b=named.b, d=named.d)
+    assert named == custom
+    assert named.name != custom.name
+    first = _make_model(named, grid, "etdrk4", 0.01, None)
+    second = _make_model(custom, grid, "etdrk4", 0.01, None)
+    assert first.equation.name == named.name
+    assert second.equation.name == custom.name
+    assert _make_model(named, grid, "etdrk4", 0.01, None) is first

@@ -909,8 +909,20 @@ def _make_equation(preset: str | None, coefs: tuple[tuple[str, float], ...]) -> 
 
 
 # One object for the runs that share a model or settings: the digest encodes each once.
-_make_model = functools.lru_cache(maxsize=256, typed=True)(ModelSpec)
 _make_settings = functools.lru_cache(maxsize=256, typed=True)(RunSettings)
+
+
+@functools.lru_cache(maxsize=256, typed=True)
+def _shared_model(
+    eq: Equation, name: str, grid: Grid, scheme: str, dt: float, tol: float | None
+) -> ModelSpec:
+    # ``name`` is in the key: equations compare without it, and a model must keep its own
+    return ModelSpec(eq, grid, scheme, dt, tol)
+
+
+def _make_model(eq: Equation, grid: Grid, scheme: str, dt: float, tol: float | None) -> ModelSpec:
+    """The model of a run, one object for the runs that share it (name of the equation included)."""
+    return _shared_model(eq, eq.name, grid, scheme, dt, tol)
 
 
 @functools.lru_cache(maxsize=256, typed=True)
@@ -1667,14 +1679,6 @@ def _plain_json(data: Any) -> str:
     return json.dumps(data, sort_keys=True, separators=(",", ":"), allow_nan=False)
 
 
-def _keyed(spec: RunSpec) -> dict[str, Any]:
-    """A run as the digest sees it: an ``.npy`` file by its content, not its location."""
-    data = spec.plain()
-    if data["initial"]["kind"] == "npy":
-        data["initial"] = {k: v for k, v in data["initial"].items() if k != "path"}
-    return data
-
-
 class Runs(Sequence[RunSpec]):
     """The runs of a sweep, each expanded from the checked template when it is asked for.
 
@@ -1728,8 +1732,9 @@ class Runs(Sequence[RunSpec]):
             yield self._expand(run_id, params, None)
 
     def _json(self, spec: RunSpec, parts: dict[int, tuple[object, str]]) -> str:
-        """``_plain_json(_keyed(spec))``, written from parts: a model or settings object shared
-        by runs (:func:`_make_model`) is encoded once and kept in ``parts`` by identity."""
+        """The canonical JSON of ``spec.plain()`` (an ``.npy`` file by its content, not its
+        location), written from parts: a model or settings object shared by runs
+        (:func:`_make_model`) is encoded once and kept in ``parts`` by identity."""
 
         def part(obj: ModelSpec | RunSettings) -> str:
             held = parts.get(id(obj))
