@@ -1701,9 +1701,15 @@ class Runs(Sequence[RunSpec]):
     def __len__(self) -> int:
         return len(self._space)
 
-    def _expand(self, run_id: int, params: dict[str, Value], warn: _Warnings | None) -> RunSpec:
+    def _expand(
+        self, run_id: int, params: dict[str, Value] | None, warn: _Warnings | None
+    ) -> RunSpec:
+        """Run ``run_id`` (``params``: its parameters, looked up when ``None``), from those kept
+        unless ``warn`` gathers the warnings of a first expansion."""
         spec = self._kept.get(run_id)
         if spec is None or warn is not None:
+            if params is None:
+                params = self._space[run_id]
             sink = warn if warn is not None else _Warnings("", len(self._space))
             spec = _expand_run(self._tpl, _Run(self._src, run_id, params), sink)
             self._kept[run_id] = spec
@@ -1720,9 +1726,7 @@ class Runs(Sequence[RunSpec]):
     def __getitem__(self, index: int | slice) -> RunSpec | list[RunSpec]:
         if isinstance(index, slice):
             return [self[i] for i in range(*index.indices(len(self)))]
-        run_id = index + len(self) if index < 0 else index
-        spec = self._kept.get(run_id)
-        return spec if spec is not None else self._expand(run_id, self._space[index], None)
+        return self._expand(self._space.run_id(index), None, None)
 
     def __iter__(self) -> Iterator[RunSpec]:
         if len(self._kept) == len(self):  # all at hand

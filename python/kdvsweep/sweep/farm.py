@@ -384,14 +384,12 @@ def run_sweep(
     with _interrupt_guard(), Store.open(out, sweep) as store:
         if retry_failed:
             store.forget_failed()
-        total, done = len(sweep.runs), store.done
-        skipped = sum(1 for run_id in done if 0 <= run_id < total)
-        report = SweepReport(Path(out), total, skipped=skipped)
+        total = len(sweep.runs)
+        report = SweepReport(Path(out), total, skipped=len(store.done))
         if on_progress is not None:
             on_progress(report.skipped, len(store.failed), report.total)
-        if skipped < total:
-            todo = (i for i in range(total) if i not in done)
-            chunker = _Chunker(sweep.runs, todo, total - skipped, chunk_seconds)
+        if report.pending:
+            chunker = _Chunker(sweep.runs, store.pending_ids(), report.pending, chunk_seconds)
             with contextlib.ExitStack() as stack:
                 if client is None:
                     client = stack.enter_context(local_client(workers))

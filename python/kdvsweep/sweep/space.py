@@ -267,6 +267,15 @@ class Space(Sequence[dict[str, Value]]):
                 params[name] = col[i]
         return params
 
+    def run_id(self, index: int) -> int:
+        """The run of ``index`` (negative from the end); IndexError outside the sweep."""
+        i = operator.index(index)
+        if i < 0:
+            i += self._count
+        if not 0 <= i < self._count:
+            raise IndexError(f"run {index} of a sweep of {self._count} runs")
+        return i
+
     @overload
     def __getitem__(self, index: int) -> dict[str, Value]: ...
 
@@ -276,11 +285,7 @@ class Space(Sequence[dict[str, Value]]):
     def __getitem__(self, index: int | slice) -> dict[str, Value] | list[dict[str, Value]]:
         if isinstance(index, slice):
             return [self[i] for i in range(*index.indices(self._count))]
-        i = operator.index(index)
-        if i < 0:
-            i += self._count
-        if not 0 <= i < self._count:
-            raise IndexError(f"run {index} of a sweep of {self._count} runs")
+        i = self.run_id(index)
         positions = []
         for size in reversed(self._sizes):  # mixed radix, the last axis fastest
             i, digit = divmod(i, size)

@@ -948,6 +948,12 @@ class Store:
         """The runs (specs with ``run_id``) not stored yet, in the given order."""
         return [r for r in runs if int(r.run_id) not in self._done]
 
+    def pending_ids(self) -> Iterator[int]:
+        """The ids of the sweep's runs not stored yet, in order, drawn one at a time (no list of
+        a sweep's runs is built); the runs stored when it is called count as done."""
+        done = frozenset(self._done)
+        return (i for i in range(int(self.manifest["runs_total"])) if i not in done)
+
     def forget_failed(self) -> frozenset[int]:
         """Drop the stored rows of the failed runs, so that they are pending again (retry).
 
