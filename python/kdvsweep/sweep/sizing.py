@@ -35,18 +35,26 @@ by ``kdvsweep bench --steps``), taken at ``max|u|``: the largest amplitude, or f
 both polarities the sum of the amplitudes (their peak when they meet, seen on the exact 2-soliton).
 The resolution levels :data:`WARN_DECADES` and :data:`REFUSE_DECADES` live there too, with the
 spectral estimate used for data other than solitons (:func:`kdvsweep.simulation.spectrum_decades`).
+
+Blocks of runs: :func:`auto_positions`, :func:`end_time`, :func:`min_length`, :func:`points_needed`,
+:func:`auto_points` and :func:`nice_ceil` take arrays with one run per row (a run alone is a block of
+one) and give, row by row, the very bits a run alone gave: numpy only adds, multiplies, divides and
+compares (correctly rounded), logarithms are taken element by element with ``math`` (numpy's
+vectorised ones may differ by an ulp), maxima follow Python's ``max`` (a NaN candidate is skipped)
+and sums run left to right. The values feed the sweep digest.
 """
 
 from __future__ import annotations
 
-import itertools
 import math
+import sys
 from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, overload
 
 import numpy as np
 
+from ..exceptions import ShapeError
 from ..model import SolitonForm
 from ..simulation import (
     REFUSE_DECADES,
@@ -62,71 +70,188 @@ if TYPE_CHECKING:
     from ..spectrum import SolitonContent
 
 
-def reach(kappa: float, form: SolitonForm, tail: float) -> float:
+def _tail_constant(kappa: float, form: SolitonForm) -> float:
+    """The larger :meth:`SolitonForm.tail_constant` over the equation's polarities."""
+    return max(form.tail_constant(kappa, s) for s in form.polarities)
+
+
+def _logs(values: np.ndarray) -> np.ndarray:
+    """``math.log`` element by element (numpy's SIMD log may differ from libm by an ulp)."""
+    return np.array([math.log(v) for v in values.ravel().tolist()], dtype=np.float64).reshape(
+        values.shape
+    )
+
+
+@overload
+def reach(kappa: float, form: SolitonForm, tail: float) -> float: ...
+@overload
+def reach(kappa: np.ndarray, form: SolitonForm, tail: float) -> np.ndarray: ...
+def reach(kappa: float | np.ndarray, form: SolitonForm, tail: float) -> float | np.ndarray:
     """Distance from a soliton's centre to where its relative tail ``C e^{-2 kappa |x|}`` is
     ``tail``, ``ln(C / tail) / (2 kappa)``, with ``C`` of :meth:`SolitonForm.tail_constant` (the
-    larger over the equation's polarities; near Gardner's table-top limit it covers the plateau)."""
-    constant = max(form.tail_constant(kappa, s) for s in form.polarities)
-    return math.log(constant / tail) / (2.0 * kappa)
+    larger over the equation's polarities; near Gardner's table-top limit it covers the plateau).
+
+    ``kappa`` a float (a float back) or an array of any shape (an array of that shape).
+    """
+    k = np.asarray(kappa, dtype=np.float64)
+    if form.family == "gardner":  # C depends on kappa: once per distinct kappa
+        distinct, where = np.unique(k, return_inverse=True)
+        constants = np.array([_tail_constant(v, form) for v in distinct.tolist()])
+        logs = _logs(constants / tail)[where.reshape(k.shape)]
+    else:  # KdV, mKdV: C is a constant of the family (any kappa gives it)
+        logs = np.full(k.shape, math.log(_tail_constant(1.0, form) / tail))
+    with np.errstate(all="ignore"):
+        out = logs / (2.0 * k)
+    return float(out) if out.ndim == 0 else out
 
 
-def gap(k_i: float, k_j: float, form: SolitonForm, tail: float) -> float:
-    """Centre distance where the wider soliton's relative tail at the other's centre is ``tail``."""
-    return reach(min(k_i, k_j), form, tail)
+def _wider(k_i: np.ndarray, k_j: np.ndarray, r_i: np.ndarray, r_j: np.ndarray) -> np.ndarray:
+    """The reach of the wider soliton (``min(k_i, k_j)`` as Python's ``min``: ``k_i`` on ties)."""
+    return np.where(k_j < k_i, r_j, r_i)
 
 
-def shift_bound(k_i: float, k_j: float) -> float:
-    """Magnitude of soliton i's position shift from overtaking j (:func:`theory.pair_shift`)."""
-    return abs(pair_shift(k_i, k_j))
+@overload
+def gap(k_i: float, k_j: float, form: SolitonForm, tail: float) -> float: ...
+@overload
+def gap(k_i: np.ndarray, k_j: np.ndarray, form: SolitonForm, tail: float) -> np.ndarray: ...
+def gap(
+    k_i: float | np.ndarray, k_j: float | np.ndarray, form: SolitonForm, tail: float
+) -> float | np.ndarray:
+    """Centre distance where the wider soliton's relative tail at the other's centre is ``tail``
+    (floats, or arrays element by element)."""
+    ki = np.asarray(k_i, dtype=np.float64)
+    kj = np.asarray(k_j, dtype=np.float64)
+    out = _wider(ki, kj, reach(ki, form, tail), reach(kj, form, tail))
+    return float(out) if out.ndim == 0 else out
 
 
-def auto_positions(kappas: Sequence[float], form: SolitonForm, tail: float) -> list[float]:
-    """Centres in the listed order, neighbours one gap apart, the group centred on 0."""
-    positions = [0.0]
-    for left, right in itertools.pairwise(kappas):
-        positions.append(positions[-1] + gap(left, right, form, tail))
-    middle = 0.5 * (positions[0] + positions[-1])
-    return [p - middle for p in positions]
+@overload
+def shift_bound(k_i: float, k_j: float) -> float: ...
+@overload
+def shift_bound(k_i: np.ndarray, k_j: np.ndarray) -> np.ndarray: ...
+def shift_bound(k_i: float | np.ndarray, k_j: float | np.ndarray) -> float | np.ndarray:
+    """Magnitude of soliton i's position shift from overtaking j, ``|`` :func:`theory.pair_shift`
+    ``|`` = ``ln((k_i + k_j) / |k_i - k_j|) / k_i`` (floats, or arrays element by element).
+
+    Kappas that are equal, not positive or not finite raise pair_shift's ConfigError (the first
+    such element's).
+    """
+    ki = np.asarray(k_i, dtype=np.float64)
+    kj = np.asarray(k_j, dtype=np.float64)
+    good = np.isfinite(ki) & np.isfinite(kj) & (ki > 0) & (kj > 0) & (ki != kj)
+    if not good.all():
+        first = np.flatnonzero(~np.broadcast_to(good, np.broadcast(ki, kj).shape).ravel())[0]
+        pi_, pj_ = np.broadcast_arrays(ki, kj)
+        pair_shift(float(pi_.ravel()[first]), float(pj_.ravel()[first]))  # raises its message
+    out = _logs((ki + kj) / np.abs(ki - kj)) / ki
+    return float(out) if out.ndim == 0 else out
 
 
-def _overtaking(positions: Sequence[float], speeds: Sequence[float]) -> list[tuple[int, int]]:
-    """Pairs (i, j) with soliton i behind (left of) j and faster: they collide."""
-    n = len(positions)
-    return [
-        (i, j)
-        for i in range(n)
-        for j in range(n)
-        if positions[i] < positions[j] and speeds[i] > speeds[j]
-    ]
+def _block(values: Sequence[float] | np.ndarray) -> np.ndarray:
+    """A block of runs ``(m, N)`` float64: an array as given (2-D), a sequence as one run."""
+    if isinstance(values, np.ndarray):
+        if values.ndim != 2:
+            raise ShapeError(f"sizing: a block of runs has shape (m, N), got {values.shape}")
+        return values.astype(np.float64, copy=False)
+    return np.array([values], dtype=np.float64)
 
 
-def _shift_bounds(kappas: Sequence[float], pairs: list[tuple[int, int]]) -> list[list[float]]:
-    """``b[i][k]``: bound on soliton i's shift from its collision with k (0 if they never meet)."""
-    b = [[0.0] * len(kappas) for _ in kappas]
-    for i, j in pairs:
-        b[i][j] = shift_bound(kappas[i], kappas[j])
-        b[j][i] = shift_bound(kappas[j], kappas[i])
+@overload
+def auto_positions(kappas: Sequence[float], form: SolitonForm, tail: float) -> list[float]: ...
+@overload
+def auto_positions(kappas: np.ndarray, form: SolitonForm, tail: float) -> np.ndarray: ...
+def auto_positions(
+    kappas: Sequence[float] | np.ndarray, form: SolitonForm, tail: float
+) -> list[float] | np.ndarray:
+    """Centres in the listed order, neighbours one gap apart, the group centred on 0.
+
+    ``kappas`` of shape ``(m, N)`` (``m`` runs of ``N >= 1`` solitons) gives the ``(m, N)``
+    centres; a sequence of floats is one run (a list back).
+    """
+    k = _block(kappas)
+    r = reach(k, form, tail)
+    positions = np.zeros_like(k)
+    for col in range(1, k.shape[1]):  # left to right, as the neighbours are placed
+        left, right = col - 1, col
+        step = _wider(k[:, left], k[:, right], r[:, left], r[:, right])
+        positions[:, col] = positions[:, left] + step
+    middle = 0.5 * (positions[:, 0] + positions[:, -1])
+    out = positions - middle[:, None]
+    return out if isinstance(kappas, np.ndarray) else [float(p) for p in out[0]]
+
+
+def _overtaking(positions: np.ndarray, speeds: np.ndarray) -> dict[tuple[int, int], np.ndarray]:
+    """Pairs (i, j) with soliton i behind (left of) j and faster, with the rows (indices) where
+    they collide; pairs colliding in no row are left out. In the order ``i``, then ``j``."""
+    n = positions.shape[1]
+    pairs = {}
+    for i in range(n):
+        for j in range(n):
+            rows = np.flatnonzero(
+                (positions[:, i] < positions[:, j]) & (speeds[:, i] > speeds[:, j])
+            )
+            if rows.size:
+                pairs[i, j] = rows
+    return pairs
+
+
+def _shift_bounds(kappas: np.ndarray, pairs: dict[tuple[int, int], np.ndarray]) -> np.ndarray:
+    """``b[:, i, k]``: bound on soliton i's shift from its collision with k (0 if they never
+    meet), for every run of the block."""
+    m, n = kappas.shape
+    b = np.zeros((m, n, n))
+    for (i, j), rows in pairs.items():
+        b[rows, i, j] = shift_bound(kappas[rows, i], kappas[rows, j])
+        b[rows, j, i] = shift_bound(kappas[rows, j], kappas[rows, i])
     return b
 
 
+@overload
 def end_time(
     positions: Sequence[float],
     kappas: Sequence[float],
     speeds: Sequence[float],
     form: SolitonForm,
     tail: float,
-) -> float:
-    """Time by which every overtaking pair is one gap apart again (0 when none overtakes)."""
-    pairs = _overtaking(positions, speeds)
-    b = _shift_bounds(kappas, pairs)
-    t_end = 0.0
-    for i, j in pairs:
-        third = sum(b[i][k] + b[j][k] for k in range(len(kappas)) if k not in (i, j))
-        distance = positions[j] - positions[i] + gap(kappas[i], kappas[j], form, tail) + third
-        t_end = max(t_end, distance / (speeds[i] - speeds[j]))
-    return t_end
+) -> float: ...
+@overload
+def end_time(
+    positions: np.ndarray,
+    kappas: np.ndarray,
+    speeds: np.ndarray,
+    form: SolitonForm,
+    tail: float,
+) -> np.ndarray: ...
+def end_time(
+    positions: Sequence[float] | np.ndarray,
+    kappas: Sequence[float] | np.ndarray,
+    speeds: Sequence[float] | np.ndarray,
+    form: SolitonForm,
+    tail: float,
+) -> float | np.ndarray:
+    """Time by which every overtaking pair is one gap apart again (0 when none overtakes).
+
+    Rows of shape ``(m, N)`` give the ``(m,)`` times; sequences of floats are one run (a float).
+    """
+    p, k, c = _block(positions), _block(kappas), _block(speeds)
+    pairs = _overtaking(p, c)
+    b = _shift_bounds(k, pairs)
+    r = reach(k, form, tail)
+    t_end = np.zeros(p.shape[0])
+    with np.errstate(all="ignore"):
+        for (i, j), rows in pairs.items():
+            third = np.zeros(rows.size)  # summed in the order of k, as sum() does
+            for other in range(k.shape[1]):
+                if other not in (i, j):
+                    third = third + (b[rows, i, other] + b[rows, j, other])
+            g = _wider(k[rows, i], k[rows, j], r[rows, i], r[rows, j])
+            distance = p[rows, j] - p[rows, i] + g + third
+            t = distance / (c[rows, i] - c[rows, j])
+            t_end[rows] = np.where(t > t_end[rows], t, t_end[rows])  # max(t_end, t)
+    return t_end if isinstance(positions, np.ndarray) else float(t_end[0])
 
 
+@overload
 def min_length(
     positions: Sequence[float],
     kappas: Sequence[float],
@@ -134,61 +259,183 @@ def min_length(
     form: SolitonForm,
     tail: float,
     t_end: float,
-) -> float:
-    """Shortest period keeping every soliton a gap from the others' images on ``[0, t_end]``."""
-    pairs = _overtaking(positions, speeds)
-    b = _shift_bounds(kappas, pairs)
-    total = [sum(row) for row in b]
-    need = 0.0
-    n = len(kappas)
-    for i in range(n):
-        for j in range(i, n):
-            start = abs(positions[i] - positions[j])
-            end = abs(positions[i] - positions[j] + (speeds[i] - speeds[j]) * t_end)
-            if i != j:
-                end += total[i] + total[j]
-            need = max(need, max(start, end) + gap(kappas[i], kappas[j], form, tail))
-    return need
+) -> float: ...
+@overload
+def min_length(
+    positions: np.ndarray,
+    kappas: np.ndarray,
+    speeds: np.ndarray,
+    form: SolitonForm,
+    tail: float,
+    t_end: np.ndarray,
+) -> np.ndarray: ...
+def min_length(
+    positions: Sequence[float] | np.ndarray,
+    kappas: Sequence[float] | np.ndarray,
+    speeds: Sequence[float] | np.ndarray,
+    form: SolitonForm,
+    tail: float,
+    t_end: float | np.ndarray,
+) -> float | np.ndarray:
+    """Shortest period keeping every soliton a gap from the others' images on ``[0, t_end]``.
+
+    Rows of shape ``(m, N)`` and ``t_end`` of shape ``(m,)`` give the ``(m,)`` lengths; sequences
+    of floats and a float ``t_end`` are one run (a float).
+    """
+    p, k, c = _block(positions), _block(kappas), _block(speeds)
+    t = np.asarray(t_end, dtype=np.float64).reshape(-1)
+    b = _shift_bounds(k, _overtaking(p, c))
+    r = reach(k, form, tail)
+    m, n = k.shape
+    total = np.zeros((m, n))  # sum(row), left to right
+    for other in range(n):
+        total = total + b[:, :, other]
+    need = np.zeros(m)
+    with np.errstate(all="ignore"):
+        for i in range(n):
+            for j in range(i, n):
+                start = np.abs(p[:, i] - p[:, j])
+                end = np.abs(p[:, i] - p[:, j] + (c[:, i] - c[:, j]) * t)
+                if i != j:
+                    end = end + (total[:, i] + total[:, j])
+                g = _wider(k[:, i], k[:, j], r[:, i], r[:, j])
+                v = np.where(end > start, end, start) + g  # max(start, end) + gap
+                need = np.where(v > need, v, need)  # max(need, v)
+    return need if isinstance(positions, np.ndarray) else float(need[0])
 
 
-def nice_ceil(value: float) -> float:
-    """``value`` rounded up to two significant digits (68.7 -> 69, 6.87 -> 6.9)."""
+def _nice_ceil(value: float) -> float:
     step = 10.0 ** (math.floor(math.log10(value)) - 1)
     return float(f"{math.ceil(value / step - 1e-9) * step:.12g}")
 
 
-def min_points_per_width(dealias: float, decades: float) -> float:
-    """Points per soliton width keeping ``decades`` of spectrum at the dealiasing cutoff."""
+@overload
+def nice_ceil(value: float) -> float: ...
+@overload
+def nice_ceil(value: np.ndarray) -> np.ndarray: ...
+def nice_ceil(value: float | np.ndarray) -> float | np.ndarray:
+    """``value`` rounded up to two significant digits (68.7 -> 69, 6.87 -> 6.9); a float, or an
+    array element by element."""
+    if isinstance(value, np.ndarray):
+        flat = [_nice_ceil(v) for v in value.astype(np.float64).ravel().tolist()]
+        return np.array(flat, dtype=np.float64).reshape(value.shape)
+    return _nice_ceil(value)
+
+
+@overload
+def min_points_per_width(dealias: float, decades: float) -> float: ...
+@overload
+def min_points_per_width(dealias: float, decades: np.ndarray) -> np.ndarray: ...
+def min_points_per_width(dealias: float, decades: float | np.ndarray) -> float | np.ndarray:
+    """Points per soliton width keeping ``decades`` of spectrum at the dealiasing cutoff (a float,
+    or an array for an array of ``decades``)."""
     return 2.0 * decades * math.log(10.0) / (dealias * math.pi**2)
 
 
+@overload
 def points_needed(
     narrowest: float, length: float, dealias: float, decades: float = WARN_DECADES
-) -> float:
-    """Points that resolve the narrowest width with no warning (a float: may be huge or inf);
+) -> float: ...
+@overload
+def points_needed(
+    narrowest: np.ndarray,
+    length: float | np.ndarray,
+    dealias: float,
+    decades: float | np.ndarray = WARN_DECADES,
+) -> np.ndarray: ...
+@overload
+def points_needed(
+    narrowest: float, length: np.ndarray, dealias: float, decades: float | np.ndarray = WARN_DECADES
+) -> np.ndarray: ...
+@overload
+def points_needed(
+    narrowest: float, length: float, dealias: float, decades: np.ndarray
+) -> np.ndarray: ...
+def points_needed(
+    narrowest: float | np.ndarray,
+    length: float | np.ndarray,
+    dealias: float,
+    decades: float | np.ndarray = WARN_DECADES,
+) -> float | np.ndarray:
+    """Points that resolve the narrowest width with no warning (may be huge or inf);
     ``decades`` of spectrum kept at the cutoff (fewer with an accuracy target:
-    :func:`kdvsweep.sweep.accuracy.auto_decades`)."""
-    if not narrowest > 0:
-        return math.inf
-    return length / narrowest * min_points_per_width(dealias, decades)
+    :func:`kdvsweep.sweep.accuracy.auto_decades`).
+
+    ``narrowest``, ``length`` and ``decades`` are floats (a float back) or arrays broadcast
+    together (a float64 array back).
+    """
+    w = np.asarray(narrowest, dtype=np.float64)
+    per_width = min_points_per_width(dealias, np.asarray(decades, dtype=np.float64))
+    with np.errstate(all="ignore"):
+        out = np.where(w > 0, np.asarray(length, dtype=np.float64) / w * per_width, math.inf)
+    return float(out) if out.ndim == 0 else out
 
 
+def _ladder() -> list[int]:
+    """The FFT-friendly sizes 16, 24, 32, 48, 64, ... (``2^p`` and ``3 2^p``) up to the first
+    beyond every finite float."""
+    sizes = [16]
+    while sizes[-1] <= sys.float_info.max:
+        n = sizes[-1]
+        sizes.append(n // 2 * 3 if n & (n - 1) == 0 else n // 3 * 4)
+    return sizes
+
+
+_SIZES = _ladder()
+# exact as floats (2^p and 3 2^p); the last, 2^1024, is above every finite need
+_SIZES_FLOAT = np.array([float(n) if n <= sys.float_info.max else math.inf for n in _SIZES])
+_INT64_SIZES = sum(1 for n in _SIZES if n <= np.iinfo(np.int64).max)
+
+
+@overload
 def auto_points(
     narrowest: float, length: float, dealias: float, decades: float = WARN_DECADES
-) -> int:
+) -> int: ...
+@overload
+def auto_points(
+    narrowest: np.ndarray,
+    length: float | np.ndarray,
+    dealias: float,
+    decades: float | np.ndarray = WARN_DECADES,
+) -> np.ndarray: ...
+@overload
+def auto_points(
+    narrowest: float, length: np.ndarray, dealias: float, decades: float | np.ndarray = WARN_DECADES
+) -> np.ndarray: ...
+@overload
+def auto_points(
+    narrowest: float, length: float, dealias: float, decades: np.ndarray
+) -> np.ndarray: ...
+def auto_points(
+    narrowest: float | np.ndarray,
+    length: float | np.ndarray,
+    dealias: float,
+    decades: float | np.ndarray = WARN_DECADES,
+) -> int | np.ndarray:
     """Smallest FFT-friendly even ``n`` (``2^p`` or ``3 2^p``, at least 16) with no warning
-    (``decades`` as :func:`points_needed`).
+    (``decades`` as :func:`points_needed`; floats give an int, arrays an int64 array).
 
     Raises ValueError when :func:`points_needed` is not finite (callers compare it with their
-    limit first).
+    limit first; the first such element is named), or, for arrays, when ``n`` exceeds int64.
     """
-    need = points_needed(narrowest, length, dealias, decades)
-    if not math.isfinite(need):
-        raise ValueError(f"automatic points: no grid resolves width {narrowest} on length {length}")
-    n = 16
-    while n < need:
-        n = n // 2 * 3 if n & (n - 1) == 0 else n // 3 * 4  # 16, 24, 32, 48, 64, ...
-    return n
+    need = np.asarray(points_needed(narrowest, length, dealias, decades))
+    bad = np.flatnonzero(~np.isfinite(need).ravel())
+    if bad.size:
+        shown = [
+            np.broadcast_to(np.asarray(v), need.shape).ravel()[bad[0]].item()
+            if isinstance(v, np.ndarray)
+            else v
+            for v in (narrowest, length)
+        ]
+        raise ValueError(
+            f"automatic points: no grid resolves width {shown[0]} on length {shown[1]}"
+        )
+    at = np.searchsorted(_SIZES_FLOAT, need, side="left")  # the first size >= need
+    if need.ndim == 0:
+        return _SIZES[int(at)]
+    if at.size and int(at.max()) >= _INT64_SIZES:
+        raise ValueError(f"automatic points: {float(need.max()):.3g} points exceed int64")
+    return np.array(_SIZES[:_INT64_SIZES], dtype=np.int64)[at]
 
 
 #: Arrays of ``n`` float64 (a spectrum of ``n/2 + 1`` complex modes counts as one) that the core's
@@ -202,8 +449,13 @@ STEPPER_BUFFERS = {"etdrk4": 26, "ifrk4": 18, "strang": 18, "adaptive": 20}
 FRAME_COPIES = 4
 
 
-def run_memory(n: int, frames: int, scheme: str) -> int:
-    """Estimated peak memory of one run, bytes: ``8 n (FRAME_COPIES frames + buffers)``."""
+@overload
+def run_memory(n: int, frames: int, scheme: str) -> int: ...
+@overload
+def run_memory(n: np.ndarray, frames: int, scheme: str) -> np.ndarray: ...
+def run_memory(n: int | np.ndarray, frames: int, scheme: str) -> int | np.ndarray:
+    """Estimated peak memory of one run, bytes: ``8 n (FRAME_COPIES frames + buffers)`` (an int,
+    or an array for an array of ``n``)."""
     buffers = STEPPER_BUFFERS.get(scheme, max(STEPPER_BUFFERS.values()))
     return 8 * n * (FRAME_COPIES * frames + buffers)
 
