@@ -174,10 +174,11 @@ def test_memory_does_not_grow_with_the_runs(tmp_path: Path) -> None:
     # the eager loader held about 4 kB per run of this kind (measured: 37.7 MB peak for 10^4);
     # the lazy one holds the axes (a float per run) and a bounded cache
     small, large = tmp_path / "small.toml", tmp_path / "large.toml"
-    small.write_text(PAIRS.format(count=1500))  # both above the runs kept expanded (Runs.KEPT)
-    large.write_text(PAIRS.format(count=4500))
+    # both above the runs kept evaluated (Runs.KEPT blocks of Runs.BLOCK runs)
+    small.write_text(PAIRS.format(count=10_000))
+    large.write_text(PAIRS.format(count=20_000))
     load_sweep(small)  # imports and first-use caches out of the measurement
-    growth = (_peak(large) - _peak(small)) / 3000
+    growth = (_peak(large) - _peak(small)) / 10_000
     assert growth < 400, f"{growth:.0f} bytes per run"
 
 

@@ -469,7 +469,7 @@ class SolitonForm:
         out = 0.5 / np.asarray(kappa, dtype=np.float64)
         return float(out) if out.ndim == 0 else out
 
-    def tail_constant(self, kappa: float, sign: int | None = None) -> float:
+    def tail_constant(self, kappa: ArrayLike, sign: int | None = None) -> Any:
         """``C`` of the tail ``C e^{-2 kappa |x|}`` relative to the peak: 4 (KdV ``sech^2``), 2
         (mKdV ``sech``), ``2 (1 + s r) / (s r)`` (Gardner; large near the table-top limit)."""
         if self.family == "kdv":
@@ -477,8 +477,10 @@ class SolitonForm:
         if self.family == "mkdv":
             return 2.0
         s = self._branch(sign)
-        r = float(self._gardner_r(np.asarray(kappa, dtype=np.float64)))
-        return 2.0 * (1.0 + s * r) / (s * r)
+        r = self._gardner_r(np.asarray(kappa, dtype=np.float64))
+        with np.errstate(all="ignore"):
+            out = 2.0 * (1.0 + s * r) / (s * r)
+        return float(out) if out.ndim == 0 else out
 
     def breather_amplitude(self, eta: ArrayLike) -> Any:
         """Peak ``|u|`` of a focusing-mKdV breather's envelope of eigenvalue pair ``+-xi + i eta``:

@@ -13,8 +13,10 @@ from __future__ import annotations
 import math
 import warnings
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from . import _core
 from .exceptions import ConfigError, ShapeError
@@ -48,12 +50,16 @@ class StepRule:
     nonlinear: float
     mixed: float = math.inf
 
-    def limit(self, rate_nl: float, rate_lin: float) -> float:
-        """The largest safe step for these rates (inf when the nonlinear rate is 0)."""
-        if not rate_nl > 0:
-            return math.inf
-        product = math.sqrt(rate_nl * rate_lin)
-        return min(self.nonlinear / rate_nl, self.mixed / product if product > 0 else math.inf)
+    def limit(self, rate_nl: ArrayLike, rate_lin: ArrayLike) -> Any:
+        """The largest safe step for these rates (inf when the nonlinear rate is 0); a float, or
+        an array for arrays of rates."""
+        nl = np.asarray(rate_nl, dtype=np.float64)
+        with np.errstate(all="ignore"):
+            product = np.sqrt(nl * np.asarray(rate_lin, dtype=np.float64))
+            mixed = np.where(product > 0, self.mixed / product, math.inf)
+            own = self.nonlinear / nl
+            out = np.where(nl > 0, np.where(mixed < own, mixed, own), math.inf)
+        return float(out) if out.ndim == 0 else out
 
 
 #: Safety factor: the Strang and IFRK4 constants of :data:`STEP_RULE` are this times the smallest
@@ -98,13 +104,17 @@ STEP_RULE: dict[str, StepRule] = {
 }
 
 
-def dt_limit(scheme: str, max_u: float, equation: Equation, dx: float) -> float:
+def dt_limit(
+    scheme: str, max_u: float | np.ndarray, equation: Equation, dx: float | np.ndarray
+) -> Any:
     """The largest safe step of ``scheme`` (:data:`STEP_RULE`) for data of peak ``max_u`` on a
     grid of spacing ``dx``; inf for the adaptive scheme (its error control picks the step) and
-    for a linear equation."""
+    for a linear equation. A float, or an array for arrays of peaks and spacings (runs of a
+    sweep)."""
     rule = STEP_RULE.get(scheme)
     if rule is None:
-        return math.inf
+        shape = np.broadcast(np.asarray(max_u), np.asarray(dx)).shape
+        return math.inf if not shape else np.full(shape, math.inf)
     rate = nonlinear_rate(max_u, equation.a, equation.b, equation.dealias_fraction, dx)
     return rule.limit(rate, linear_rate(equation, dx))
 
@@ -180,7 +190,9 @@ def resolution_warning(u: object, equation: Equation, grid: Grid) -> str | None:
     return text
 
 
-def nonlinear_rate(max_u: float, a: float, b: float, dealias: float, dx: float) -> float:
+def nonlinear_rate(
+    max_u: float | np.ndarray, a: float, b: float, dealias: float, dx: float | np.ndarray
+) -> Any:
     """The nonlinear term's largest rate ``(|a| max|u| + |b| max u^2) k_cut``, with
     ``k_cut = dealias pi / dx`` the largest wavenumber the nonlinear term keeps (the largest
     frequency of the flux linearised about ``max|u|``), in float arithmetic that gives inf rather
@@ -188,7 +200,7 @@ def nonlinear_rate(max_u: float, a: float, b: float, dealias: float, dx: float) 
     return (abs(a) * max_u + abs(b) * max_u * max_u) * dealias * math.pi / dx
 
 
-def linear_rate(equation: Equation, dx: float) -> float:
+def linear_rate(equation: Equation, dx: ArrayLike) -> Any:
     """The dispersive rate of the kept band: the largest ``k |omega'(k)| / 3`` for
     ``0 < k <= k_cut``, with ``omega(k) = d k^3 - f k^5`` the dispersion relation, that is the
     largest ``|d k^3 - (5/3) f k^5|`` (``|d| k_cut^3`` without ``f``; ``k_cut`` as in
@@ -199,16 +211,17 @@ def linear_rate(equation: Equation, dx: float) -> float:
     (:data:`STEP_RULE`). Fifth-order dispersion of the same sign as ``d`` slows the group velocity
     near the cutoff (``omega' = 3 d k^2 - 5 f k^4``) and so allows a longer step.
     """
-    k_cut = equation.dealias_fraction * math.pi / dx
-    candidates = [k_cut]
-    if equation.f != 0 and equation.d / equation.f > 0:  # interior extremum of d k^3 - 5/3 f k^5
-        inner = math.sqrt(9.0 * equation.d / (25.0 * equation.f))
-        if inner < k_cut:
-            candidates.append(inner)
-    return max(
-        abs(equation.d * k * k * k - (5.0 / 3.0) * equation.f * k * k * k * k * k)
-        for k in candidates
-    )
+    d, f = equation.d, equation.f
+    k_cut = equation.dealias_fraction * math.pi / np.asarray(dx, dtype=np.float64)
+    with np.errstate(all="ignore"):
+        out = np.abs(
+            d * k_cut * k_cut * k_cut - (5.0 / 3.0) * f * k_cut * k_cut * k_cut * k_cut * k_cut
+        )
+        if f != 0 and d / f > 0:  # interior extremum of d k^3 - 5/3 f k^5, where in the band
+            k = math.sqrt(9.0 * d / (25.0 * f))
+            top = abs(d * k * k * k - (5.0 / 3.0) * f * k * k * k * k * k)
+            out = np.where((k < k_cut) & (top > out), top, out)
+    return float(out) if out.ndim == 0 else out
 
 
 def _positive(name: str, value: object) -> float:

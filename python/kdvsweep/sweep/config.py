@@ -21,12 +21,13 @@ import re
 import tomllib
 import warnings
 from collections import OrderedDict
-from collections.abc import Iterator, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, overload
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from .. import exact, reference
 from .. import initial as init
@@ -34,7 +35,7 @@ from .. import units as physunits
 from ..columns import Layout, has_content
 from ..exceptions import ConfigError, ShapeError
 from ..model import COEFFICIENTS, Equation, Grid, SolitonForm
-from ..simulation import ADAPTIVE, DEFAULT_SCHEME, SCHEMES, step_options
+from ..simulation import ADAPTIVE, DEFAULT_SCHEME, SCHEMES, dt_limit, nonlinear_rate, step_options
 from . import accuracy as acc
 from . import sizing
 from .expr import Expression, ExpressionError
@@ -401,8 +402,8 @@ class _Template:
     seed: int = acc.DEFAULT_SEED
     #: ``model.dt = "auto"`` (:func:`kdvsweep.sweep.accuracy.auto_dt`).
     dt_auto: bool = False
-    #: The run ids chosen for verification (set once the runs are counted).
-    verified: frozenset[int] = frozenset()
+    #: The run ids chosen for verification, ascending (set once the runs are counted).
+    verified_ids: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
     #: Predicted content of each distinct profile (sizing), by the profile's plain form.
     content_cache: dict[str, Any] = field(default_factory=dict)
 
@@ -621,12 +622,12 @@ def _read_units(src: Source, top: Table, names: _Names) -> tuple[str, dict[str, 
     return name, values
 
 
-def _system(tpl: _Template, ctx: _Run) -> physunits.System | None:
+def _system(tpl: _Template, ctx: _Block) -> physunits.System | None:
     """The physical system of one run (``[units]``), its keys evaluated; ``None`` without it."""
     if tpl.units is None:
         return None
     name, slots = tpl.units
-    values = {key: ctx.num(slot) for key, slot in slots.items()}
+    values = {key: ctx.num1(slot) for key, slot in slots.items()}
     try:
         return physunits.make_system(name, values)
     except physunits.ParameterError as err:
@@ -641,7 +642,7 @@ def _system(tpl: _Template, ctx: _Run) -> physunits.System | None:
         ) from None
 
 
-def _units_equation(tpl: _Template, ctx: _Run, system: physunits.System) -> Equation:
+def _units_equation(tpl: _Template, ctx: _Block, system: physunits.System) -> Equation:
     """The canonical equation of a run with ``[units]``: the system's ``a, b, d``; a given
     ``model.equation`` may add ``f, g, v, dealias`` (canonical units) and may repeat ``a, b, d``
     or name a preset only where they agree with the system's."""
@@ -661,9 +662,9 @@ def _units_equation(tpl: _Template, ctx: _Run, system: physunits.System) -> Equa
             if not isinstance(value, _Num):
                 continue
             if key in ("a", "b", "d"):
-                given[key] = (value.key, value.given, ctx.num(value))
+                given[key] = (value.key, value.given, ctx.num1(value))
             else:
-                extra[key] = ctx.num(value)
+                extra[key] = ctx.num1(value)
     for coef, (key, shown, number) in given.items():
         want = getattr(target, coef)
         if not math.isclose(number, want, rel_tol=1e-9, abs_tol=1e-300):
@@ -791,93 +792,236 @@ def _npy_path(tab: Table, file: str, base: Path) -> Path:
 # ----------------------------------------------------------------------------- one run
 
 
-class _Run:
-    """Evaluation of the template for one parameter set, with errors naming the run."""
+class _Block:
+    """Runs of the sweep evaluated together: a value that may differ between runs is an array
+    over the block (a run alone is a block of one, evaluated by the same code), and an error
+    names the run it is about.
 
-    def __init__(self, src: Source, run_id: int, params: dict[str, Any]) -> None:
+    A check refuses the first run of the block that fails it; :meth:`Runs.digest` evaluates a
+    block whose check failed again run by run, so that the error reported is the one of the
+    first run in the sweep's order, and the first mistake of that run, as if each run were
+    evaluated alone.
+    """
+
+    def __init__(
+        self, src: Source, space: Space, ids: np.ndarray, env: dict[str, np.ndarray]
+    ) -> None:
         self.src = src
-        self.run_id = run_id
-        self.params = params
-        self.env: dict[str, Any] = dict(params)
+        self.space = space
+        self.ids = ids
+        #: parameters and derived values by name (float64 arrays; text as object arrays)
+        self.env = env
+        #: the names in ``env`` whose values are rounded already (:func:`canonical`)
+        self.rounded = set(space.rounded)
+
+    @classmethod
+    def of(cls, src: Source, space: Space, ids: np.ndarray) -> _Block:
+        """The runs ``ids`` of ``space``."""
+        return cls(src, space, ids, space.columns(ids))
+
+    def __len__(self) -> int:
+        return len(self.ids)
+
+    def take(self, where: np.ndarray | slice) -> _Block:
+        """The runs at ``where`` (positions in this block) as a block."""
+        out = _Block(
+            self.src, self.space, self.ids[where], {k: v[where] for k, v in self.env.items()}
+        )
+        out.rounded = self.rounded
+        return out
+
+    def one(self, i: int) -> _Block:
+        """Run ``i`` of the block alone."""
+        return self.take(slice(i, i + 1))
+
+    @property
+    def run_id(self) -> int:
+        """The first run's id (the run of a block of one)."""
+        return int(self.ids[0])
+
+    def label_of(self, i: int) -> str:
+        """``run 7 (k=0.5, ...)``: how messages name run ``i`` of the block."""
+        params = self.space[int(self.ids[i])]
+        shown = ", ".join(f"{k}={v!r}" for k, v in params.items())
+        if len(shown) > 60:
+            shown = shown[:57] + "..."
+        return f"run {int(self.ids[i])}" + (f" ({shown})" if shown else "")
 
     @property
     def label(self) -> str:
-        """``run 7 (k=0.5, ...)``: how messages name this run (built only for a message)."""
-        shown = ", ".join(f"{k}={v!r}" for k, v in self.params.items())
-        if len(shown) > 60:
-            shown = shown[:57] + "..."
-        return f"run {self.run_id}" + (f" ({shown})" if shown else "")
+        """How messages name the first run (the run of a block of one)."""
+        return self.label_of(0)
 
-    def fail(self, key: str, given: object, expected: str) -> ConfigError:
-        return self.src.error(key, f"{describe(given)} in {self.label}", expected)
+    def fail(self, key: str, given: object, expected: str, i: int = 0) -> ConfigError:
+        """The error of run ``i`` at ``key``: ``given`` where ``expected`` was expected."""
+        return self.src.error(key, f"{describe(given)} in {self.label_of(i)}", expected)
 
-    def num(self, slot: _Num, check: str = "finite") -> float:
-        """The value in this run, checked as ``finite``, ``positive``, ``sign`` or ``integer``."""
+    def num(self, slot: _Num, check: str = "finite") -> np.ndarray:
+        """The values in the runs, checked as ``finite``, ``positive``, ``sign`` or ``integer``."""
+        expr = slot.expr
         if slot.literal is not None:
-            value = slot.literal
+            values = np.full(len(self), slot.literal)
+        elif expr is None:
+            raise AssertionError("a numeric slot is a literal or an expression")
+        elif expr.bare_name in self.rounded:  # a number as it is: rounded already
+            values = self.env[expr.bare_name]
         else:
-            assert slot.expr is not None
             try:
-                value = canonical(slot.expr.evaluate(self.env))
+                raw = expr.evaluate_many(self.env, len(self))
             except ExpressionError as err:
                 raise self.fail(
                     slot.key, slot.given, f"an expression that evaluates: {err}"
                 ) from None
+            values = _canonical(raw)
         if check == "finite":
-            return value
-        expected, ok = {
-            "positive": ("a positive number", value > 0),
-            "sign": ("+1 or -1", value in (1.0, -1.0)),
-            "integer": ("an integer", value.is_integer()),
-        }[check]
-        if not ok:
+            return values
+        if check == "positive":
+            expected, bad = "a positive number", ~(values > 0)
+        elif check == "sign":
+            expected, bad = "+1 or -1", ~((values == 1.0) | (values == -1.0))
+        else:
+            assert check == "integer"
+            expected, bad = "an integer", ~(np.isfinite(values) & (values == np.floor(values)))
+        i = _first(bad)
+        if i is not None:
             shown = describe(slot.given)
             if slot.literal is None:
-                shown = f"{shown} (= {value!r})"
-            raise self.src.error(slot.key, f"{shown} in {self.label}", expected)
-        return value
+                shown = f"{shown} (= {float(values[i])!r})"
+            raise self.src.error(slot.key, f"{shown} in {self.label_of(i)}", expected)
+        return values
+
+    def num1(self, slot: _Num, check: str = "finite") -> float:
+        """:meth:`num` of a block of one."""
+        assert len(self) == 1
+        return float(self.num(slot, check)[0])
 
     def text(self, slot: _Text, choices: tuple[str, ...]) -> str:
+        """A text value, the same in every run of the block (blocks are split by text values)."""
         if slot.literal is not None:
             return slot.literal
         assert slot.param is not None  # a text slot is a literal or a parameter
-        value = self.params[slot.param]
-        if value not in choices:
-            raise self.fail(
-                slot.key, f"{slot.given} = {value!r}", f"one of {', '.join(map(repr, choices))}"
-            )
-        return str(value)
+        values = self.env[slot.param]
+        for i, value in enumerate(values.tolist()):
+            if value not in choices:
+                raise self.fail(
+                    slot.key,
+                    f"{slot.given} = {value!r}",
+                    f"one of {', '.join(map(repr, choices))}",
+                    i,
+                )
+        assert all(v == values[0] for v in values.tolist())
+        return str(values[0])
+
+
+def _first(bad: ArrayLike) -> int | None:
+    """The first position where ``bad`` holds, or None."""
+    flags = np.asarray(bad)
+    if not flags.any():
+        return None
+    return int(np.argmax(flags))
+
+
+def _canonical(values: np.ndarray) -> np.ndarray:
+    """:func:`canonical` of every value (12 significant digits), rounded once per distinct
+    value."""
+    distinct, inverse = np.unique(values, return_inverse=True)
+    rounded = np.array([canonical(v) for v in distinct.tolist()], dtype=np.float64)
+    return rounded[inverse.reshape(values.shape)]
+
+
+def _lmax(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Python's ``max(a, b)`` element by element (``a`` unless ``b > a``, NaN included)."""
+    return np.where(b > a, b, a)
+
+
+def _lmin(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Python's ``min(a, b)`` element by element."""
+    return np.where(b < a, b, a)
+
+
+def _groups(keys: Sequence[np.ndarray], size: int) -> list[np.ndarray]:
+    """Positions ``0..size-1`` grouped by equal rows of ``keys`` (each group ascending)."""
+    if not keys or size <= 1:
+        return [np.arange(size)]
+    codes = np.zeros(size, dtype=np.int64)
+    for key in keys:
+        _, inverse = np.unique(key, return_inverse=True)
+        _, codes = np.unique(
+            codes * (int(inverse.max()) + 1) + inverse.reshape(-1), return_inverse=True
+        )
+        codes = codes.reshape(-1)
+    order = np.argsort(codes, kind="stable")
+    cuts = np.flatnonzero(np.diff(codes[order])) + 1
+    return np.split(order, cuts)
+
+
+def _unique_rows(*columns: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """``(first, inverse)``: the position of each distinct row of ``columns`` (float64 arrays of
+    one length) and each position's row index among them."""
+    table = np.stack([np.asarray(c, dtype=np.float64) for c in columns], axis=1)
+    _, first, inverse = np.unique(table, axis=0, return_index=True, return_inverse=True)
+    return first, inverse.reshape(-1)
 
 
 class _Warnings:
-    """Per-key warnings gathered over runs, reported once per key with the worst case."""
+    """Per-key warnings gathered over runs, reported once per key with the worst case.
+
+    Runs are evaluated in blocks, not one by one: each key and note remembers the first run
+    that raised it, and the messages come in that order, the worst case the first run of the
+    largest badness, as if the runs had been evaluated in the sweep's order.
+    """
 
     def __init__(self, label: str, total: int) -> None:
         self.label = label
         self.total = total
-        #: key -> (what, runs counted, worst badness, its detail): a count, not a list of runs
-        self.items: dict[str, tuple[str, int, float, str]] = {}
-        self.once: list[str] = []
+        #: key -> [what, runs counted, worst badness, its run, its detail, first run]: a count,
+        #: not a list of runs
+        self.items: dict[str, list[Any]] = {}
+        #: message -> the first run that noted it (-1: the whole file)
+        self.once: dict[str, int] = {}
 
     def add(self, key: str, what: str, run_id: int, badness: float, detail: str) -> None:
-        _, count, worst, worst_detail = self.items.get(key, (what, 0, -math.inf, ""))
-        if badness > worst:
-            worst, worst_detail = badness, f"run {run_id}: {detail}"
-        self.items[key] = (what, count + 1, worst, worst_detail)
+        """Count run ``run_id`` under ``key`` (``detail``: what is shown if it is the worst)."""
+        self.add_many(key, what, np.array([run_id]), np.array([badness]), lambda _: detail)
 
-    def note(self, key: str, text: str) -> None:
+    def add_many(
+        self,
+        key: str,
+        what: str,
+        run_ids: np.ndarray,
+        badness: np.ndarray,
+        detail: Callable[[int], str],
+    ) -> None:
+        """Count the runs ``run_ids`` (ascending) under ``key``; ``detail(i)`` describes the run
+        at position ``i`` (asked only of the worst)."""
+        if not len(run_ids):
+            return
+        item = self.items.setdefault(key, [what, 0, -math.inf, -1, "", int(run_ids[0])])
+        item[1] += len(run_ids)
+        item[5] = min(item[5], int(run_ids[0]))
+        finite = ~np.isnan(badness)
+        if finite.any():
+            top = float(np.max(badness[finite]))
+            i = int(np.argmax(finite & (badness == top)))
+            run = int(run_ids[i])
+            if top > item[2] or (top == item[2] and run < item[3]):
+                item[2:5] = [top, run, f"run {run}: {detail(i)}"]
+
+    def note(self, key: str, text: str, run_id: int = -1) -> None:
+        """A note said once (``run_id``: the first run it is about; -1 for the whole file)."""
         message = f"{self.label}: {key}: {text}"
-        if message not in self.once:
-            self.once.append(message)
+        self.once[message] = min(self.once.get(message, run_id), run_id)
 
     def messages(self) -> tuple[str, ...]:
-        out = list(self.once)
-        for key, (what, count, _, detail) in self.items.items():
+        """The notes, then one line per key, each in the order of the first run concerned."""
+        out = sorted(self.once, key=self.once.__getitem__)
+        ranked = sorted(self.items.items(), key=lambda kv: kv[1][5])
+        for key, (what, count, _, _, detail, _) in ranked:
             out.append(f"{self.label}: {key}: {count} of {self.total} runs {what} (worst {detail})")
         return tuple(out)
 
 
-def _equation(tpl: _Template, ctx: _Run, system: physunits.System | None = None) -> Equation:
+def _equation(tpl: _Template, ctx: _Block, system: physunits.System | None = None) -> Equation:
     if system is not None:
         return _units_equation(tpl, ctx, system)
     spec = tpl.equation
@@ -888,7 +1032,7 @@ def _equation(tpl: _Template, ctx: _Run, system: physunits.System | None = None)
     else:
         slot = spec["preset"]
         preset = ctx.text(slot, PRESETS) if isinstance(slot, _Text) else None
-        coefs = {k: ctx.num(v) for k, v in spec.items() if isinstance(v, _Num)}
+        coefs = {k: ctx.num1(v) for k, v in spec.items() if isinstance(v, _Num)}
     try:
         return _make_equation(preset, tuple(coefs.items()))
     except ConfigError as err:
@@ -941,64 +1085,6 @@ def _fixed(value: float) -> str:
     return f"{value:.1f}" if value < 1e6 else f"{value:.3g}"
 
 
-def _frame_count(end: float, every: float) -> float:
-    """Frames :func:`_record_times` gives, without building them (``end / every`` when that is
-    inf or huge)."""
-    if not end / every < 1e15:
-        return end / every
-    count = math.floor(end / every + 1e-9)
-    return count + 1.0 + (1.0 if end - canonical(count * every) > 1e-9 * every else 0.0)
-
-
-def _given_points(ctx: _Run, tpl: _Template, scheme: str = "") -> int:
-    """``model.points`` as written, refused before anything is built when no run could hold it:
-    beyond 2^62, or one frame and the stepper's buffers beyond :data:`MAX_RUN_BYTES`."""
-    assert tpl.points is not None
-    points = ctx.num(tpl.points, "integer")
-    if not abs(points) <= 2**62:  # no grid is this large: refused here in a short line
-        raise ctx.fail("model.points", points, "an even integer >= 16 (at most 2^62)")
-    n = int(points)
-    need = sizing.run_memory(n, 1, scheme)
-    if need > MAX_RUN_BYTES:
-        raise ctx.fail(
-            "model.points",
-            n,
-            f"a run that fits in {MAX_RUN_BYTES / 2**30:g} GiB: n = {n} needs about "
-            f"{need / 2**30:.3g} GiB for the stepper's buffers and one frame",
-        )
-    return n
-
-
-def _check_steps(ctx: _Run, scheme: str, dt: float, t_end: float) -> None:
-    """Refuse a fixed step that would take more than :data:`MAX_STEPS` steps up to ``t_end``."""
-    if scheme != ADAPTIVE and not t_end / dt <= MAX_STEPS:
-        raise ctx.fail(
-            "model.dt",
-            dt,
-            f"a step giving at most {MAX_STEPS:.0e} steps up to t = {t_end:g} "
-            f"(t / dt = {t_end / dt:.3g})",
-        )
-
-
-def _check_effort(
-    ctx: _Run, tpl: _Template, grid: Grid, scheme: str, dt: float, t_end: float, frames: int
-) -> None:
-    """Refuse a run whose step count or memory is out of reach (:data:`MAX_STEPS`,
-    :data:`MAX_RUN_BYTES`), naming what it would take."""
-    _check_steps(ctx, scheme, dt, t_end)
-    need = sizing.run_memory(grid.n, frames, scheme)
-    if need > MAX_RUN_BYTES:
-        key = "model.points" if grid.n * 64 > frames else "run.frame_every"
-        given = tpl.frame_every if key == "run.frame_every" else grid.n
-        raise ctx.fail(
-            key,
-            given,
-            f"a run that fits in {MAX_RUN_BYTES / 2**30:g} GiB: n = {grid.n} with {frames} "
-            f"frames needs about {need / 2**30:.3g} GiB (frames, their analysis and the "
-            f"{scheme} stepper's buffers)",
-        )
-
-
 @functools.lru_cache(maxsize=256, typed=True)
 def _symbol_finite(eq: Equation, dx: float, dt: float) -> bool:
     """Whether the linear symbol times ``dt`` is finite at the largest wavenumbers ``pi / dx``
@@ -1008,30 +1094,8 @@ def _symbol_finite(eq: Equation, dx: float, dt: float) -> bool:
     return bool(np.all(np.isfinite(top)))
 
 
-def _check_scales(
-    ctx: _Run, tpl: _Template, eq: Equation, grid: Grid, dt: float, max_u: float, dealias: float
-) -> None:
-    """Refuse a run whose terms overflow float64 from the start: the linear symbol at the largest
-    wavenumber times ``dt``, or the nonlinear term at ``max |u|``."""
-    if not _symbol_finite(eq, grid.dx, dt):
-        raise ctx.src.error(
-            "model.equation",
-            f"d = {eq.d:.3g}, f = {eq.f:.3g}, v = {eq.v:.3g} in {ctx.label}",
-            f"coefficients whose linear term times dt is finite at the largest wavenumber "
-            f"pi/dx = {math.pi / grid.dx:.4g}",
-        )
-    if not math.isfinite(sizing.nonlinear_rate(max_u, eq.a, eq.b, dealias, grid.dx) * max_u):
-        key = "initial.file" if tpl.kind == "npy" else "model.equation"
-        raise ctx.src.error(
-            key,
-            f"max |u| = {max_u:.3g} with a = {eq.a:.3g}, b = {eq.b:.3g} in {ctx.label}",
-            "data and coefficients whose nonlinear term (|a| max|u| + |b| max u^2) max|u| "
-            "k_cut is a finite number",
-        )
-
-
 def _check_units(
-    ctx: _Run,
+    ctx: _Block,
     warn: _Warnings,
     system: physunits.System,
     scales: physunits.Scales,
@@ -1067,151 +1131,145 @@ def _record_times(end: float, every: float) -> tuple[float, ...]:
     return tuple(times)
 
 
-def _solitons(
-    tpl: _Template, ctx: _Run, eq: Equation, units: physunits.Scales | None = None
-) -> tuple[SolitonForm, list[float], list[int]]:
-    """Soliton form, kappas and signs of a soliton initial datum (``units``: ``[units]``, whose
-    amplitudes and laboratory speeds are converted here)."""
-    spec = tpl.initial
-    size = spec["size"]
-    form = eq.soliton_form_or_none()
-    if form is None:
-        raise ctx.src.error(
-            "initial.kind",
-            f"{tpl.kind!r} for equation {eq.name!r} (a={eq.a}, b={eq.b}, d={eq.d}) in {ctx.label}",
-            "an equation with solitons: KdV (a != 0, b = 0), focusing mKdV (a = 0, b d > 0) or "
-            "Gardner (a != 0, b != 0), with d != 0",
-        )
-    own = form.sign
-    signs = [own] * len(spec["sizes"])
-    if "polarity" in spec:
-        signs = [int(ctx.num(slot, "sign")) for slot in spec["polarity"]]
-        for slot, s in zip(spec["polarity"], signs, strict=True):
-            if s not in form.polarities:
-                raise ctx.fail(
-                    slot.key,
-                    slot.given,
-                    f"{own:+d}: solitons of this equation have one sign (both polarities need "
-                    "focusing mKdV, or Gardner with b d > 0)",
-                )
-    kappas = []
-    for slot, sign in zip(spec["sizes"], signs, strict=True):
-        value = ctx.num(slot, "positive")
-        if units is not None:  # amplitude: height; speed: laboratory; kappa: per metre
-            value = physunits.to_canonical(value, physunits.INITIAL_DIMENSIONS[size], units)
-            if not value > 0:  # a laboratory speed at or below the linear long-wave speed
-                raise ctx.fail(
-                    slot.key,
-                    slot.given,
-                    f"a laboratory speed above the linear long-wave speed c0 = {units.c0:.6g} "
-                    "(solitary waves are faster than linear waves)",
-                )
-        try:
-            if size == "amplitude":
-                value = form.kappa_from_amplitude(value, sign)
-            elif size == "speed":
-                if eq.d < 0:
-                    raise ctx.fail(
-                        slot.key, slot.given, "speeds only for d > 0 (solitons move right)"
-                    )
-                value = form.kappa_from_speed(value)
-        except ConfigError as err:
-            raise ctx.fail(slot.key, slot.given, f"a soliton of this equation ({err})") from None
-        value = canonical(value)
-        if not value < form.max_kappa:
-            raise ctx.fail(
-                slot.key,
-                slot.given,
-                f"kappa below the table-top limit {form.max_kappa:.6g} of this Gardner equation "
-                f"(kappa = {value:.6g})",
-            )
-        with np.errstate(all="ignore"):  # overflow is refused below, not printed
-            scales = (
-                form.amplitude(value, sign),
-                form.speed(value),
-                form.width(value, sign),
-            )
-        if not (value > 0 and all(math.isfinite(v) for v in scales)):
-            raise ctx.fail(
-                slot.key,
-                slot.given,
-                f"a soliton of finite amplitude, speed and width (kappa = {value:.3g} gives "
-                f"{scales[0]:.3g}, {scales[1]:.3g}, {scales[2]:.3g})",
-            )
-        kappas.append(value)
-    if tpl.kind == "multisoliton":  # the core's own rules (how many, distinct), on no points
-        bare = Equation(a=eq.a, b=eq.b, d=eq.d)  # the exact solution is the unperturbed one's
-        try:
-            exact.multisoliton(
-                np.zeros(0),
-                0.0,
-                kappas,
-                [0.0] * len(kappas),
-                bare,
-                signs=None if form.family == "kdv" else signs,
-            )
-        except ConfigError as err:
-            given = [slot.given for slot in spec["sizes"]]
-            raise ctx.fail(
-                f"initial.{size}", given, f"solitons of an exact N-soliton ({err})"
-            ) from None
-    return form, kappas, signs
-
-
-def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
+def _expand_block(tpl: _Template, blk: _Block, warn: _Warnings) -> list[_Part]:
+    """Evaluate the template for the runs of ``blk``: one :class:`_Part` per group of runs that
+    share their text values, physical system and equation (most blocks are one group)."""
     for dname, slot in tpl.derived:
-        ctx.env[dname] = ctx.num(slot)
-    system = _system(tpl, ctx)
+        blk.env[dname] = blk.num(slot)
+        blk.rounded.add(dname)
+    parts = []
+    texts = [blk.env[name] for name in tpl.parameters if tpl.kinds[name] == "text"]
+    for where in _groups(texts, len(blk)):
+        sub = blk.take(where)
+        keys = []
+        if tpl.units is not None:
+            keys += [sub.num(slot) for slot in tpl.units[1].values()]
+        if isinstance(tpl.equation, dict):
+            keys += [sub.num(slot) for slot in tpl.equation.values() if isinstance(slot, _Num)]
+        for inner in _groups(keys, len(sub)):
+            group = sub.take(inner)
+            first = group.one(0)
+            system = _system(tpl, first)
+            eq = _equation(tpl, first, system)
+            part = _expand_uniform(tpl, group, warn, system, eq)
+            part.where = where[inner]
+            parts.append(part)
+    return parts
+
+
+def _step_options(
+    blk: _Block,
+    tpl: _Template,
+    scheme: str,
+    given_dt: np.ndarray | None,
+    given_tol: np.ndarray | None,
+) -> tuple[np.ndarray, np.ndarray | None]:
+    """``dt`` and ``tol`` of every run (``tol`` None for a fixed-step scheme): the defaults and
+    the rule "tol for the adaptive scheme only" live in the simulation
+    (:func:`kdvsweep.simulation.step_options`), asked once per distinct pair."""
+    m = len(blk)
+    dts = np.full(m, -1.0) if given_dt is None else given_dt
+    tols = np.full(m, -1.0) if given_tol is None else given_tol
+    first, inverse = _unique_rows(dts, tols)
+    out_dt, out_tol = [], []
+    for i in first.tolist():
+        d = None if given_dt is None else float(given_dt[i])
+        t = None if given_tol is None else float(given_tol[i])
+        try:
+            dt, tol = step_options(scheme, d, t)
+        except ConfigError as err:
+            key, given = ("model.tol", tpl.tol.given) if tpl.tol else ("model.dt", d)
+            raise blk.fail(key, given, f"a valid step option ({err})", i) from None
+        out_dt.append(dt)
+        out_tol.append(tol)
+    dt_all = np.array(out_dt, dtype=np.float64)[inverse]
+    if all(t is None for t in out_tol):
+        return dt_all, None
+    return dt_all, np.array(out_tol, dtype=np.float64)[inverse]
+
+
+def _by_sign(
+    value: Callable[[np.ndarray, int], Any], kappas: np.ndarray, signs: np.ndarray
+) -> np.ndarray:
+    """``value(kappa, sign)`` of every soliton of every run (``kappas``, ``signs``: runs by
+    solitons), asked once per column and sign."""
+    out = np.empty_like(kappas)
+    for j in range(kappas.shape[1]):
+        for s in np.unique(signs[:, j]).tolist():
+            sel = signs[:, j] == s
+            out[sel, j] = value(kappas[sel, j], int(s))
+    return out
+
+
+def _expand_uniform(
+    tpl: _Template,
+    blk: _Block,
+    warn: _Warnings,
+    system: physunits.System | None,
+    eq: Equation,
+) -> _Part:
+    """The runs of ``blk``, which share their text values, system and equation."""
+    m = len(blk)
     scales = None if system is None else system.scales()
-    eq = _equation(tpl, ctx, system)
-    scheme = ctx.text(tpl.scheme, SCHEMES)
+    scheme = blk.text(tpl.scheme, SCHEMES)
     if scheme != ADAPTIVE and not tpl.dt_auto:
         if tpl.dt is None:  # a sweep file names the step of a fixed-step scheme
-            raise ctx.src.error(
+            raise blk.src.error(
                 "model.dt",
-                f"nothing in {ctx.label} (scheme {scheme!r})",
+                f"nothing in {blk.label} (scheme {scheme!r})",
                 f"a positive time step (required unless scheme = {ADAPTIVE!r})",
             )
         if tpl.tol is not None:
-            raise ctx.fail(
+            raise blk.fail(
                 "model.tol", tpl.tol.given, f"no tol with scheme {scheme!r} ({ADAPTIVE} only)"
             )
-    given_dt = ctx.num(tpl.dt, "positive") if tpl.dt else None
-    given_tol = ctx.num(tpl.tol, "positive") if tpl.tol else None
+    given_dt = blk.num(tpl.dt, "positive") if tpl.dt else None
+    given_tol = blk.num(tpl.tol, "positive") if tpl.tol else None
     if tpl.dt_auto and scheme != ADAPTIVE and tpl.tol is not None:
-        raise ctx.fail(
+        raise blk.fail(
             "model.tol", tpl.tol.given, f"no tol with scheme {scheme!r} ({ADAPTIVE} only)"
         )
-    try:  # the defaults and the rule "tol for the adaptive scheme only" live in the simulation
-        dt, tol = step_options(scheme, given_dt, given_tol)
-    except ConfigError as err:
-        key, given = ("model.tol", tpl.tol.given) if tpl.tol else ("model.dt", given_dt)
-        raise ctx.fail(key, given, f"a valid step option ({err})") from None
+    dt, tol = _step_options(blk, tpl, scheme, given_dt, given_tol)
 
     soliton = tpl.kind in ("solitons", "multisoliton")
-    initial: init.InitialData
-    narrowest = math.inf
-    max_u = 0.0
-    spread = acc.REFERENCE_SPREAD  # of the solitons' peaks (points = 'auto' with a target)
+    initials: list[init.InitialData] = []
+    kappas = positions = signs = np.zeros((m, 0))
+    narrowest = np.full(m, math.inf)
+    max_u = np.zeros(m)
+    spread = np.full(m, acc.REFERENCE_SPREAD)  # of the solitons' peaks (points = 'auto', target)
     if soliton:
-        form, kappas, signs = _solitons(tpl, ctx, eq, scales)
+        form, kappas, signs = _solitons(tpl, blk, eq, scales)
         # with a target, solitons overlap at most a hundredth of it (accuracy.auto_tail)
         tail = acc.auto_tail(tpl.target, tpl.tail)
         if tpl.target is not None:
-            spread = acc.peak_spread(kappas, form, signs)
-        speeds = [form.speed(k) for k in kappas]
-        narrowest = min(form.width(k, s) for k, s in zip(kappas, signs, strict=True))
-        amplitudes = [form.amplitude(k, s) for k, s in zip(kappas, signs, strict=True)]
+            spread = np.array(
+                [
+                    acc.peak_spread(k, form, [int(v) for v in s])
+                    for k, s in zip(kappas.tolist(), signs.tolist(), strict=True)
+                ]
+            )
+        with np.errstate(all="ignore"):
+            speeds = np.asarray(form.speed(kappas), dtype=np.float64).reshape(kappas.shape)
+            widths = _by_sign(form.width, kappas, signs)
+            amplitudes = _by_sign(form.amplitude, kappas, signs)
+        narrowest = widths[:, 0]
+        highest = amplitudes[:, 0]
+        total = 0.0 + amplitudes[:, 0]
+        for j in range(1, kappas.shape[1]):
+            narrowest = _lmin(narrowest, widths[:, j])
+            highest = _lmax(highest, amplitudes[:, j])
+            total = total + amplitudes[:, j]
         # mKdV solitons of opposite polarity peak at the sum of their amplitudes when they meet;
         # same-polarity mKdV and KdV pairs never exceed the larger one (checked on the exact
         # Hirota 2-solitons, kv.exact.multisoliton, for kappa = (1, 0.3 / 0.55 / 0.8)); the sum
         # is kept as the bound for Gardner pairs of opposite polarity
-        max_u = sum(amplitudes) if len(set(signs)) > 1 else max(amplitudes)
+        mixed = np.any(signs != signs[:, :1], axis=1)
+        max_u = np.where(mixed, total, highest)
         auto = tpl.length is None or tpl.end is None or tpl.initial["position"] == "auto"
         if auto and eq.d <= 0:
-            raise ctx.src.error(
+            raise blk.src.error(
                 "model.equation",
-                f"d = {eq.d} in {ctx.label}",
+                f"d = {eq.d} in {blk.label}",
                 "d > 0 for automatic sizing (solitons moving right)",
             )
         if auto and eq.perturbed:
@@ -1219,219 +1277,603 @@ def _expand_run(tpl: _Template, ctx: _Run, warn: _Warnings) -> RunSpec:
                 "sizing",
                 "automatic sizing uses the unperturbed soliton speeds 4 d kappa^2; "
                 "the f, g, v terms change them",
+                blk.run_id,
             )
         if tpl.initial["position"] == "auto":
-            x0 = [canonical(p) for p in sizing.auto_positions(kappas, form, tail)]
+            positions = _canonical(sizing.auto_positions(kappas, form, tail))
         else:
-            x0 = [ctx.num(slot) for slot in tpl.initial["position"]]
-            if scales is not None:  # metres (at t = 0 the run's frame and the lab's agree)
-                dim = physunits.INITIAL_DIMENSIONS["position"]
-                x0 = [canonical(physunits.to_canonical(p, dim, scales)) for p in x0]
-            for i in range(1, len(x0)):
-                if not x0[i] > x0[i - 1]:
-                    slot = tpl.initial["position"][i]
-                    raise ctx.fail(
-                        slot.key,
-                        x0[i],
-                        f"a position right of initial.position[{i - 1}]"
-                        f" = {x0[i - 1]!r} (solitons are listed left to right)",
+            cols = []
+            for slot in tpl.initial["position"]:
+                x = blk.num(slot)
+                if scales is not None:  # metres (at t = 0 the run's frame and the lab's agree)
+                    dim = physunits.INITIAL_DIMENSIONS["position"]
+                    x = np.array(
+                        [canonical(physunits.to_canonical(p, dim, scales)) for p in x.tolist()]
                     )
+                cols.append(x)
+            positions = np.stack(cols, axis=1)
+            bad = ~(positions[:, 1:] > positions[:, :-1])
+            r = _first(bad.any(axis=1))
+            if r is not None:
+                i = int(np.argmax(bad[r])) + 1
+                slot = tpl.initial["position"][i]
+                raise blk.fail(
+                    slot.key,
+                    float(positions[r, i]),
+                    f"a position right of initial.position[{i - 1}]"
+                    f" = {float(positions[r, i - 1])!r} (solitons are listed left to right)",
+                    r,
+                )
         if tpl.end is None:
-            t_end = sizing.end_time(x0, kappas, speeds, form, tail)
-            if t_end <= 0:
-                raise ctx.src.error(
+            t_end = sizing.end_time(positions, kappas, speeds, form, tail)
+            r = _first(t_end <= 0)
+            if r is not None:
+                raise blk.src.error(
                     "run.end",
-                    f"'auto' in {ctx.label}",
+                    f"'auto' in {blk.label_of(r)}",
                     "a number: no soliton overtakes another (list the faster "
                     "soliton first, on the left)",
                 )
-            if not t_end / tpl.frame_every <= MAX_FRAMES:
-                raise ctx.src.error(
+            r = _first(~(t_end / tpl.frame_every <= MAX_FRAMES))
+            if r is not None:
+                raise blk.src.error(
                     "run.end",
-                    f"'auto' in {ctx.label} (t = {t_end:.3g})",
+                    f"'auto' in {blk.label_of(r)} (t = {float(t_end[r]):.3g})",
                     f"an end time of at most {MAX_FRAMES} frames of run.frame_every = "
                     f"{tpl.frame_every:g} (slow solitons take long to overtake)",
                 )
-            t_end = canonical(math.ceil(t_end / tpl.frame_every - 1e-9) * tpl.frame_every)
+            t_end = _canonical(np.ceil(t_end / tpl.frame_every - 1e-9) * tpl.frame_every)
         else:
-            t_end = ctx.num(tpl.end, "positive")
+            t_end = blk.num(tpl.end, "positive")
         if not tpl.dt_auto:
-            _check_steps(ctx, scheme, dt, t_end)
-        need = sizing.min_length(x0, kappas, speeds, form, tail, t_end)
-        if not math.isfinite(need):
-            raise ctx.fail(
+            _check_steps(blk, scheme, dt, t_end)
+        need = sizing.min_length(positions, kappas, speeds, form, tail, t_end)
+        r = _first(~np.isfinite(need))
+        if r is not None:
+            raise blk.fail(
                 f"initial.{tpl.initial['size']}",
-                kappas,
-                f"solitons whose travel by t = {t_end:g} is a finite distance",
+                kappas[r].tolist(),
+                f"solitons whose travel by t = {float(t_end[r]):g} is a finite distance",
+                r,
             )
         if tpl.length is None:
             length = sizing.nice_ceil(need)
         else:
-            length = ctx.num(tpl.length, "positive")
-            if length < need:
-                detail = (
-                    f"length {length:g} < {need:.4g} needed so no soliton meets another's "
-                    f"periodic image by t = {t_end:g}"
+            length = blk.num(tpl.length, "positive")
+            short = length < need
+            r = _first(short)
+            if r is not None and auto:
+                raise blk.fail(
+                    "model.length",
+                    tpl.length.given,
+                    f"at least {float(need[r]):.4g} (or 'auto') so no soliton meets another's "
+                    f"periodic image by t = {float(t_end[r]):g}",
+                    r,
                 )
-                if auto:
-                    raise ctx.fail(
-                        "model.length",
-                        tpl.length.given,
-                        f"at least {need:.4g} (or 'auto') so no soliton meets another's "
-                        f"periodic image by t = {t_end:g}",
-                    )
-                warn.add(
+            if r is not None:
+                at = np.flatnonzero(short)
+                warn.add_many(
                     "model.length",
                     "are too short for a clean collision",
-                    ctx.run_id,
-                    need / length,
-                    detail,
+                    blk.ids[at],
+                    need[at] / length[at],
+                    lambda i: (
+                        f"length {float(length[at[i]]):g} < {float(need[at[i]]):.4g} needed so "
+                        "no soliton meets another's periodic image by t = "
+                        f"{float(t_end[at[i]]):g}"
+                    ),
                 )
-        for i, p in enumerate(x0):
-            if not -0.5 * length <= p < 0.5 * length:
-                key = (
-                    "initial.position"
-                    if tpl.initial["position"] == "auto"
-                    else f"initial.position[{i}]"
-                )
-                raise ctx.fail(
-                    key, p, f"a position inside the box [{-0.5 * length:g}, {0.5 * length:g})"
-                )
-        initial = init.Solitons(tuple(kappas), tuple(x0), tuple(signs), tpl.kind == "multisoliton")
+        half = 0.5 * length[:, None]
+        outside = ~((-half <= positions) & (positions < half))
+        r = _first(outside.any(axis=1))
+        if r is not None:
+            i = int(np.argmax(outside[r]))
+            key = (
+                "initial.position"
+                if tpl.initial["position"] == "auto"
+                else f"initial.position[{i}]"
+            )
+            raise blk.fail(
+                key,
+                float(positions[r, i]),
+                f"a position inside the box [{-0.5 * float(length[r]):g}, "
+                f"{0.5 * float(length[r]):g})",
+                r,
+            )
     else:
         # 'auto' length or end: sized from the predicted content below (checked when read)
-        given_length = None if tpl.length is None else ctx.num(tpl.length, "positive")
-        given_end = None if tpl.end is None else ctx.num(tpl.end, "positive")
-        length = given_length if given_length is not None else math.inf
+        given_length = None if tpl.length is None else blk.num(tpl.length, "positive")
+        given_end = None if tpl.end is None else blk.num(tpl.end, "positive")
+        length = np.full(m, math.inf) if given_length is None else given_length.copy()
+        t_end = np.full(m, math.nan) if given_end is None else given_end.copy()
         if tpl.kind == "npy":
-            initial = init.FileData(tpl.initial["path"], tpl.initial["sha256"])
-            max_u = tpl.initial["max_abs"]
+            n = _given_points(blk, tpl, scheme)  # given: 'auto' is refused for a file
+            r = _first(n != tpl.initial["size"])
+            if r is not None:  # before sizing, which builds the data on the grid
+                raise blk.fail(
+                    "initial.file",
+                    tpl.initial["path"],
+                    f"an array of n = {int(n[r])} values (the file holds {tpl.initial['size']})",
+                    r,
+                )
+            initials = [init.FileData(tpl.initial["path"], tpl.initial["sha256"])] * m
+            max_u = np.full(m, float(tpl.initial["max_abs"]))
         elif tpl.kind in ("breather", "fifth-order-wave"):
-            initial, max_u, narrowest = _exact_wave(tpl, ctx, eq)
+            for i in range(m):
+                data, max_u[i], narrowest[i] = _exact_wave(tpl, blk.one(i), eq)
+                initials.append(data)
         else:
             values = {}
             for key in ("height", "center", "scale", "half_width", "edge"):
                 if key in tpl.initial:
                     check = "positive" if key in ("scale", "half_width") else "finite"
-                    values[key] = ctx.num(tpl.initial[key], check)
+                    values[key] = blk.num(tpl.initial[key], check)
                     if scales is not None:  # [units]: a height, or a length in metres
                         dim = physunits.INITIAL_DIMENSIONS[key]
-                        values[key] = canonical(physunits.to_canonical(values[key], dim, scales))
-            if values.get("edge", 0.0) < 0:
-                raise ctx.fail("initial.edge", values["edge"], "a number >= 0 (0 is a sharp edge)")
-            if tpl.kind == "box":
-                if not values["half_width"] < 0.5 * length:
-                    raise ctx.fail(
-                        "initial.half_width",
-                        values["half_width"],
-                        f"less than half the length ({0.5 * length:g})",
+                        values[key] = np.array(
+                            [
+                                canonical(physunits.to_canonical(v, dim, scales))
+                                for v in values[key].tolist()
+                            ]
+                        )
+            if "edge" in values:
+                r = _first(values["edge"] < 0)
+                if r is not None:
+                    raise blk.fail(
+                        "initial.edge",
+                        float(values["edge"][r]),
+                        "a number >= 0 (0 is a sharp edge)",
+                        r,
                     )
-                initial = init.Box(**values)
-            else:
-                initial = init.Profile(tpl.kind, **values)
-            max_u = abs(values["height"])
+            if tpl.kind == "box":
+                r = _first(~(values["half_width"] < 0.5 * length))
+                if r is not None:
+                    raise blk.fail(
+                        "initial.half_width",
+                        float(values["half_width"][r]),
+                        f"less than half the length ({0.5 * float(length[r]):g})",
+                        r,
+                    )
+            rows = [
+                dict(zip(values, row, strict=True))
+                for row in zip(*(v.tolist() for v in values.values()), strict=True)
+            ]
             form_or_none = eq.soliton_form_or_none()
-            if tpl.kind == "sech2" and form_or_none is not None and form_or_none.family == "kdv":
-                narrowest = _sech2_narrowest(values["height"], values["scale"], form_or_none)
-        if given_length is None or given_end is None or tpl.points is None:
-            length, t_end, predicted_narrowest = _content_sizing(
-                tpl, ctx, warn, eq, initial, given_length, given_end
-            )
-            narrowest = min(narrowest, predicted_narrowest)
-            if tpl.points is None:  # the profile itself must be resolved too
-                narrowest = min(narrowest, _profile_width(initial))
-            if isinstance(initial, init.Box) and not initial.half_width < 0.5 * length:
-                raise ctx.fail(
-                    "initial.half_width",
-                    initial.half_width,
-                    f"less than half the automatic length ({0.5 * length:g})",
+            for i, row in enumerate(rows):
+                initials.append(
+                    init.Box(**row) if tpl.kind == "box" else init.Profile(tpl.kind, **row)
                 )
-        else:
-            length, t_end = given_length, given_end
+                if (
+                    tpl.kind == "sech2"
+                    and form_or_none is not None
+                    and form_or_none.family == "kdv"
+                ):
+                    narrowest[i] = _sech2_narrowest(row["height"], row["scale"], form_or_none)
+            max_u = np.abs(values["height"])
+        if given_length is None or given_end is None or tpl.points is None:
+            for i, initial in enumerate(initials):
+                one = blk.one(i)
+                length[i], t_end[i], predicted_narrowest = _content_sizing(
+                    tpl,
+                    one,
+                    warn,
+                    eq,
+                    initial,
+                    None if given_length is None else float(given_length[i]),
+                    None if given_end is None else float(given_end[i]),
+                )
+                narrowest[i] = min(float(narrowest[i]), predicted_narrowest)
+                if tpl.points is None:  # the profile itself must be resolved too
+                    narrowest[i] = min(float(narrowest[i]), _profile_width(initial))
+                if isinstance(initial, init.Box) and not initial.half_width < 0.5 * length[i]:
+                    raise one.fail(
+                        "initial.half_width",
+                        initial.half_width,
+                        f"less than half the automatic length ({0.5 * float(length[i]):g})",
+                    )
 
     dealias = eq.dealias_fraction
     if tpl.points is None:
-        decades = acc.auto_decades(tpl.target, sizing.WARN_DECADES, spread)
-        need = sizing.points_needed(narrowest, length, dealias, decades)
-        n = (
-            sizing.auto_points(narrowest, length, dealias, decades)
-            if need <= MAX_AUTO_POINTS
-            else 0
-        )
-        if not 0 < n <= MAX_AUTO_POINTS:
-            raise ctx.src.error(
+        decades = np.full(m, sizing.WARN_DECADES)
+        if tpl.target is not None:
+            decades = np.array(
+                [acc.auto_decades(tpl.target, sizing.WARN_DECADES, s) for s in spread.tolist()]
+            )
+        need = np.asarray(sizing.points_needed(narrowest, length, dealias, decades))
+        n = np.zeros(m, dtype=np.int64)
+        fits = need <= MAX_AUTO_POINTS
+        if fits.any():
+            n[fits] = sizing.auto_points(
+                narrowest[fits],
+                length[fits],
+                dealias,
+                decades[fits],
+            )
+        r = _first(~((0 < n) & (n <= MAX_AUTO_POINTS)))
+        if r is not None:
+            raise blk.src.error(
                 "model.points",
-                f"'auto' in {ctx.label}",
+                f"'auto' in {blk.label_of(r)}",
                 f"a grid the automatic "
-                f"choice can make: it needs n = {_count(need)} > {MAX_AUTO_POINTS} for "
-                f"length {length:g} (raise sizing.tail or the smallest kappa)",
+                f"choice can make: it needs n = {_count(float(need[r]))} > {MAX_AUTO_POINTS} for "
+                f"length {float(length[r]):g} (raise sizing.tail or the smallest kappa)",
             )
     else:
-        n = _given_points(ctx, tpl, scheme)
-    try:
-        grid = _make_grid(n, length)
-    except ConfigError as err:
-        raise ctx.fail("model.points", n, f"an even integer >= 16 ({err})") from None
+        n = _given_points(blk, tpl, scheme)
+    grids, grid_of = _grids(blk, n, length)
+    dx = length / n
     if tpl.dt_auto and scheme != ADAPTIVE and soliton:  # needs the grid: the stable step
         target = acc.DEFAULT_AUTO_TARGET if tpl.target is None else tpl.target
-        rate = acc.soliton_rate(eq.a, eq.b, max_u, narrowest)
-        dt = acc.auto_dt(scheme, target, rate, sizing.dt_limit(scheme, max_u, eq, grid.dx))
-        _check_steps(ctx, scheme, dt, t_end)
+        limits = dt_limit(scheme, max_u, eq, dx)
+        dt = np.array(
+            [
+                acc.auto_dt(scheme, target, acc.soliton_rate(eq.a, eq.b, u, w), lim)
+                for u, w, lim in zip(
+                    max_u.tolist(), narrowest.tolist(), limits.tolist(), strict=True
+                )
+            ]
+        )
+        _check_steps(blk, scheme, dt, t_end)
     # limits on what a run would take, checked before anything is built or run
     frames = _frame_count(t_end, tpl.frame_every)
-    if not frames <= MAX_FRAMES:
-        raise ctx.fail(
-            "run.frame_every", tpl.frame_every, f"at most {MAX_FRAMES} frames up to t = {t_end:g}"
+    r = _first(~(frames <= MAX_FRAMES))
+    if r is not None:
+        raise blk.fail(
+            "run.frame_every",
+            tpl.frame_every,
+            f"at most {MAX_FRAMES} frames up to t = {float(t_end[r]):g}",
+            r,
         )
-    _check_effort(ctx, tpl, grid, scheme, dt, t_end, int(frames))
-    if tpl.kind == "npy" and tpl.initial["size"] != n:
-        raise ctx.fail(
-            "initial.file",
-            tpl.initial["path"],
-            f"an array of n = {n} values (the file holds {tpl.initial['size']})",
+    _check_effort(blk, tpl, n, scheme, dt, t_end, frames)
+    resolved = np.isfinite(narrowest)
+    if resolved.any():
+        _check_resolution(blk, warn, narrowest, n, length, dealias, tpl.points is None, resolved)
+    if not soliton:  # any other data: their own spectrum
+        for i, initial in enumerate(initials):
+            _check_spectrum(blk.one(i), warn, initial, grids[grid_of[i]], eq, tpl.points is None)
+    _check_scales(blk, tpl, eq, dx, dt, max_u, dealias)
+    positive = max_u > 0
+    if (
+        positive.any()
+    ):  # each fixed-step scheme's measured rule (the adaptive scheme picks its step)
+        limit = np.full(m, math.inf)
+        limit[positive] = dt_limit(scheme, max_u[positive], eq, dx[positive])
+        over = np.flatnonzero(dt > limit)
+        warn.add_many(
+            "model.dt",
+            "exceed the measured stable step of their scheme (kdvsweep.simulation.STEP_RULE)",
+            blk.ids[over],
+            dt[over] / limit[over],
+            lambda i: (
+                f"{scheme}: dt = {float(dt[over[i]]):g}; use dt <= {float(limit[over[i]]):.3g}"
+            ),
         )
-    if math.isfinite(narrowest):
-        _check_resolution(ctx, warn, narrowest, grid, dealias, tpl.points is None)
-    if not isinstance(initial, init.Solitons):  # any other data: their own spectrum
-        _check_spectrum(ctx, warn, initial, grid, eq, tpl.points is None)
-    _check_scales(ctx, tpl, eq, grid, dt, max_u, dealias)
-    if max_u > 0:  # each fixed-step scheme's measured rule (the adaptive scheme picks its step)
-        limit = sizing.dt_limit(scheme, max_u, eq, grid.dx)
-        if dt > limit:
-            warn.add(
-                "model.dt",
-                "exceed the measured stable step of their scheme (kdvsweep.simulation.STEP_RULE)",
-                ctx.run_id,
-                dt / limit,
-                f"{scheme}: dt = {dt:g}; use dt <= {limit:.3g}",
-            )
     if system is not None and scales is not None:
-        width = narrowest if soliton else min(narrowest, _profile_width(initial))
-        _check_units(ctx, warn, system, scales, max_u, width)
-    times = _record_times(t_end, tpl.frame_every)
-    model = _make_model(eq, grid, scheme, dt, tol)
-    run = _make_settings(
-        t_end=t_end,
-        record_times=times,
-        store_frames=tpl.keep_frames,
-        frame_stride=tpl.keep_stride,
-        predict_content=tpl.predict_content,
-        min_amplitude=tpl.min_amplitude if not soliton else None,
-        tail=tpl.tail if not soliton else DEFAULT_TAIL,
-        time_limit=tpl.time_limit,
-        drift_limit=tpl.drift_limit,
-        max_amplitude=tpl.max_amplitude,
-        accuracy=tpl.target,
-        verify=ctx.run_id in tpl.verified,
+        for i in range(m):
+            width = narrowest[i] if soliton else min(narrowest[i], _profile_width(initials[i]))
+            _check_units(blk.one(i), warn, system, scales, float(max_u[i]), float(width))
+    return _Part(
+        tpl,
+        blk,
+        eq,
+        system,
+        scheme,
+        dt,
+        tol,
+        grids,
+        grid_of,
+        t_end,
+        initials,
+        kappas,
+        positions,
+        signs,
     )
-    return RunSpec(ctx.run_id, dict(ctx.params), model, initial, run, system)
 
 
-def _exact_wave(tpl: _Template, ctx: _Run, eq: Equation) -> tuple[init.InitialData, float, float]:
+def _solitons(
+    tpl: _Template, blk: _Block, eq: Equation, units: physunits.Scales | None = None
+) -> tuple[SolitonForm, np.ndarray, np.ndarray]:
+    """Soliton form, kappas and signs (runs by solitons) of a soliton initial datum (``units``:
+    ``[units]``, whose amplitudes and laboratory speeds are converted here)."""
+    spec = tpl.initial
+    size = spec["size"]
+    m = len(blk)
+    form = eq.soliton_form_or_none()
+    if form is None:
+        raise blk.src.error(
+            "initial.kind",
+            f"{tpl.kind!r} for equation {eq.name!r} (a={eq.a}, b={eq.b}, d={eq.d}) in {blk.label}",
+            "an equation with solitons: KdV (a != 0, b = 0), focusing mKdV (a = 0, b d > 0) or "
+            "Gardner (a != 0, b != 0), with d != 0",
+        )
+    own = form.sign
+    signs = np.full((m, len(spec["sizes"])), own, dtype=np.int64)
+    if "polarity" in spec:
+        for j, slot in enumerate(spec["polarity"]):
+            signs[:, j] = blk.num(slot, "sign").astype(np.int64)
+        for j, slot in enumerate(spec["polarity"]):
+            r = _first(~np.isin(signs[:, j], form.polarities))
+            if r is not None:
+                raise blk.fail(
+                    slot.key,
+                    slot.given,
+                    f"{own:+d}: solitons of this equation have one sign (both polarities need "
+                    "focusing mKdV, or Gardner with b d > 0)",
+                    r,
+                )
+    kappas = np.empty(signs.shape)
+    for j, slot in enumerate(spec["sizes"]):
+        values = blk.num(slot, "positive")
+        if units is not None or size != "kappa":
+            values = np.array(
+                [
+                    _soliton_size(tpl, blk, i, slot, form, eq, units, v, int(signs[i, j]))
+                    for i, v in enumerate(values.tolist())
+                ]
+            )
+        if units is not None or size != "kappa" or slot.literal is not None:
+            values = _canonical(values)  # (an expression's value is rounded already)
+        r = _first(~(values < form.max_kappa))
+        if r is not None:
+            raise blk.fail(
+                slot.key,
+                slot.given,
+                f"kappa below the table-top limit {form.max_kappa:.6g} of this Gardner equation "
+                f"(kappa = {float(values[r]):.6g})",
+                r,
+            )
+        with np.errstate(all="ignore"):  # overflow is refused below, not printed
+            scales = (
+                _by_sign(form.amplitude, values[:, None], signs[:, j : j + 1])[:, 0],
+                np.asarray(form.speed(values), dtype=np.float64),
+                _by_sign(form.width, values[:, None], signs[:, j : j + 1])[:, 0],
+            )
+        bad = ~(values > 0)
+        for v in scales:
+            bad |= ~np.isfinite(v)
+        r = _first(bad)
+        if r is not None:
+            raise blk.fail(
+                slot.key,
+                slot.given,
+                f"a soliton of finite amplitude, speed and width (kappa = {float(values[r]):.3g} "
+                f"gives {float(scales[0][r]):.3g}, {float(scales[1][r]):.3g}, "
+                f"{float(scales[2][r]):.3g})",
+                r,
+            )
+        kappas[:, j] = values
+    if tpl.kind == "multisoliton":  # the core's own rules (how many, distinct), on no points
+        bare = Equation(a=eq.a, b=eq.b, d=eq.d)  # the exact solution is the unperturbed one's
+        for i in range(m):
+            try:
+                exact.multisoliton(
+                    np.zeros(0),
+                    0.0,
+                    kappas[i].tolist(),
+                    [0.0] * kappas.shape[1],
+                    bare,
+                    signs=None if form.family == "kdv" else signs[i].tolist(),
+                )
+            except ConfigError as err:
+                given = [slot.given for slot in spec["sizes"]]
+                raise blk.fail(
+                    f"initial.{size}", given, f"solitons of an exact N-soliton ({err})", i
+                ) from None
+    return form, kappas, signs
+
+
+def _soliton_size(
+    tpl: _Template,
+    blk: _Block,
+    i: int,
+    slot: _Num,
+    form: SolitonForm,
+    eq: Equation,
+    units: physunits.Scales | None,
+    value: float,
+    sign: int,
+) -> float:
+    """The kappa of a soliton given by its amplitude or speed, or in physical units (run ``i``)."""
+    size = tpl.initial["size"]
+    if units is not None:  # amplitude: height; speed: laboratory; kappa: per metre
+        value = physunits.to_canonical(value, physunits.INITIAL_DIMENSIONS[size], units)
+        if not value > 0:  # a laboratory speed at or below the linear long-wave speed
+            raise blk.fail(
+                slot.key,
+                slot.given,
+                f"a laboratory speed above the linear long-wave speed c0 = {units.c0:.6g} "
+                "(solitary waves are faster than linear waves)",
+                i,
+            )
+    try:
+        if size == "amplitude":
+            value = form.kappa_from_amplitude(value, sign)
+        elif size == "speed":
+            if eq.d < 0:
+                raise blk.fail(
+                    slot.key, slot.given, "speeds only for d > 0 (solitons move right)", i
+                )
+            value = form.kappa_from_speed(value)
+    except ConfigError as err:
+        raise blk.fail(slot.key, slot.given, f"a soliton of this equation ({err})", i) from None
+    return value
+
+
+def _given_points(blk: _Block, tpl: _Template, scheme: str = "") -> np.ndarray:
+    """``model.points`` as written, refused before anything is built when no run could hold it:
+    beyond 2^62, or one frame and the stepper's buffers beyond :data:`MAX_RUN_BYTES`."""
+    assert tpl.points is not None
+    points = blk.num(tpl.points, "integer")
+    r = _first(~(np.abs(points) <= 2**62))  # no grid is this large: refused here in a short line
+    if r is not None:
+        raise blk.fail("model.points", float(points[r]), "an even integer >= 16 (at most 2^62)", r)
+    n = points.astype(np.int64)
+    need = sizing.run_memory(n.astype(np.float64), 1, scheme)
+    r = _first(need > MAX_RUN_BYTES)
+    if r is not None:
+        raise blk.fail(
+            "model.points",
+            int(n[r]),
+            f"a run that fits in {MAX_RUN_BYTES / 2**30:g} GiB: n = {int(n[r])} needs about "
+            f"{float(need[r]) / 2**30:.3g} GiB for the stepper's buffers and one frame",
+            r,
+        )
+    return n
+
+
+def _check_steps(blk: _Block, scheme: str, dt: np.ndarray, t_end: np.ndarray) -> None:
+    """Refuse a fixed step that would take more than :data:`MAX_STEPS` steps up to ``t_end``."""
+    if scheme == ADAPTIVE:
+        return
+    r = _first(~(t_end / dt <= MAX_STEPS))
+    if r is not None:
+        d, t = float(dt[r]), float(t_end[r])
+        raise blk.fail(
+            "model.dt",
+            d,
+            f"a step giving at most {MAX_STEPS:.0e} steps up to t = {t:g} (t / dt = {t / d:.3g})",
+            r,
+        )
+
+
+def _check_effort(
+    blk: _Block,
+    tpl: _Template,
+    n: np.ndarray,
+    scheme: str,
+    dt: np.ndarray,
+    t_end: np.ndarray,
+    frames: np.ndarray,
+) -> None:
+    """Refuse a run whose step count or memory is out of reach (:data:`MAX_STEPS`,
+    :data:`MAX_RUN_BYTES`), naming what it would take."""
+    _check_steps(blk, scheme, dt, t_end)
+    need = sizing.run_memory(n.astype(np.float64), np.floor(frames), scheme)
+    r = _first(need > MAX_RUN_BYTES)
+    if r is not None:
+        count, frame_count = int(n[r]), int(frames[r])
+        key = "model.points" if count * 64 > frame_count else "run.frame_every"
+        given = tpl.frame_every if key == "run.frame_every" else count
+        raise blk.fail(
+            key,
+            given,
+            f"a run that fits in {MAX_RUN_BYTES / 2**30:g} GiB: n = {count} with {frame_count} "
+            f"frames needs about {float(need[r]) / 2**30:.3g} GiB (frames, their analysis and the "
+            f"{scheme} stepper's buffers)",
+            r,
+        )
+
+
+def _check_scales(
+    blk: _Block,
+    tpl: _Template,
+    eq: Equation,
+    dx: np.ndarray,
+    dt: np.ndarray,
+    max_u: np.ndarray,
+    dealias: float,
+) -> None:
+    """Refuse a run whose terms overflow float64 from the start: the linear symbol at the largest
+    wavenumber times ``dt``, or the nonlinear term at ``max |u|``."""
+    first, _ = _unique_rows(dx, dt)
+    for r in sorted(first.tolist()):
+        if not _symbol_finite(eq, float(dx[r]), float(dt[r])):
+            raise blk.src.error(
+                "model.equation",
+                f"d = {eq.d:.3g}, f = {eq.f:.3g}, v = {eq.v:.3g} in {blk.label_of(r)}",
+                f"coefficients whose linear term times dt is finite at the largest wavenumber "
+                f"pi/dx = {math.pi / float(dx[r]):.4g}",
+            )
+    with np.errstate(all="ignore"):
+        rate = nonlinear_rate(max_u, eq.a, eq.b, dealias, dx) * max_u
+    r = _first(~np.isfinite(rate))
+    if r is not None:
+        key = "initial.file" if tpl.kind == "npy" else "model.equation"
+        raise blk.src.error(
+            key,
+            f"max |u| = {float(max_u[r]):.3g} with a = {eq.a:.3g}, b = {eq.b:.3g} in "
+            f"{blk.label_of(r)}",
+            "data and coefficients whose nonlinear term (|a| max|u| + |b| max u^2) max|u| "
+            "k_cut is a finite number",
+        )
+
+
+def _check_resolution(
+    blk: _Block,
+    warn: _Warnings,
+    narrowest: np.ndarray,
+    n: np.ndarray,
+    length: np.ndarray,
+    dealias: float,
+    auto: bool,
+    where: np.ndarray,
+) -> None:
+    """Refuse runs (``where`` they have a width to resolve) with fewer than the refusal level of
+    points per width of their narrowest soliton; warn below the double-precision level."""
+    dx = length / n
+    per_width = np.where(where, narrowest / dx, math.inf)
+    refuse = sizing.min_points_per_width(dealias, sizing.REFUSE_DECADES)
+    good = sizing.min_points_per_width(dealias, sizing.WARN_DECADES)
+    r = _first(per_width < refuse)
+    if r is not None:
+        w, size = float(narrowest[r]), float(length[r])
+        need = sizing.points_needed(w, size, dealias)
+        shown = str(sizing.auto_points(w, size, dealias)) if need <= 1e12 else None
+        raise blk.fail(
+            "model.points",
+            int(n[r]),
+            f"at least {_fixed(refuse)} points per width of the narrowest soliton "
+            f"(width {w:.4g}, dx {float(dx[r]):.4g} gives {_fixed(float(per_width[r]))}); "
+            + (
+                f"n = {shown} or 'auto' gives {_fixed(good)}"
+                if shown
+                else f"n = {_count(need)} would: no grid can (a wider soliton, or dealias, "
+                "is out of range)"
+            ),
+            r,
+        )
+    if not auto:
+        low = np.flatnonzero(per_width < good)
+        warn.add_many(
+            "model.points",
+            f"resolve the narrowest soliton with fewer than {_fixed(good)} points "
+            "per width (double precision)",
+            blk.ids[low],
+            1 / per_width[low],
+            lambda i: f"{float(per_width[low[i]]):.1f} points per width",
+        )
+
+
+def _frame_count(end: float | np.ndarray, every: float) -> np.ndarray:
+    """Frames :func:`_record_times` gives, without building them (``end / every`` when that is
+    inf or huge)."""
+    end = np.asarray(end, dtype=np.float64)
+    with np.errstate(all="ignore"):  # inf, as float arithmetic gives
+        ratio = end / every
+        huge = ~(ratio < 1e15)
+        count = np.floor(np.where(huge, 0.0, ratio) + 1e-9)
+        last = _canonical(count * every)
+        out = count + 1.0 + np.where(end - last > 1e-9 * every, 1.0, 0.0)
+    return np.where(huge, ratio, out)
+
+
+def _grids(blk: _Block, n: np.ndarray, length: np.ndarray) -> tuple[list[Grid], np.ndarray]:
+    """The grid of every run: one object per distinct ``(n, length)`` and each run's index."""
+    first, inverse = _unique_rows(n, length)
+    grids = []
+    for r in first.tolist():
+        try:
+            grids.append(_make_grid(int(n[r]), float(length[r])))
+        except ConfigError as err:
+            raise blk.fail("model.points", int(n[r]), f"an even integer >= 16 ({err})", r) from None
+    return grids, inverse
+
+
+def _exact_wave(tpl: _Template, ctx: _Block, eq: Equation) -> tuple[init.InitialData, float, float]:
     """The exact breather or ``sech^4`` wave of a run, refused (one line, naming why) for an
     equation without it; with its ``max |u0|`` and the width a grid must resolve."""
     spec = tpl.initial
-    center = ctx.num(spec["center"])
+    center = ctx.num1(spec["center"])
     shown = f"{tpl.kind!r} for equation {eq.name!r} ({eq.describe()}) in {ctx.label}"
     if tpl.kind == "breather":
         try:
@@ -1443,8 +1885,8 @@ def _exact_wave(tpl: _Template, ctx: _Run, eq: Equation) -> tuple[init.InitialDa
                 "an unperturbed focusing mKdV equation (a = 0, b d > 0, f = g = v = 0): the "
                 "breather is exact only there",
             ) from None
-        eta, xi = ctx.num(spec["eta"], "positive"), ctx.num(spec["xi"], "positive")
-        data = init.Breather(eta, xi, center, ctx.num(spec["phase"]))
+        eta, xi = ctx.num1(spec["eta"], "positive"), ctx.num1(spec["xi"], "positive")
+        data = init.Breather(eta, xi, center, ctx.num1(spec["phase"]))
         return data, eq.soliton_form.breather_amplitude(eta), data.width
     why = exact.fifth_order_obstacle(eq)
     if why:
@@ -1478,7 +1920,7 @@ def _profile_width(initial: init.InitialData) -> float:
 
 
 def _predicted(
-    tpl: _Template, ctx: _Run, key: str, eq: Equation, initial: init.InitialData, grid: Grid
+    tpl: _Template, ctx: _Block, key: str, eq: Equation, initial: init.InitialData, grid: Grid
 ) -> tuple[Any, np.ndarray]:
     """The predicted content of the initial data on ``grid`` (cached per distinct profile)."""
     from .. import spectrum  # scipy's dense eigensolvers: loaded only by sweeps that size content
@@ -1501,7 +1943,7 @@ def _predicted(
 
 def _content_sizing(
     tpl: _Template,
-    ctx: _Run,
+    ctx: _Block,
     warn: _Warnings,
     eq: Equation,
     initial: init.InitialData,
@@ -1522,6 +1964,7 @@ def _content_sizing(
             "sizing",
             "automatic sizing uses the solitons the unperturbed equation predicts; "
             "the f, g, v terms change them",
+            ctx.run_id,
         )
     form = sized.soliton_form_or_none()
     if form is None:
@@ -1539,7 +1982,7 @@ def _content_sizing(
         )
     span = length if length is not None else _provisional_length(initial)
     if tpl.points is not None:
-        n = _given_points(ctx, tpl)
+        n = int(_given_points(ctx, tpl)[0])
     elif math.isfinite(_profile_width(initial)):
         n = sizing.auto_points(_profile_width(initial), span, eq.dealias_fraction)
     else:
@@ -1611,40 +2054,8 @@ def _sech2_narrowest(height: float, scale: float, form: SolitonForm) -> float:
     return scale / lam if lam > 0 else math.inf
 
 
-def _check_resolution(
-    ctx: _Run, warn: _Warnings, narrowest: float, grid: Grid, dealias: float, auto: bool
-) -> None:
-    per_width = narrowest / grid.dx
-    refuse = sizing.min_points_per_width(dealias, sizing.REFUSE_DECADES)
-    good = sizing.min_points_per_width(dealias, sizing.WARN_DECADES)
-    if per_width < refuse:
-        need = sizing.points_needed(narrowest, grid.length, dealias)
-        shown = str(sizing.auto_points(narrowest, grid.length, dealias)) if need <= 1e12 else None
-        raise ctx.fail(
-            "model.points",
-            grid.n,
-            f"at least {_fixed(refuse)} points per width of the narrowest soliton "
-            f"(width {narrowest:.4g}, dx {grid.dx:.4g} gives {_fixed(per_width)}); "
-            + (
-                f"n = {shown} or 'auto' gives {_fixed(good)}"
-                if shown
-                else f"n = {_count(need)} would: no grid can (a wider soliton, or dealias, "
-                "is out of range)"
-            ),
-        )
-    if per_width < good and not auto:
-        warn.add(
-            "model.points",
-            f"resolve the narrowest soliton with fewer than {_fixed(good)} points "
-            "per width (double precision)",
-            ctx.run_id,
-            1 / per_width,
-            f"{per_width:.1f} points per width",
-        )
-
-
 def _check_spectrum(
-    ctx: _Run, warn: _Warnings, initial: init.InitialData, grid: Grid, eq: Equation, auto: bool
+    ctx: _Block, warn: _Warnings, initial: init.InitialData, grid: Grid, eq: Equation, auto: bool
 ) -> None:
     """Resolution of data other than solitons, from the spectrum of ``u0`` itself
     (:func:`sizing.spectrum_decades`): warned below ``WARN_DECADES`` at the dealiasing cutoff
@@ -1679,43 +2090,246 @@ def _plain_json(data: Any) -> str:
     return json.dumps(data, sort_keys=True, separators=(",", ":"), allow_nan=False)
 
 
-class Runs(Sequence[RunSpec]):
-    """The runs of a sweep, each expanded from the checked template when it is asked for.
+class _Part:
+    """Runs of a block that share their text values, system and equation, evaluated: what the
+    :class:`RunSpec` of each is made of, and the canonical JSON of each that the digest hashes."""
 
-    At most :attr:`KEPT` expanded runs are kept: ``runs[i]`` and iteration evaluate the template
-    again for any other (expressions, sizing, checks; about 0.1 ms a run), so a sweep of 10^6 runs
-    costs the memory of its axes, and the farm draws its runs one chunk at a time. Every run was
-    evaluated once by :func:`load_sweep`, so expanding one again cannot fail.
+    def __init__(
+        self,
+        tpl: _Template,
+        blk: _Block,
+        eq: Equation,
+        system: physunits.System | None,
+        scheme: str,
+        dt: np.ndarray,
+        tol: np.ndarray | None,
+        grids: list[Grid],
+        grid_of: np.ndarray,
+        t_end: np.ndarray,
+        initials: list[init.InitialData],
+        kappas: np.ndarray,
+        positions: np.ndarray,
+        signs: np.ndarray,
+    ) -> None:
+        self.ids = blk.ids
+        #: positions of these runs in the block (set by :func:`_expand_block`)
+        self.where = np.arange(len(blk))
+        self.system = system
+        #: profile data: one per run; solitons: none (``kappas``, ``positions``, ``signs``)
+        self.initials = initials
+        self.kappas, self.positions, self.signs = kappas, positions, signs
+        self.exact = tpl.kind == "multisoliton"
+        tols = np.full(len(blk), -1.0) if tol is None else tol
+        first, self.model_of = _unique_rows(grid_of, dt, tols)
+        self.models = [
+            _make_model(
+                eq,
+                grids[int(grid_of[r])],
+                scheme,
+                float(dt[r]),
+                None if tol is None else float(tol[r]),
+            )
+            for r in first.tolist()
+        ]
+        verify = np.isin(blk.ids, tpl.verified_ids)
+        soliton = tpl.kind in ("solitons", "multisoliton")
+        first, self.settings_of = _unique_rows(t_end, verify)
+        self.settings = [
+            _make_settings(
+                t_end=float(t_end[r]),
+                record_times=_record_times(float(t_end[r]), tpl.frame_every),
+                store_frames=tpl.keep_frames,
+                frame_stride=tpl.keep_stride,
+                predict_content=tpl.predict_content,
+                min_amplitude=tpl.min_amplitude if not soliton else None,
+                tail=tpl.tail if not soliton else DEFAULT_TAIL,
+                time_limit=tpl.time_limit,
+                drift_limit=tpl.drift_limit,
+                max_amplitude=tpl.max_amplitude,
+                accuracy=tpl.target,
+                verify=bool(verify[r]),
+            )
+            for r in first.tolist()
+        ]
+
+    def initial(self, j: int) -> init.InitialData:
+        """The initial data of run ``j`` of the part."""
+        if self.initials:
+            return self.initials[j]
+        return init.Solitons(
+            tuple(self.kappas[j].tolist()),
+            tuple(self.positions[j].tolist()),
+            tuple(self.signs[j].tolist()),
+            self.exact,
+        )
+
+    def spec(self, j: int, params: dict[str, Value]) -> RunSpec:
+        """The run ``j`` of the part (``params``: its parameters)."""
+        return RunSpec(
+            int(self.ids[j]),
+            params,
+            self.models[self.model_of[j]],
+            self.initial(j),
+            self.settings[self.settings_of[j]],
+            self.system,
+        )
+
+    def jsons(self, params: list[str], cache: dict[int, tuple[object, str]]) -> list[str]:
+        """The canonical JSON of each run's :meth:`RunSpec.plain` (an ``.npy`` file by its
+        content, not its location), written from parts: ``params`` the runs' parameters as
+        JSON, a model or settings object encoded once (kept in ``cache`` by identity)."""
+
+        def encoded(obj: ModelSpec | RunSettings) -> str:
+            held = cache.get(id(obj))
+            if held is None or held[0] is not obj:
+                if len(cache) > 1024:
+                    cache.clear()
+                held = cache[id(obj)] = (obj, _plain_json(obj.plain()))
+            return held[1]
+
+        models = [encoded(model) for model in self.models]
+        settings = [encoded(run) for run in self.settings]
+        if self.initials:
+            initials = []
+            for data in self.initials:
+                plain = data.plain()
+                if plain["kind"] == "npy":  # content, not location
+                    plain = {k: v for k, v in plain.items() if k != "path"}
+                initials.append(_plain_json(plain))
+        else:  # the keys of init.Solitons.plain in sorted order, as json.dumps writes them
+            kind = '"kind":"multisoliton"' if self.exact else '"kind":"solitons"'
+            initials = [
+                f'{{"kappa":{k},{kind},"sign":{s},"x0":{x}}}'
+                for k, s, x in zip(
+                    _json_rows(self.kappas, repr),
+                    _json_rows(self.signs, str),
+                    _json_rows(self.positions, repr),
+                    strict=True,
+                )
+            ]
+        units = "" if self.system is None else ',"units":' + _plain_json(self.system.plain())
+        # the keys of RunSpec.plain in sorted order, as json.dumps(sort_keys=True) writes them
+        return [
+            f'{{"initial":{i},"model":{models[mo]},"params":{p},"run":{settings[so]},'
+            f'"run_id":{run_id}{units}}}'
+            for i, mo, p, so, run_id in zip(
+                initials,
+                self.model_of.tolist(),
+                params,
+                self.settings_of.tolist(),
+                self.ids.tolist(),
+                strict=True,
+            )
+        ]
+
+
+def _json_rows(table: np.ndarray, write: Callable[[Any], str]) -> list[str]:
+    """Each row of ``table`` as a JSON list, each value written by ``write`` (a column of one
+    value, written once)."""
+    cols = []
+    for j in range(table.shape[1]):
+        col = table[:, j]
+        same = col == col[0]
+        if len(col) and bool(np.all(same & (np.signbit(col) == np.signbit(col[0])))):  # 0 and -0
+            cols.append([write(col[0].item())] * len(col))
+        else:
+            cols.append(list(map(write, col.tolist())))
+    if len(cols) == 1:
+        return ["[" + value + "]" for value in cols[0]]
+    return ["[" + ",".join(row) + "]" for row in zip(*cols, strict=True)]
+
+
+class Runs(Sequence[RunSpec]):
+    """The runs of a sweep, evaluated from the checked template a block at a time when asked for.
+
+    Runs are evaluated :attr:`BLOCK` at a time, every value an array over the block
+    (:class:`_Block`); at most :attr:`KEPT` evaluated blocks are kept, and a :class:`RunSpec` is
+    made when asked for. A sweep of 10^6 runs costs the memory of its axes, and the farm draws
+    its runs one chunk at a time. Every run was evaluated once by :func:`load_sweep`, so
+    evaluating one again cannot fail.
     """
 
-    #: Runs kept once expanded (the most recent): a sweep this small is expanded once, whatever
-    #: reads it how often (the plan, the farm); a larger one keeps a bounded few MB.
-    KEPT = 1024
+    #: Runs of soliton data evaluated together (a power of two); the first blocks grow to it
+    #: from one run (1, 1, 2, 4, ...), so that a mistake in the first runs is found at once.
+    BLOCK = 2048
+    #: The same for other data, whose sizing and checks are per run (spectra): few at a time,
+    #: so that asking for one run evaluates few others.
+    PROFILE_BLOCK = 16
+    #: Evaluated blocks kept (the most recent).
+    KEPT = 4
 
     def __init__(self, src: Source, tpl: _Template, space: Space) -> None:
         self._src = src
         self._tpl = tpl
         self._space = space
-        self._kept: OrderedDict[int, RunSpec] = OrderedDict()
+        self._block = self.BLOCK if tpl.kind in ("solitons", "multisoliton") else self.PROFILE_BLOCK
+        assert self._block & (self._block - 1) == 0  # a power of two
+        self._ramp = self._block.bit_length()  # blocks of the first self._block runs
+        #: block -> its parts, and each position's part and index in it
+        self._kept: OrderedDict[int, tuple[list[_Part], np.ndarray, np.ndarray]] = OrderedDict()
 
     def __len__(self) -> int:
         return len(self._space)
 
-    def _expand(
-        self, run_id: int, params: dict[str, Value] | None, warn: _Warnings | None
-    ) -> RunSpec:
-        """Run ``run_id`` (``params``: its parameters, looked up when ``None``), from those kept
-        unless ``warn`` gathers the warnings of a first expansion."""
-        spec = self._kept.get(run_id)
-        if spec is None or warn is not None:
-            if params is None:
-                params = self._space[run_id]
-            sink = warn if warn is not None else _Warnings("", len(self._space))
-            spec = _expand_run(self._tpl, _Run(self._src, run_id, params), sink)
-            self._kept[run_id] = spec
+    def _block_of(self, run_id: int) -> int:
+        """The block of run ``run_id``: ``[0]``, ``[1]``, ``[2, 3]``, ``[4, 7]``, ... up to the
+        full size, then full blocks."""
+        if run_id < self._block:
+            return run_id.bit_length()
+        return self._ramp + (run_id - self._block) // self._block
+
+    def _start(self, block: int) -> int:
+        """The first run of ``block`` (:meth:`_block_of`)."""
+        if block < self._ramp:
+            return 0 if block == 0 else 1 << (block - 1)
+        return self._block * (block - self._ramp + 1)
+
+    def _ids(self, block: int) -> np.ndarray:
+        """The runs of ``block``."""
+        return np.arange(self._start(block), min(len(self), self._start(block + 1)))
+
+    def _evaluate(self, ids: np.ndarray, warn: _Warnings) -> list[_Part]:
+        """The runs ``ids`` evaluated; on a mistake, the error of the first run that has one,
+        found by evaluating the runs one by one (the first mistake of that run)."""
+        try:
+            with np.errstate(all="ignore"):  # overflow gives inf, as in float arithmetic: checked
+                return _expand_block(self._tpl, _Block.of(self._src, self._space, ids), warn)
+        except ConfigError:
+            if len(ids) == 1:
+                raise
+            scratch = _Warnings("", len(self))
+            for i in range(len(ids)):
+                with np.errstate(all="ignore"):
+                    one = _Block.of(self._src, self._space, ids[i : i + 1])
+                    _expand_block(self._tpl, one, scratch)
+            raise
+
+    def _parts(
+        self, block: int, warn: _Warnings | None = None
+    ) -> tuple[list[_Part], np.ndarray, np.ndarray]:
+        """The evaluated block, from those kept unless ``warn`` gathers a first evaluation's
+        warnings."""
+        kept = self._kept.get(block)
+        if kept is None or warn is not None:
+            ids = self._ids(block)
+            parts = self._evaluate(ids, warn if warn is not None else _Warnings("", len(self)))
+            part_of = np.empty(len(ids), dtype=np.int64)
+            index = np.empty(len(ids), dtype=np.int64)
+            for p, part in enumerate(parts):
+                part_of[part.where] = p
+                index[part.where] = np.arange(len(part.where))
+            kept = self._kept[block] = (parts, part_of, index)
             if len(self._kept) > self.KEPT:
                 self._kept.popitem(last=False)
-        return spec
+        return kept
+
+    def _spec(self, run_id: int, params: dict[str, Value] | None = None) -> RunSpec:
+        block = self._block_of(run_id)
+        parts, part_of, index = self._parts(block)
+        pos = run_id - self._start(block)
+        if params is None:
+            params = self._space[run_id]
+        return parts[part_of[pos]].spec(int(index[pos]), params)
 
     @overload
     def __getitem__(self, index: int) -> RunSpec: ...
@@ -1726,51 +2340,35 @@ class Runs(Sequence[RunSpec]):
     def __getitem__(self, index: int | slice) -> RunSpec | list[RunSpec]:
         if isinstance(index, slice):
             return [self[i] for i in range(*index.indices(len(self)))]
-        return self._expand(self._space.run_id(index), None, None)
+        return self._spec(self._space.run_id(index))
 
     def __iter__(self) -> Iterator[RunSpec]:
-        if len(self._kept) == len(self):  # all at hand
-            yield from [self._kept[i] for i in range(len(self))]
-            return
         for run_id, params in enumerate(self._space):
-            yield self._expand(run_id, params, None)
-
-    def _json(self, spec: RunSpec, parts: dict[int, tuple[object, str]]) -> str:
-        """The canonical JSON of ``spec.plain()`` (an ``.npy`` file by its content, not its
-        location), written from parts: a model or settings object shared by runs
-        (:func:`_make_model`) is encoded once and kept in ``parts`` by identity."""
-
-        def part(obj: ModelSpec | RunSettings) -> str:
-            held = parts.get(id(obj))
-            if held is None or held[0] is not obj:
-                if len(parts) > 1024:
-                    parts.clear()
-                held = parts[id(obj)] = (obj, _plain_json(obj.plain()))
-            return held[1]
-
-        initial = spec.initial.plain()
-        if initial["kind"] == "npy":  # content, not location
-            initial = {k: v for k, v in initial.items() if k != "path"}
-        units = "" if spec.units is None else ',"units":' + _plain_json(spec.units.plain())
-        # the keys of RunSpec.plain in sorted order, as json.dumps(sort_keys=True) writes them
-        return (
-            f'{{"initial":{_plain_json(initial)},"model":{part(spec.model)},'
-            f'"params":{_plain_json(dict(spec.params))},"run":{part(spec.run)},'
-            f'"run_id":{int(spec.run_id)}{units}}}'
-        )
+            yield self._spec(run_id, params)
 
     def digest(self, frames: dict[str, Any], warn: _Warnings) -> str:
-        """Expand and check every run once, hashing each as it goes (the sha256 of the canonical
-        JSON ``{"format", "frames", "runs": [...]}``, streamed: no list of runs is built), and
-        gather the warnings; raise :class:`ConfigError` on the first run with a mistake."""
+        """Evaluate and check every run once, hashing each as it goes (the sha256 of the
+        canonical JSON ``{"format", "frames", "runs": [...]}``, streamed: no list of runs is
+        built), and gather the warnings; raise :class:`ConfigError` on the first run with a
+        mistake."""
         head = _plain_json({"format": FORMAT, "frames": frames, "runs": []})
         assert head.endswith("[]}")  # "runs" sorts last: each run is hashed in its place
         sha = hashlib.sha256(head[:-2].encode())
-        parts: dict[int, tuple[object, str]] = {}
-        for run_id, params in enumerate(self._space):
-            if run_id:
+        cache: dict[int, tuple[object, str]] = {}
+        for block in range(self._block_of(len(self) - 1) + 1):
+            parts, _, _ = self._parts(block, warn)
+            ids = self._ids(block)
+            params = self._space.encoded(ids)
+            texts = [""] * len(ids)
+            for part in parts:
+                where = part.where.tolist()
+                for w, text in zip(
+                    where, part.jsons([params[w] for w in where], cache), strict=True
+                ):
+                    texts[w] = text
+            if block:
                 sha.update(b",")
-            sha.update(self._json(self._expand(run_id, params, warn), parts).encode())
+            sha.update(",".join(texts).encode())
         sha.update(b"]}")
         return sha.hexdigest()
 
@@ -1810,7 +2408,9 @@ def load_sweep(path: str | Path) -> Sweep:
         ) from None
     tpl = _read_template(src, doc, file.resolve().parent, file.stem)
     space = Space(tpl.axes)
-    tpl.verified = acc.verified_runs(range(len(space)), tpl.verify, tpl.seed)
+    tpl.verified_ids = np.array(
+        sorted(acc.verified_runs(range(len(space)), tpl.verify, tpl.seed)), dtype=np.int64
+    )
     warn = _Warnings(label, len(space))
     if (
         tpl.sizing_given

@@ -389,6 +389,11 @@ class Expression:
     names: Mapping[str, int]
     _tree: _Node
 
+    @property
+    def bare_name(self) -> str | None:
+        """The name, when the expression is one name alone (``"k2"``), else None."""
+        return self._tree.name if isinstance(self._tree, _Name) else None
+
     def evaluate(self, env: Mapping[str, object]) -> float:
         """The value with the names bound by ``env`` (numbers or text); raises ExpressionError on
         any failure. A block of one run of :meth:`evaluate_many`."""

@@ -70,9 +70,14 @@ if TYPE_CHECKING:
     from ..spectrum import SolitonContent
 
 
-def _tail_constant(kappa: float, form: SolitonForm) -> float:
-    """The larger :meth:`SolitonForm.tail_constant` over the equation's polarities."""
-    return max(form.tail_constant(kappa, s) for s in form.polarities)
+def _tail_constant(kappa: np.ndarray, form: SolitonForm) -> np.ndarray:
+    """The larger :meth:`SolitonForm.tail_constant` over the equation's polarities (as Python's
+    ``max`` of them, element by element)."""
+    out = np.asarray(form.tail_constant(kappa, form.polarities[0]), dtype=np.float64)
+    for s in form.polarities[1:]:
+        other = np.asarray(form.tail_constant(kappa, s), dtype=np.float64)
+        out = np.where(other > out, other, out)
+    return out
 
 
 def _logs(values: np.ndarray) -> np.ndarray:
@@ -94,12 +99,11 @@ def reach(kappa: float | np.ndarray, form: SolitonForm, tail: float) -> float | 
     ``kappa`` a float (a float back) or an array of any shape (an array of that shape).
     """
     k = np.asarray(kappa, dtype=np.float64)
-    if form.family == "gardner":  # C depends on kappa: once per distinct kappa
-        distinct, where = np.unique(k, return_inverse=True)
-        constants = np.array([_tail_constant(v, form) for v in distinct.tolist()])
-        logs = _logs(constants / tail)[where.reshape(k.shape)]
+    if form.family == "gardner":  # C depends on kappa
+        with np.errstate(all="ignore"):
+            logs = _logs(_tail_constant(k, form) / tail)
     else:  # KdV, mKdV: C is a constant of the family (any kappa gives it)
-        logs = np.full(k.shape, math.log(_tail_constant(1.0, form) / tail))
+        logs = np.full(k.shape, math.log(float(_tail_constant(np.ones(()), form)) / tail))
     with np.errstate(all="ignore"):
         out = logs / (2.0 * k)
     return float(out) if out.ndim == 0 else out

@@ -11,6 +11,7 @@ stratum in every dimension, scipy.stats.qmc) or ``"uniform"`` (independent unifo
 from __future__ import annotations
 
 import itertools
+import json
 import math
 import operator
 import re
@@ -56,6 +57,8 @@ class Axis:
 
     names: tuple[str, ...]
     columns: tuple[tuple[Value, ...], ...]
+    #: the names whose values are numbers rounded by :func:`canonical` (ranges and draws)
+    rounded: frozenset[str] = frozenset()
 
     def __len__(self) -> int:
         return len(self.columns[0])
@@ -219,8 +222,10 @@ def read_space(src: Source, data: object) -> list[Axis]:
                     f"each parameter once (already set in {seen[name]})",
                 )
             seen[name] = tab.key(name)
+        rounded = set()
         if "draw" in block:
             columns: tuple[tuple[Value, ...], ...] = _draw(src, tab, names)
+            rounded.update(names)
         else:
             cols = []
             for name in names:
@@ -229,6 +234,7 @@ def read_space(src: Source, data: object) -> list[Axis]:
                     cols.append(_list(src, tab.key(name), value))
                 elif isinstance(value, dict):
                     cols.append(_range(src, tab.key(name), value))
+                    rounded.add(name)
                 else:
                     raise tab.fail(name, value, "a list of values or a range {from, to, count}")
             first = names[0]
@@ -241,7 +247,7 @@ def read_space(src: Source, data: object) -> list[Axis]:
                         "zipped)",
                     )
             columns = tuple(cols)
-        axes.append(Axis(tuple(names), columns))
+        axes.append(Axis(tuple(names), columns, frozenset(rounded)))
     total = math.prod(len(a) for a in axes)
     if total > MAX_RUNS:
         raise src.error("vary", f"{total} runs", f"at most {MAX_RUNS} runs in one sweep")
@@ -256,6 +262,11 @@ class Space(Sequence[dict[str, Value]]):
         self.axes = tuple(axes)
         self._sizes = tuple(len(a) for a in self.axes)
         self._count = math.prod(self._sizes)
+        #: the names whose values :func:`canonical` leaves as they are
+        self.rounded = frozenset(n for a in self.axes for n in a.rounded)
+        #: each name's values as an array (float64 for numbers, object for text), built when
+        #: first asked for by :meth:`columns`
+        self._arrays: dict[str, np.ndarray] = {}
 
     def __len__(self) -> int:
         return self._count
@@ -295,6 +306,51 @@ class Space(Sequence[dict[str, Value]]):
     def __iter__(self) -> Iterator[dict[str, Value]]:
         for positions in itertools.product(*(range(n) for n in self._sizes)):
             yield self._at(positions)
+
+    def _positions(self, ids: np.ndarray) -> list[np.ndarray]:
+        """Each axis's position in the runs ``ids`` (mixed radix, the last axis fastest)."""
+        out = []
+        stride = self._count
+        for size in self._sizes:
+            stride //= size
+            out.append(ids // stride % size)
+        return out
+
+    def columns(self, ids: np.ndarray) -> dict[str, np.ndarray]:
+        """The parameters of the runs ``ids``, one array per name: float64 for numbers (an
+        integer as ``float(value)``, as expressions see it), object arrays of ``str`` for text."""
+        out = {}
+        for axis, pos in zip(self.axes, self._positions(ids), strict=True):
+            for name, col in zip(axis.names, axis.columns, strict=True):
+                values = self._arrays.get(name)
+                if values is None:
+                    text = isinstance(col[0], str)
+                    values = np.array(col, dtype=object if text else np.float64)
+                    self._arrays[name] = values
+                out[name] = values[pos]
+        return out
+
+    def encoded(self, ids: np.ndarray) -> list[str]:
+        """The parameters of each run of ``ids`` as canonical JSON (``json.dumps`` with sorted
+        keys and no spaces: a number as its ``repr``, text as a JSON string)."""
+        fields: list[tuple[str, tuple[Value, ...], np.ndarray]] = []
+        for axis, pos in zip(self.axes, self._positions(ids), strict=True):
+            for name, col in zip(axis.names, axis.columns, strict=True):
+                fields.append((name, col, pos))
+        cols = []
+        for name, col, pos in sorted(fields, key=lambda f: f[0]):
+            head = json.dumps(name) + ":"
+            cols.append(
+                [
+                    head + (json.dumps(v) if isinstance(v, str) else repr(v))
+                    for v in map(col.__getitem__, pos.tolist())
+                ]
+            )
+        if not cols:
+            return ["{}"] * len(ids)
+        if len(cols) == 1:
+            return ["{" + field + "}" for field in cols[0]]
+        return ["{" + ",".join(row) + "}" for row in zip(*cols, strict=True)]
 
 
 __all__ = [
