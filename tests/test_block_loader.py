@@ -199,3 +199,31 @@ def test_a_run_is_the_same_from_any_block(tmp_path: Path) -> None:
     rng = np.random.default_rng(5)
     for i in rng.permutation(len(listed))[:40].tolist():
         assert sweep.runs[i] == listed[i]
+
+
+def test_model_json_is_the_canonical_json_of_the_model() -> None:
+    # the digest writes the models of a block without making them: the same text as the
+    # canonical JSON of each model's plain form
+    from kdvsweep.model import Equation, Grid
+    from kdvsweep.sweep.config import ModelSpec, _plain_json
+
+    rng = np.random.default_rng(3)
+    equations = [
+        Equation.preset("kdv"),
+        Equation.preset("mkdv"),
+        Equation(a=6.0, b=3.0, d=1.0, v=0.01),
+        Equation(a=-1.5, b=0.0, d=2.0, f=1e-3, dealias=0.5),
+    ]
+    for eq in equations:
+        for scheme, adaptive in (("etdrk4", False), ("adaptive", True)):
+            grids = [
+                Grid(int(n), float(rng.uniform(1, 500))) for n in rng.choice([64, 96, 4096], 8)
+            ]
+            dts = rng.uniform(1e-5, 0.1, 8).tolist()
+            tols = rng.uniform(1e-9, 1e-3, 8).tolist() if adaptive else [None] * 8
+            written = ModelSpec.plain_jsons(eq, scheme, grids, dts, tols)
+            made = [
+                _plain_json(ModelSpec(eq, g, scheme, d, t).plain())
+                for g, d, t in zip(grids, dts, tols, strict=True)
+            ]
+            assert written == made

@@ -8,7 +8,7 @@ from __future__ import annotations
 import functools
 import math
 import sys
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from typing import Any, TypedDict
 
@@ -399,6 +399,19 @@ class SolitonForm:
         else:
             out = abs(self.alpha) * (2.0 * k**2 if self.family == "kdv" else 2.0 * k)
         return float(out) if out.ndim == 0 else out
+
+    def per_soliton(
+        self, value: Callable[[np.ndarray, int], Any], kappas: np.ndarray, signs: np.ndarray
+    ) -> np.ndarray:
+        """``value(kappa, sign)`` (a method of this form that takes a polarity: amplitude, width)
+        of every soliton of every run: ``kappas`` and ``signs`` are tables of runs by solitons;
+        asked once per soliton and polarity."""
+        out = np.empty(kappas.shape, dtype=np.float64)
+        for j in range(kappas.shape[1]):
+            for s in np.unique(signs[:, j]).tolist():
+                sel = signs[:, j] == s
+                out[sel, j] = value(kappas[sel, j], int(s))
+        return out
 
     def speed(self, kappa: ArrayLike) -> Any:
         """``4 d kappa^2`` in every family."""

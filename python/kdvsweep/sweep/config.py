@@ -142,6 +142,31 @@ class ModelSpec:
             "tol": self.tol,
         }
 
+    @staticmethod
+    def plain_jsons(
+        equation: Equation,
+        scheme: str,
+        grids: Sequence[Grid],
+        dts: Sequence[float],
+        tols: Sequence[float | None],
+    ) -> list[str]:
+        """:meth:`plain` of the models of ``equation`` and ``scheme`` on each grid with each step
+        and tolerance, as canonical JSON (sorted keys, no spaces), written without making the
+        models (a sweep with an automatic step has a model per run)."""
+        eq = json.dumps(
+            {"name": equation.name, **equation.core_fields()},
+            sort_keys=True,
+            separators=(",", ":"),
+            allow_nan=False,
+        )
+        head = f',"equation":{eq},"length":'
+        tail = f',"scheme":{json.dumps(scheme)},"tol":'
+        return [
+            f'{{"dt":{dt!r}{head}{grid.length!r},"n":{grid.n}{tail}'
+            f"{'null' if tol is None else repr(tol)}}}"
+            for grid, dt, tol in zip(grids, dts, tols, strict=True)
+        ]
+
 
 @dataclass(frozen=True)
 class RunSettings:
@@ -1086,12 +1111,25 @@ def _fixed(value: float) -> str:
 
 
 @functools.lru_cache(maxsize=256, typed=True)
-def _symbol_finite(eq: Equation, dx: float, dt: float) -> bool:
-    """Whether the linear symbol times ``dt`` is finite at the largest wavenumbers ``pi / dx``
-    (on a 16-point grid of the same spacing)."""
+def _top_symbol(eq: Equation, dx: float) -> np.ndarray:
+    """The linear symbol up to the largest wavenumbers ``pi / dx`` (on a 16-point grid of the
+    same spacing)."""
     with np.errstate(all="ignore"):
-        top = reference.linear_symbol(Grid(16, 16 * dx), eq) * dt
-    return bool(np.all(np.isfinite(top)))
+        return reference.linear_symbol(Grid(16, 16 * dx), eq)
+
+
+def _symbol_finite(eq: Equation, dx: np.ndarray, dt: np.ndarray) -> np.ndarray:
+    """Whether the linear symbol times ``dt`` is finite at the largest wavenumbers ``pi / dx``,
+    run by run (the symbol once per spacing)."""
+    out = np.empty(len(dx), dtype=bool)
+    distinct, inverse = np.unique(dx, return_inverse=True)
+    inverse = inverse.reshape(-1)
+    for g, spacing in enumerate(distinct.tolist()):
+        sel = inverse == g
+        with np.errstate(all="ignore"):
+            top = dt[sel, None] * _top_symbol(eq, spacing)[None, :]
+        out[sel] = np.all(np.isfinite(top), axis=1)
+    return out
 
 
 def _check_units(
@@ -1188,19 +1226,6 @@ def _step_options(
     return dt_all, np.array(out_tol, dtype=np.float64)[inverse]
 
 
-def _by_sign(
-    value: Callable[[np.ndarray, int], Any], kappas: np.ndarray, signs: np.ndarray
-) -> np.ndarray:
-    """``value(kappa, sign)`` of every soliton of every run (``kappas``, ``signs``: runs by
-    solitons), asked once per column and sign."""
-    out = np.empty_like(kappas)
-    for j in range(kappas.shape[1]):
-        for s in np.unique(signs[:, j]).tolist():
-            sel = signs[:, j] == s
-            out[sel, j] = value(kappas[sel, j], int(s))
-    return out
-
-
 def _expand_uniform(
     tpl: _Template,
     blk: _Block,
@@ -1242,16 +1267,11 @@ def _expand_uniform(
         # with a target, solitons overlap at most a hundredth of it (accuracy.auto_tail)
         tail = acc.auto_tail(tpl.target, tpl.tail)
         if tpl.target is not None:
-            spread = np.array(
-                [
-                    acc.peak_spread(k, form, [int(v) for v in s])
-                    for k, s in zip(kappas.tolist(), signs.tolist(), strict=True)
-                ]
-            )
+            spread = acc.peak_spread(kappas, form, signs)
         with np.errstate(all="ignore"):
             speeds = np.asarray(form.speed(kappas), dtype=np.float64).reshape(kappas.shape)
-            widths = _by_sign(form.width, kappas, signs)
-            amplitudes = _by_sign(form.amplitude, kappas, signs)
+            widths = form.per_soliton(form.width, kappas, signs)
+            amplitudes = form.per_soliton(form.amplitude, kappas, signs)
         narrowest = widths[:, 0]
         highest = amplitudes[:, 0]
         total = 0.0 + amplitudes[:, 0]
@@ -1624,9 +1644,9 @@ def _solitons(
             )
         with np.errstate(all="ignore"):  # overflow is refused below, not printed
             scales = (
-                _by_sign(form.amplitude, values[:, None], signs[:, j : j + 1])[:, 0],
+                form.per_soliton(form.amplitude, values[:, None], signs[:, j : j + 1])[:, 0],
                 np.asarray(form.speed(values), dtype=np.float64),
-                _by_sign(form.width, values[:, None], signs[:, j : j + 1])[:, 0],
+                form.per_soliton(form.width, values[:, None], signs[:, j : j + 1])[:, 0],
             )
         bad = ~(values > 0)
         for v in scales:
@@ -1775,15 +1795,14 @@ def _check_scales(
 ) -> None:
     """Refuse a run whose terms overflow float64 from the start: the linear symbol at the largest
     wavenumber times ``dt``, or the nonlinear term at ``max |u|``."""
-    first, _ = _unique_rows(dx, dt)
-    for r in sorted(first.tolist()):
-        if not _symbol_finite(eq, float(dx[r]), float(dt[r])):
-            raise blk.src.error(
-                "model.equation",
-                f"d = {eq.d:.3g}, f = {eq.f:.3g}, v = {eq.v:.3g} in {blk.label_of(r)}",
-                f"coefficients whose linear term times dt is finite at the largest wavenumber "
-                f"pi/dx = {math.pi / float(dx[r]):.4g}",
-            )
+    r = _first(~_symbol_finite(eq, dx, dt))
+    if r is not None:
+        raise blk.src.error(
+            "model.equation",
+            f"d = {eq.d:.3g}, f = {eq.f:.3g}, v = {eq.v:.3g} in {blk.label_of(r)}",
+            f"coefficients whose linear term times dt is finite at the largest wavenumber "
+            f"pi/dx = {math.pi / float(dx[r]):.4g}",
+        )
     with np.errstate(all="ignore"):
         rate = nonlinear_rate(max_u, eq.a, eq.b, dealias, dx) * max_u
     r = _first(~np.isfinite(rate))
@@ -2121,16 +2140,11 @@ class _Part:
         self.exact = tpl.kind == "multisoliton"
         tols = np.full(len(blk), -1.0) if tol is None else tol
         first, self.model_of = _unique_rows(grid_of, dt, tols)
-        self.models = [
-            _make_model(
-                eq,
-                grids[int(grid_of[r])],
-                scheme,
-                float(dt[r]),
-                None if tol is None else float(tol[r]),
-            )
-            for r in first.tolist()
-        ]
+        #: each distinct model's equation, grid, scheme, step and tolerance (made when asked for)
+        self.eq, self.scheme = eq, scheme
+        self.grids = [grids[int(g)] for g in grid_of[first].tolist()]
+        self.dts = dt[first].tolist()
+        self.tols = [None] * len(first) if tol is None else tol[first].tolist()
         verify = np.isin(blk.ids, tpl.verified_ids)
         soliton = tpl.kind in ("solitons", "multisoliton")
         first, self.settings_of = _unique_rows(t_end, verify)
@@ -2163,12 +2177,16 @@ class _Part:
             self.exact,
         )
 
+    def model(self, i: int) -> ModelSpec:
+        """The ``i``-th distinct model of the part (one object for the runs that share it)."""
+        return _make_model(self.eq, self.grids[i], self.scheme, self.dts[i], self.tols[i])
+
     def spec(self, j: int, params: dict[str, Value]) -> RunSpec:
         """The run ``j`` of the part (``params``: its parameters)."""
         return RunSpec(
             int(self.ids[j]),
             params,
-            self.models[self.model_of[j]],
+            self.model(int(self.model_of[j])),
             self.initial(j),
             self.settings[self.settings_of[j]],
             self.system,
@@ -2177,9 +2195,10 @@ class _Part:
     def jsons(self, params: list[str], cache: dict[int, tuple[object, str]]) -> list[str]:
         """The canonical JSON of each run's :meth:`RunSpec.plain` (an ``.npy`` file by its
         content, not its location), written from parts: ``params`` the runs' parameters as
-        JSON, a model or settings object encoded once (kept in ``cache`` by identity)."""
+        JSON, each distinct model once, a settings object encoded once (kept in ``cache`` by
+        identity)."""
 
-        def encoded(obj: ModelSpec | RunSettings) -> str:
+        def encoded(obj: RunSettings) -> str:
             held = cache.get(id(obj))
             if held is None or held[0] is not obj:
                 if len(cache) > 1024:
@@ -2187,7 +2206,7 @@ class _Part:
                 held = cache[id(obj)] = (obj, _plain_json(obj.plain()))
             return held[1]
 
-        models = [encoded(model) for model in self.models]
+        models = ModelSpec.plain_jsons(self.eq, self.scheme, self.grids, self.dts, self.tols)
         settings = [encoded(run) for run in self.settings]
         if self.initials:
             initials = []
@@ -2224,16 +2243,14 @@ class _Part:
 
 
 def _json_rows(table: np.ndarray, write: Callable[[Any], str]) -> list[str]:
-    """Each row of ``table`` as a JSON list, each value written by ``write`` (a column of one
-    value, written once)."""
+    """Each row of ``table`` as a JSON list, each value written by ``write`` once per distinct
+    value of its column (told apart by their bits: ``0.0`` and ``-0.0`` are written apart)."""
     cols = []
     for j in range(table.shape[1]):
-        col = table[:, j]
-        same = col == col[0]
-        if len(col) and bool(np.all(same & (np.signbit(col) == np.signbit(col[0])))):  # 0 and -0
-            cols.append([write(col[0].item())] * len(col))
-        else:
-            cols.append(list(map(write, col.tolist())))
+        col = np.ascontiguousarray(table[:, j])
+        _, first, inverse = np.unique(col.view(np.int64), return_index=True, return_inverse=True)
+        written = np.array([write(v) for v in col[first].tolist()], dtype=object)
+        cols.append(written[inverse.reshape(-1)].tolist())
     if len(cols) == 1:
         return ["[" + value + "]" for value in cols[0]]
     return ["[" + ",".join(row) + "]" for row in zip(*cols, strict=True)]

@@ -27,6 +27,8 @@ from .expr import RESERVED
 from .schema import Source, Table, describe, is_finite
 
 MAX_RUNS = 1_000_000
+#: Axes of at most this many values have their JSON fields written once (:meth:`Space.encoded`).
+ENCODED_AXIS = 65_536
 SIGNIFICANT_DIGITS = 12
 
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*\Z")
@@ -267,6 +269,8 @@ class Space(Sequence[dict[str, Value]]):
         #: each name's values as an array (float64 for numbers, object for text), built when
         #: first asked for by :meth:`columns`
         self._arrays: dict[str, np.ndarray] = {}
+        #: each short axis's fields ``"name":value`` as JSON (:meth:`encoded`)
+        self._fields: dict[str, np.ndarray] = {}
 
     def __len__(self) -> int:
         return self._count
@@ -330,22 +334,28 @@ class Space(Sequence[dict[str, Value]]):
                 out[name] = values[pos]
         return out
 
+    def _field(self, name: str, values: Sequence[Value]) -> list[str]:
+        """``"name":value`` of each value, as ``json.dumps`` writes it in a sorted dict."""
+        head = json.dumps(name) + ":"
+        return [head + (json.dumps(v) if isinstance(v, str) else repr(v)) for v in values]
+
     def encoded(self, ids: np.ndarray) -> list[str]:
         """The parameters of each run of ``ids`` as canonical JSON (``json.dumps`` with sorted
-        keys and no spaces: a number as its ``repr``, text as a JSON string)."""
+        keys and no spaces: a number as its ``repr``, text as a JSON string). The fields of an
+        axis of at most :data:`ENCODED_AXIS` values are written once and kept."""
         fields: list[tuple[str, tuple[Value, ...], np.ndarray]] = []
         for axis, pos in zip(self.axes, self._positions(ids), strict=True):
             for name, col in zip(axis.names, axis.columns, strict=True):
                 fields.append((name, col, pos))
         cols = []
         for name, col, pos in sorted(fields, key=lambda f: f[0]):
-            head = json.dumps(name) + ":"
-            cols.append(
-                [
-                    head + (json.dumps(v) if isinstance(v, str) else repr(v))
-                    for v in map(col.__getitem__, pos.tolist())
-                ]
-            )
+            if len(col) <= ENCODED_AXIS:
+                kept = self._fields.get(name)
+                if kept is None:
+                    kept = self._fields[name] = np.array(self._field(name, col), dtype=object)
+                cols.append(kept[pos].tolist())
+            else:
+                cols.append(self._field(name, list(map(col.__getitem__, pos.tolist()))))
         if not cols:
             return ["{}"] * len(ids)
         if len(cols) == 1:
