@@ -181,7 +181,7 @@ def register(sub: Any) -> None:
         default=None,
         metavar="LIST",
         help=f"sizes to load only (default {','.join(map(str, SCALE_LOADS))}; "
-        f"{','.join(map(str, QUICK_SCALE_LOADS))} with --quick; e.g. 100000,1000000)",
+        f"{','.join(map(str, QUICK_SCALE_LOADS))} with --quick)",
     )
     accuracy = p.add_argument_group("accuracy (with --accuracy)")
     accuracy.add_argument(

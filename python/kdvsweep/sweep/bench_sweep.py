@@ -388,7 +388,7 @@ SCALE_DT = 1e-3
 SCALE_END = 0.01
 #: Sizes loaded and run by default, and sizes only loaded (the loader alone is cheaper).
 SCALE_RUNS = (1_000, 10_000)
-SCALE_LOADS = (100_000,)
+SCALE_LOADS = (100_000, 1_000_000)
 QUICK_SCALE_RUNS = (1_000,)
 QUICK_SCALE_LOADS = (10_000,)
 #: Workers of the embedded cluster of the scale runs.
