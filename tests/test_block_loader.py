@@ -1,6 +1,6 @@
 """Runs evaluated in blocks: the same runs, digest, warnings and errors as run by run.
 
-The loader evaluates a sweep :attr:`kdvsweep.sweep.config.Runs.BLOCK` runs at a time, every value
+The loader evaluates a sweep :attr:`kdvsweep.sweep.expand.Runs.BLOCK` runs at a time, every value
 an array over the block; a run alone is a block of one, evaluated by the same code. These tests
 hold the blocks to the runs taken one at a time (``Runs.BLOCK = 1``, which is how the loader
 evaluated a sweep before it had blocks): the digest, every run, the warnings word for word and
@@ -17,7 +17,7 @@ import pytest
 
 from kdvsweep.exceptions import ConfigError
 from kdvsweep.sweep import load_sweep
-from kdvsweep.sweep.config import Runs
+from kdvsweep.sweep.expand import Runs
 
 SWEEPS = Path(__file__).resolve().parent.parent / "sweeps"
 
@@ -205,7 +205,8 @@ def test_model_json_is_the_canonical_json_of_the_model() -> None:
     # the digest writes the models of a block without making them: the same text as the
     # canonical JSON of each model's plain form
     from kdvsweep.model import Equation, Grid
-    from kdvsweep.sweep.config import ModelSpec, _plain_json
+    from kdvsweep.sweep.expand import _plain_json
+    from kdvsweep.sweep.specs import ModelSpec
 
     rng = np.random.default_rng(3)
     equations = [

@@ -813,7 +813,7 @@ def test_opposite_polarity_peak_enters_the_step_check(tmp_path: Path) -> None:
 
 
 def test_frame_count_matches_the_record_times() -> None:
-    from kdvsweep.sweep.config import _frame_count, _record_times
+    from kdvsweep.sweep.expand import _frame_count, _record_times
 
     # the frame limit is checked on this count before any list of times is built
     for end, every in [(10.0, 0.5), (10.2, 0.5), (1.0, 0.3), (7.0, 0.1), (0.05, 0.1)]:

@@ -186,7 +186,7 @@ def test_shared_models_keep_their_equation_names() -> None:
     # equations compare without their names; a model shared between runs must not hand one run's
     # name to another (the name is in the digest and in the runs table)
     from kdvsweep.model import Equation, Grid
-    from kdvsweep.sweep.config import _make_model
+    from kdvsweep.sweep.expand import _make_model
 
     grid = Grid(64, 30.0)
     named = Equation.preset("kdv")

@@ -24,7 +24,7 @@ from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:  # the store reads references without the analysis (scipy) or the core loaded
     from ..analysis.tracks import ReferenceTrack
-    from .config import ModelSpec, RunSpec
+    from .specs import ModelSpec, RunSpec
 
 #: Version of what a reference computes (its initial data's construction, its tracking): part of
 #: every reference's key, so a change of those rules gives new digests and stored references of

@@ -27,8 +27,8 @@ from ..simulation import ADAPTIVE, INVARIANTS, Simulation, dt_limit, invariants
 from ..spectrum import SolitonContent
 from . import accuracy as acc
 from . import sizing
-from .config import RunSpec
 from .references import ReferenceResult, tracks_for
+from .specs import RunSpec
 
 
 @dataclass
