@@ -47,6 +47,7 @@ from .template import (
     TextSlot,
 )
 
+#: Version of the canonical JSON the digest hashes (its ``"format"`` key).
 FORMAT = 1
 
 
