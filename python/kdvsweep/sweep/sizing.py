@@ -50,7 +50,7 @@ import math
 import sys
 from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, overload
+from typing import TYPE_CHECKING, Any, overload
 
 import numpy as np
 
@@ -336,31 +336,12 @@ def min_points_per_width(dealias: float, decades: float | np.ndarray) -> float |
     return 2.0 * decades * math.log(10.0) / (dealias * math.pi**2)
 
 
-@overload
-def points_needed(
-    narrowest: float, length: float, dealias: float, decades: float = WARN_DECADES
-) -> float: ...
-@overload
-def points_needed(
-    narrowest: np.ndarray,
-    length: float | np.ndarray,
-    dealias: float,
-    decades: float | np.ndarray = WARN_DECADES,
-) -> np.ndarray: ...
-@overload
-def points_needed(
-    narrowest: float, length: np.ndarray, dealias: float, decades: float | np.ndarray = WARN_DECADES
-) -> np.ndarray: ...
-@overload
-def points_needed(
-    narrowest: float, length: float, dealias: float, decades: np.ndarray
-) -> np.ndarray: ...
 def points_needed(
     narrowest: float | np.ndarray,
     length: float | np.ndarray,
     dealias: float,
     decades: float | np.ndarray = WARN_DECADES,
-) -> float | np.ndarray:
+) -> Any:
     """Points that resolve the narrowest width with no warning (may be huge or inf);
     ``decades`` of spectrum kept at the cutoff (fewer with an accuracy target:
     :func:`kdvsweep.sweep.accuracy.auto_decades`).
@@ -391,31 +372,12 @@ _SIZES_FLOAT = np.array([float(n) if n <= sys.float_info.max else math.inf for n
 _INT64_SIZES = sum(1 for n in _SIZES if n <= np.iinfo(np.int64).max)
 
 
-@overload
-def auto_points(
-    narrowest: float, length: float, dealias: float, decades: float = WARN_DECADES
-) -> int: ...
-@overload
-def auto_points(
-    narrowest: np.ndarray,
-    length: float | np.ndarray,
-    dealias: float,
-    decades: float | np.ndarray = WARN_DECADES,
-) -> np.ndarray: ...
-@overload
-def auto_points(
-    narrowest: float, length: np.ndarray, dealias: float, decades: float | np.ndarray = WARN_DECADES
-) -> np.ndarray: ...
-@overload
-def auto_points(
-    narrowest: float, length: float, dealias: float, decades: np.ndarray
-) -> np.ndarray: ...
 def auto_points(
     narrowest: float | np.ndarray,
     length: float | np.ndarray,
     dealias: float,
     decades: float | np.ndarray = WARN_DECADES,
-) -> int | np.ndarray:
+) -> Any:
     """Smallest FFT-friendly even ``n`` (``2^p`` or ``3 2^p``, at least 16) with no warning
     (``decades`` as :func:`points_needed`; floats give an int, arrays an int64 array).
 
