@@ -17,6 +17,7 @@ import math
 import warnings
 from collections import OrderedDict
 from collections.abc import Callable, Iterator, Sequence
+from dataclasses import dataclass, field
 from typing import Any, overload
 
 import numpy as np
@@ -525,6 +526,273 @@ def _step_options(
     return dt_all, np.array(out_tol, dtype=np.float64)[inverse]
 
 
+@dataclass
+class _Sized:
+    """The initial data of a group of runs, sized: what the checks common to every kind of data
+    need (the box, the end, the narrowest width to resolve, the largest ``|u|``, the spread of the
+    solitons' peaks), and the data themselves (profiles one by one, solitons as tables of runs
+    by solitons)."""
+
+    length: np.ndarray
+    t_end: np.ndarray
+    narrowest: np.ndarray
+    max_u: np.ndarray
+    spread: np.ndarray
+    initials: list[init.InitialData] = field(default_factory=list)
+    kappas: np.ndarray = field(default_factory=lambda: np.zeros((0, 0)))
+    positions: np.ndarray = field(default_factory=lambda: np.zeros((0, 0)))
+    signs: np.ndarray = field(default_factory=lambda: np.zeros((0, 0), dtype=np.int64))
+
+
+def _soliton_runs(
+    tpl: Template,
+    blk: _Block,
+    warn: LoadWarnings,
+    eq: Equation,
+    scheme: str,
+    dt: np.ndarray,
+    scales: physunits.Scales | None,
+) -> _Sized:
+    """Solitons of a group of runs: their kappas, polarities and positions, the end and the box
+    (given or automatic, :mod:`kdvsweep.sweep.sizing`), checked."""
+    m = len(blk)
+    spread = np.full(m, acc.REFERENCE_SPREAD)  # of the solitons' peaks (points = 'auto', target)
+    form, kappas, signs = _solitons(tpl, blk, eq, scales)
+    # with a target, solitons overlap at most a hundredth of it (accuracy.auto_tail)
+    tail = acc.auto_tail(tpl.target, tpl.tail)
+    if tpl.target is not None:
+        spread = acc.peak_spread(kappas, form, signs)
+    with np.errstate(all="ignore"):
+        speeds = np.asarray(form.speed(kappas), dtype=np.float64).reshape(kappas.shape)
+        widths = form.per_soliton(form.width, kappas, signs)
+        amplitudes = form.per_soliton(form.amplitude, kappas, signs)
+    narrowest = widths[:, 0]
+    highest = amplitudes[:, 0]
+    total = 0.0 + amplitudes[:, 0]
+    for j in range(1, kappas.shape[1]):
+        narrowest = _lmin(narrowest, widths[:, j])
+        highest = _lmax(highest, amplitudes[:, j])
+        total = total + amplitudes[:, j]
+    # mKdV solitons of opposite polarity peak at the sum of their amplitudes when they meet;
+    # same-polarity mKdV and KdV pairs never exceed the larger one (checked on the exact
+    # Hirota 2-solitons, kv.exact.multisoliton, for kappa = (1, 0.3 / 0.55 / 0.8)); the sum
+    # is kept as the bound for Gardner pairs of opposite polarity
+    mixed = np.any(signs != signs[:, :1], axis=1)
+    max_u = np.where(mixed, total, highest)
+    auto = tpl.length is None or tpl.end is None or tpl.initial["position"] == "auto"
+    if auto and eq.d <= 0:
+        raise blk.src.error(
+            "model.equation",
+            f"d = {eq.d} in {blk.label}",
+            "d > 0 for automatic sizing (solitons moving right)",
+        )
+    if auto and eq.perturbed:
+        warn.note(
+            "sizing",
+            "automatic sizing uses the unperturbed soliton speeds 4 d kappa^2; "
+            "the f, g, v terms change them",
+            blk.run_id,
+        )
+    if tpl.initial["position"] == "auto":
+        positions = _canonical(sizing.auto_positions(kappas, form, tail))
+    else:
+        cols = []
+        for slot in tpl.initial["position"]:
+            x = blk.num(slot)
+            if scales is not None:  # metres (at t = 0 the run's frame and the lab's agree)
+                dim = physunits.INITIAL_DIMENSIONS["position"]
+                x = np.array(
+                    [canonical(physunits.to_canonical(p, dim, scales)) for p in x.tolist()]
+                )
+            cols.append(x)
+        positions = np.stack(cols, axis=1)
+        bad = ~(positions[:, 1:] > positions[:, :-1])
+        r = _first(bad.any(axis=1))
+        if r is not None:
+            i = int(np.argmax(bad[r])) + 1
+            slot = tpl.initial["position"][i]
+            raise blk.fail(
+                slot.key,
+                float(positions[r, i]),
+                f"a position right of initial.position[{i - 1}]"
+                f" = {float(positions[r, i - 1])!r} (solitons are listed left to right)",
+                r,
+            )
+    if tpl.end is None:
+        t_end = sizing.end_time(positions, kappas, speeds, form, tail)
+        r = _first(t_end <= 0)
+        if r is not None:
+            raise blk.src.error(
+                "run.end",
+                f"'auto' in {blk.label_of(r)}",
+                "a number: no soliton overtakes another (list the faster "
+                "soliton first, on the left)",
+            )
+        r = _first(~(t_end / tpl.frame_every <= MAX_FRAMES))
+        if r is not None:
+            raise blk.src.error(
+                "run.end",
+                f"'auto' in {blk.label_of(r)} (t = {float(t_end[r]):.3g})",
+                f"an end time of at most {MAX_FRAMES} frames of run.frame_every = "
+                f"{tpl.frame_every:g} (slow solitons take long to overtake)",
+            )
+        t_end = _canonical(np.ceil(t_end / tpl.frame_every - 1e-9) * tpl.frame_every)
+    else:
+        t_end = blk.num(tpl.end, "positive")
+    if not tpl.dt_auto:
+        _check_steps(blk, scheme, dt, t_end)
+    need = sizing.min_length(positions, kappas, speeds, form, tail, t_end)
+    r = _first(~np.isfinite(need))
+    if r is not None:
+        raise blk.fail(
+            f"initial.{tpl.initial['size']}",
+            kappas[r].tolist(),
+            f"solitons whose travel by t = {float(t_end[r]):g} is a finite distance",
+            r,
+        )
+    if tpl.length is None:
+        length = sizing.nice_ceil(need)
+    else:
+        length = blk.num(tpl.length, "positive")
+        short = length < need
+        r = _first(short)
+        if r is not None and auto:
+            raise blk.fail(
+                "model.length",
+                tpl.length.given,
+                f"at least {float(need[r]):.4g} (or 'auto') so no soliton meets another's "
+                f"periodic image by t = {float(t_end[r]):g}",
+                r,
+            )
+        if r is not None:
+            at = np.flatnonzero(short)
+            warn.add_many(
+                "model.length",
+                "are too short for a clean collision",
+                blk.ids[at],
+                need[at] / length[at],
+                lambda i: (
+                    f"length {float(length[at[i]]):g} < {float(need[at[i]]):.4g} needed so "
+                    "no soliton meets another's periodic image by t = "
+                    f"{float(t_end[at[i]]):g}"
+                ),
+            )
+    half = 0.5 * length[:, None]
+    outside = ~((-half <= positions) & (positions < half))
+    r = _first(outside.any(axis=1))
+    if r is not None:
+        i = int(np.argmax(outside[r]))
+        key = "initial.position" if tpl.initial["position"] == "auto" else f"initial.position[{i}]"
+        raise blk.fail(
+            key,
+            float(positions[r, i]),
+            f"a position inside the box [{-0.5 * float(length[r]):g}, {0.5 * float(length[r]):g})",
+            r,
+        )
+    return _Sized(length, t_end, narrowest, max_u, spread, [], kappas, positions, signs)
+
+
+def _profile_runs(
+    tpl: Template,
+    blk: _Block,
+    warn: LoadWarnings,
+    eq: Equation,
+    scheme: str,
+    scales: physunits.Scales | None,
+) -> _Sized:
+    """Data other than solitons of a group of runs (profiles, files, exact waves): the data,
+    their end and box (given, or sized from their predicted solitons), checked."""
+    m = len(blk)
+    initials: list[init.InitialData] = []
+    narrowest = np.full(m, math.inf)
+    max_u = np.zeros(m)
+    # 'auto' length or end: sized from the predicted content below (checked when read)
+    given_length = None if tpl.length is None else blk.num(tpl.length, "positive")
+    given_end = None if tpl.end is None else blk.num(tpl.end, "positive")
+    length = np.full(m, math.inf) if given_length is None else given_length.copy()
+    t_end = np.full(m, math.nan) if given_end is None else given_end.copy()
+    if tpl.kind == "npy":
+        n = _given_points(blk, tpl, scheme)  # given: 'auto' is refused for a file
+        r = _first(n != tpl.initial["size"])
+        if r is not None:  # before sizing, which builds the data on the grid
+            raise blk.fail(
+                "initial.file",
+                tpl.initial["path"],
+                f"an array of n = {int(n[r])} values (the file holds {tpl.initial['size']})",
+                r,
+            )
+        initials = [init.FileData(tpl.initial["path"], tpl.initial["sha256"])] * m
+        max_u = np.full(m, float(tpl.initial["max_abs"]))
+    elif tpl.kind in ("breather", "fifth-order-wave"):
+        for i in range(m):
+            data, max_u[i], narrowest[i] = _exact_wave(tpl, blk.one(i), eq)
+            initials.append(data)
+    else:
+        values = {}
+        for key in ("height", "center", "scale", "half_width", "edge"):
+            if key in tpl.initial:
+                check = "positive" if key in ("scale", "half_width") else "finite"
+                values[key] = blk.num(tpl.initial[key], check)
+                if scales is not None:  # [units]: a height, or a length in metres
+                    dim = physunits.INITIAL_DIMENSIONS[key]
+                    values[key] = np.array(
+                        [
+                            canonical(physunits.to_canonical(v, dim, scales))
+                            for v in values[key].tolist()
+                        ]
+                    )
+        if "edge" in values:
+            r = _first(values["edge"] < 0)
+            if r is not None:
+                raise blk.fail(
+                    "initial.edge",
+                    float(values["edge"][r]),
+                    "a number >= 0 (0 is a sharp edge)",
+                    r,
+                )
+        if tpl.kind == "box":
+            r = _first(~(values["half_width"] < 0.5 * length))
+            if r is not None:
+                raise blk.fail(
+                    "initial.half_width",
+                    float(values["half_width"][r]),
+                    f"less than half the length ({0.5 * float(length[r]):g})",
+                    r,
+                )
+        rows = [
+            dict(zip(values, row, strict=True))
+            for row in zip(*(v.tolist() for v in values.values()), strict=True)
+        ]
+        form_or_none = eq.soliton_form_or_none()
+        for i, row in enumerate(rows):
+            initials.append(init.Box(**row) if tpl.kind == "box" else init.Profile(tpl.kind, **row))
+            if tpl.kind == "sech2" and form_or_none is not None and form_or_none.family == "kdv":
+                narrowest[i] = _sech2_narrowest(row["height"], row["scale"], form_or_none)
+        max_u = np.abs(values["height"])
+    if given_length is None or given_end is None or tpl.points is None:
+        for i, initial in enumerate(initials):
+            one = blk.one(i)
+            length[i], t_end[i], predicted_narrowest = _content_sizing(
+                tpl,
+                one,
+                warn,
+                eq,
+                initial,
+                None if given_length is None else float(given_length[i]),
+                None if given_end is None else float(given_end[i]),
+            )
+            narrowest[i] = min(float(narrowest[i]), predicted_narrowest)
+            if tpl.points is None:  # the profile itself must be resolved too
+                narrowest[i] = min(float(narrowest[i]), _profile_width(initial))
+            if isinstance(initial, init.Box) and not initial.half_width < 0.5 * length[i]:
+                raise one.fail(
+                    "initial.half_width",
+                    initial.half_width,
+                    f"less than half the automatic length ({0.5 * float(length[i]):g})",
+                )
+    return _Sized(length, t_end, narrowest, max_u, np.full(m, acc.REFERENCE_SPREAD), initials)
+
+
 def _expand_uniform(
     tpl: Template,
     blk: _Block,
@@ -556,240 +824,12 @@ def _expand_uniform(
     dt, tol = _step_options(blk, tpl, scheme, given_dt, given_tol)
 
     soliton = tpl.kind in ("solitons", "multisoliton")
-    initials: list[init.InitialData] = []
-    kappas = positions = signs = np.zeros((m, 0))
-    narrowest = np.full(m, math.inf)
-    max_u = np.zeros(m)
-    spread = np.full(m, acc.REFERENCE_SPREAD)  # of the solitons' peaks (points = 'auto', target)
     if soliton:
-        form, kappas, signs = _solitons(tpl, blk, eq, scales)
-        # with a target, solitons overlap at most a hundredth of it (accuracy.auto_tail)
-        tail = acc.auto_tail(tpl.target, tpl.tail)
-        if tpl.target is not None:
-            spread = acc.peak_spread(kappas, form, signs)
-        with np.errstate(all="ignore"):
-            speeds = np.asarray(form.speed(kappas), dtype=np.float64).reshape(kappas.shape)
-            widths = form.per_soliton(form.width, kappas, signs)
-            amplitudes = form.per_soliton(form.amplitude, kappas, signs)
-        narrowest = widths[:, 0]
-        highest = amplitudes[:, 0]
-        total = 0.0 + amplitudes[:, 0]
-        for j in range(1, kappas.shape[1]):
-            narrowest = _lmin(narrowest, widths[:, j])
-            highest = _lmax(highest, amplitudes[:, j])
-            total = total + amplitudes[:, j]
-        # mKdV solitons of opposite polarity peak at the sum of their amplitudes when they meet;
-        # same-polarity mKdV and KdV pairs never exceed the larger one (checked on the exact
-        # Hirota 2-solitons, kv.exact.multisoliton, for kappa = (1, 0.3 / 0.55 / 0.8)); the sum
-        # is kept as the bound for Gardner pairs of opposite polarity
-        mixed = np.any(signs != signs[:, :1], axis=1)
-        max_u = np.where(mixed, total, highest)
-        auto = tpl.length is None or tpl.end is None or tpl.initial["position"] == "auto"
-        if auto and eq.d <= 0:
-            raise blk.src.error(
-                "model.equation",
-                f"d = {eq.d} in {blk.label}",
-                "d > 0 for automatic sizing (solitons moving right)",
-            )
-        if auto and eq.perturbed:
-            warn.note(
-                "sizing",
-                "automatic sizing uses the unperturbed soliton speeds 4 d kappa^2; "
-                "the f, g, v terms change them",
-                blk.run_id,
-            )
-        if tpl.initial["position"] == "auto":
-            positions = _canonical(sizing.auto_positions(kappas, form, tail))
-        else:
-            cols = []
-            for slot in tpl.initial["position"]:
-                x = blk.num(slot)
-                if scales is not None:  # metres (at t = 0 the run's frame and the lab's agree)
-                    dim = physunits.INITIAL_DIMENSIONS["position"]
-                    x = np.array(
-                        [canonical(physunits.to_canonical(p, dim, scales)) for p in x.tolist()]
-                    )
-                cols.append(x)
-            positions = np.stack(cols, axis=1)
-            bad = ~(positions[:, 1:] > positions[:, :-1])
-            r = _first(bad.any(axis=1))
-            if r is not None:
-                i = int(np.argmax(bad[r])) + 1
-                slot = tpl.initial["position"][i]
-                raise blk.fail(
-                    slot.key,
-                    float(positions[r, i]),
-                    f"a position right of initial.position[{i - 1}]"
-                    f" = {float(positions[r, i - 1])!r} (solitons are listed left to right)",
-                    r,
-                )
-        if tpl.end is None:
-            t_end = sizing.end_time(positions, kappas, speeds, form, tail)
-            r = _first(t_end <= 0)
-            if r is not None:
-                raise blk.src.error(
-                    "run.end",
-                    f"'auto' in {blk.label_of(r)}",
-                    "a number: no soliton overtakes another (list the faster "
-                    "soliton first, on the left)",
-                )
-            r = _first(~(t_end / tpl.frame_every <= MAX_FRAMES))
-            if r is not None:
-                raise blk.src.error(
-                    "run.end",
-                    f"'auto' in {blk.label_of(r)} (t = {float(t_end[r]):.3g})",
-                    f"an end time of at most {MAX_FRAMES} frames of run.frame_every = "
-                    f"{tpl.frame_every:g} (slow solitons take long to overtake)",
-                )
-            t_end = _canonical(np.ceil(t_end / tpl.frame_every - 1e-9) * tpl.frame_every)
-        else:
-            t_end = blk.num(tpl.end, "positive")
-        if not tpl.dt_auto:
-            _check_steps(blk, scheme, dt, t_end)
-        need = sizing.min_length(positions, kappas, speeds, form, tail, t_end)
-        r = _first(~np.isfinite(need))
-        if r is not None:
-            raise blk.fail(
-                f"initial.{tpl.initial['size']}",
-                kappas[r].tolist(),
-                f"solitons whose travel by t = {float(t_end[r]):g} is a finite distance",
-                r,
-            )
-        if tpl.length is None:
-            length = sizing.nice_ceil(need)
-        else:
-            length = blk.num(tpl.length, "positive")
-            short = length < need
-            r = _first(short)
-            if r is not None and auto:
-                raise blk.fail(
-                    "model.length",
-                    tpl.length.given,
-                    f"at least {float(need[r]):.4g} (or 'auto') so no soliton meets another's "
-                    f"periodic image by t = {float(t_end[r]):g}",
-                    r,
-                )
-            if r is not None:
-                at = np.flatnonzero(short)
-                warn.add_many(
-                    "model.length",
-                    "are too short for a clean collision",
-                    blk.ids[at],
-                    need[at] / length[at],
-                    lambda i: (
-                        f"length {float(length[at[i]]):g} < {float(need[at[i]]):.4g} needed so "
-                        "no soliton meets another's periodic image by t = "
-                        f"{float(t_end[at[i]]):g}"
-                    ),
-                )
-        half = 0.5 * length[:, None]
-        outside = ~((-half <= positions) & (positions < half))
-        r = _first(outside.any(axis=1))
-        if r is not None:
-            i = int(np.argmax(outside[r]))
-            key = (
-                "initial.position"
-                if tpl.initial["position"] == "auto"
-                else f"initial.position[{i}]"
-            )
-            raise blk.fail(
-                key,
-                float(positions[r, i]),
-                f"a position inside the box [{-0.5 * float(length[r]):g}, "
-                f"{0.5 * float(length[r]):g})",
-                r,
-            )
+        sized = _soliton_runs(tpl, blk, warn, eq, scheme, dt, scales)
     else:
-        # 'auto' length or end: sized from the predicted content below (checked when read)
-        given_length = None if tpl.length is None else blk.num(tpl.length, "positive")
-        given_end = None if tpl.end is None else blk.num(tpl.end, "positive")
-        length = np.full(m, math.inf) if given_length is None else given_length.copy()
-        t_end = np.full(m, math.nan) if given_end is None else given_end.copy()
-        if tpl.kind == "npy":
-            n = _given_points(blk, tpl, scheme)  # given: 'auto' is refused for a file
-            r = _first(n != tpl.initial["size"])
-            if r is not None:  # before sizing, which builds the data on the grid
-                raise blk.fail(
-                    "initial.file",
-                    tpl.initial["path"],
-                    f"an array of n = {int(n[r])} values (the file holds {tpl.initial['size']})",
-                    r,
-                )
-            initials = [init.FileData(tpl.initial["path"], tpl.initial["sha256"])] * m
-            max_u = np.full(m, float(tpl.initial["max_abs"]))
-        elif tpl.kind in ("breather", "fifth-order-wave"):
-            for i in range(m):
-                data, max_u[i], narrowest[i] = _exact_wave(tpl, blk.one(i), eq)
-                initials.append(data)
-        else:
-            values = {}
-            for key in ("height", "center", "scale", "half_width", "edge"):
-                if key in tpl.initial:
-                    check = "positive" if key in ("scale", "half_width") else "finite"
-                    values[key] = blk.num(tpl.initial[key], check)
-                    if scales is not None:  # [units]: a height, or a length in metres
-                        dim = physunits.INITIAL_DIMENSIONS[key]
-                        values[key] = np.array(
-                            [
-                                canonical(physunits.to_canonical(v, dim, scales))
-                                for v in values[key].tolist()
-                            ]
-                        )
-            if "edge" in values:
-                r = _first(values["edge"] < 0)
-                if r is not None:
-                    raise blk.fail(
-                        "initial.edge",
-                        float(values["edge"][r]),
-                        "a number >= 0 (0 is a sharp edge)",
-                        r,
-                    )
-            if tpl.kind == "box":
-                r = _first(~(values["half_width"] < 0.5 * length))
-                if r is not None:
-                    raise blk.fail(
-                        "initial.half_width",
-                        float(values["half_width"][r]),
-                        f"less than half the length ({0.5 * float(length[r]):g})",
-                        r,
-                    )
-            rows = [
-                dict(zip(values, row, strict=True))
-                for row in zip(*(v.tolist() for v in values.values()), strict=True)
-            ]
-            form_or_none = eq.soliton_form_or_none()
-            for i, row in enumerate(rows):
-                initials.append(
-                    init.Box(**row) if tpl.kind == "box" else init.Profile(tpl.kind, **row)
-                )
-                if (
-                    tpl.kind == "sech2"
-                    and form_or_none is not None
-                    and form_or_none.family == "kdv"
-                ):
-                    narrowest[i] = _sech2_narrowest(row["height"], row["scale"], form_or_none)
-            max_u = np.abs(values["height"])
-        if given_length is None or given_end is None or tpl.points is None:
-            for i, initial in enumerate(initials):
-                one = blk.one(i)
-                length[i], t_end[i], predicted_narrowest = _content_sizing(
-                    tpl,
-                    one,
-                    warn,
-                    eq,
-                    initial,
-                    None if given_length is None else float(given_length[i]),
-                    None if given_end is None else float(given_end[i]),
-                )
-                narrowest[i] = min(float(narrowest[i]), predicted_narrowest)
-                if tpl.points is None:  # the profile itself must be resolved too
-                    narrowest[i] = min(float(narrowest[i]), _profile_width(initial))
-                if isinstance(initial, init.Box) and not initial.half_width < 0.5 * length[i]:
-                    raise one.fail(
-                        "initial.half_width",
-                        initial.half_width,
-                        f"less than half the automatic length ({0.5 * float(length[i]):g})",
-                    )
+        sized = _profile_runs(tpl, blk, warn, eq, scheme, scales)
+    length, t_end, narrowest, max_u = sized.length, sized.t_end, sized.narrowest, sized.max_u
+    initials, spread = sized.initials, sized.spread
 
     dealias = eq.dealias_fraction
     if tpl.points is None:
@@ -851,10 +891,9 @@ def _expand_uniform(
         for i, initial in enumerate(initials):
             _check_spectrum(blk.one(i), warn, initial, grids[grid_of[i]], eq, tpl.points is None)
     _check_scales(blk, tpl, eq, dx, dt, max_u, dealias)
+    # each fixed-step scheme's measured rule (the adaptive scheme picks its step)
     positive = max_u > 0
-    if (
-        positive.any()
-    ):  # each fixed-step scheme's measured rule (the adaptive scheme picks its step)
+    if positive.any():
         limit = np.full(m, math.inf)
         limit[positive] = dt_limit(scheme, max_u[positive], eq, dx[positive])
         over = np.flatnonzero(dt > limit)
@@ -871,22 +910,7 @@ def _expand_uniform(
         for i in range(m):
             width = narrowest[i] if soliton else min(narrowest[i], _profile_width(initials[i]))
             _check_units(blk.one(i), warn, system, scales, float(max_u[i]), float(width))
-    return _Part(
-        tpl,
-        blk,
-        eq,
-        system,
-        scheme,
-        dt,
-        tol,
-        grids,
-        grid_of,
-        t_end,
-        initials,
-        kappas,
-        positions,
-        signs,
-    )
+    return _Part(tpl, blk, eq, system, scheme, dt, tol, grids, grid_of, sized)
 
 
 def _solitons(
@@ -1423,19 +1447,16 @@ class _Part:
         tol: np.ndarray | None,
         grids: list[Grid],
         grid_of: np.ndarray,
-        t_end: np.ndarray,
-        initials: list[init.InitialData],
-        kappas: np.ndarray,
-        positions: np.ndarray,
-        signs: np.ndarray,
+        sized: _Sized,
     ) -> None:
         self.ids = blk.ids
         #: positions of these runs in the block (set by :func:`_expand_block`)
         self.where = np.arange(len(blk))
         self.system = system
         #: profile data: one per run; solitons: none (``kappas``, ``positions``, ``signs``)
-        self.initials = initials
-        self.kappas, self.positions, self.signs = kappas, positions, signs
+        self.initials = sized.initials
+        self.kappas, self.positions, self.signs = sized.kappas, sized.positions, sized.signs
+        t_end = sized.t_end
         self.exact = tpl.kind == "multisoliton"
         tols = np.full(len(blk), -1.0) if tol is None else tol
         first, self.model_of = _unique_rows(grid_of, dt, tols)
