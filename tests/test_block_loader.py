@@ -78,6 +78,17 @@ VARIANTS = {
         "length": '"auto"',
         "end": '"auto"',
     },
+    "damping-axis": {
+        "equation": 'equation = { preset = "kdv", g = "0.002 * k2", v = "0.001 * gap" }\n',
+        "length": '"auto"',
+        "end": '"auto"',
+    },
+    "fifth-order-axis": {
+        "more": "[[vary]]\nfifth = [-0.002, 0.0, 0.001]\n",
+        "equation": 'equation = { preset = "kdv", f = "fifth" }\n',
+        "scheme": '"ifrk4"',
+        "dt": 0.01,
+    },
     "mkdv-polarity": {
         "more": "[[vary]]\npol = [1, -1]\n",
         "equation": 'equation = "mkdv"\n',
@@ -222,7 +233,7 @@ def test_model_json_is_the_canonical_json_of_the_model() -> None:
             ]
             dts = rng.uniform(1e-5, 0.1, 8).tolist()
             tols = rng.uniform(1e-9, 1e-3, 8).tolist() if adaptive else [None] * 8
-            written = ModelSpec.plain_jsons(eq, scheme, grids, dts, tols)
+            written = ModelSpec.plain_jsons([eq] * 8, scheme, grids, dts, tols)
             made = [
                 _plain_json(ModelSpec(eq, g, scheme, d, t).plain())
                 for g, d, t in zip(grids, dts, tols, strict=True)

@@ -72,48 +72,6 @@ def _system(tpl: Template, ctx: _Block) -> physunits.System | None:
         ) from None
 
 
-def _units_equation(tpl: Template, ctx: _Block, system: physunits.System) -> Equation:
-    """The canonical equation of a run with ``[units]``: the system's ``a, b, d``; a given
-    ``model.equation`` may add ``f, g, v, dealias`` (canonical units) and may repeat ``a, b, d``
-    or name a preset only where they agree with the system's."""
-    target = system.equation()
-    spec = tpl.equation
-    extra: dict[str, float] = {}
-    given: dict[str, tuple[str, object, float]] = {}  # coefficient -> (key, as written, value)
-    if isinstance(spec, TextSlot):
-        preset = Equation.preset(ctx.text(spec, PRESETS))
-        given = {k: (spec.key, spec.given, getattr(preset, k)) for k in ("a", "b", "d")}
-    elif spec is not None:
-        slot = spec["preset"]
-        if isinstance(slot, TextSlot):
-            preset = Equation.preset(ctx.text(slot, PRESETS))
-            given = {k: (slot.key, slot.given, getattr(preset, k)) for k in ("a", "b", "d")}
-        for key, value in spec.items():
-            if not isinstance(value, NumSlot):
-                continue
-            if key in ("a", "b", "d"):
-                given[key] = (value.key, value.given, ctx.num1(value))
-            else:
-                extra[key] = ctx.num1(value)
-    for coef, (key, shown, number) in given.items():
-        want = getattr(target, coef)
-        if not math.isclose(number, want, rel_tol=1e-9, abs_tol=1e-300):
-            raise ctx.fail(
-                key,
-                shown,
-                f"{coef} = {want:.12g}, the value the [units] system {system.NAME!r} gives "
-                f"(leave {coef} out: with [units] the equation's a, b, d come from the system)",
-            )
-    if not extra:
-        return target
-    try:
-        return system.equation(**extra)
-    except ConfigError as err:
-        raise ctx.src.error(
-            "model.equation", f"{extra} in {ctx.label}", f"a valid equation ({err})"
-        ) from None
-
-
 # ----------------------------------------------------------------------------- one run
 
 
@@ -346,26 +304,98 @@ class LoadWarnings:
         return tuple(out)
 
 
-def _equation(tpl: Template, ctx: _Block, system: physunits.System | None = None) -> Equation:
-    if system is not None:
-        return _units_equation(tpl, ctx, system)
+#: The coefficients that decide a soliton form and the dealiasing: runs that share them are
+#: evaluated together even when their other coefficients (``f``, ``g``, ``v``) differ.
+_FORM_KEYS = ("a", "b", "d", "dealias")
+
+
+def _equations(
+    tpl: Template, blk: _Block, system: physunits.System | None
+) -> tuple[list[Equation], np.ndarray]:
+    """The equation of every run of ``blk`` (which share their text values and system): one
+    object per distinct set of coefficients, and each run's index into them."""
+    spec = tpl.equation
+    slots = (
+        {k: v for k, v in spec.items() if isinstance(v, NumSlot)} if isinstance(spec, dict) else {}
+    )
+    values = {k: blk.num(v) for k, v in slots.items()}
+    if values:
+        first, inverse = _unique_rows(*values.values())
+    else:
+        first, inverse = np.zeros(1, dtype=np.int64), np.zeros(len(blk), dtype=np.int64)
+    equations = []
+    for r in first.tolist():
+        coefs = {k: float(v[r]) for k, v in values.items()}
+        if system is not None:
+            equations.append(_units_equation(tpl, blk, r, coefs, system))
+        else:
+            equations.append(_equation(tpl, blk, r, coefs))
+    return equations, inverse
+
+
+def _equation(tpl: Template, blk: _Block, i: int, coefs: dict[str, float]) -> Equation:
+    """The equation of run ``i`` of ``blk``, its coefficients ``coefs`` evaluated."""
     spec = tpl.equation
     assert spec is not None  # only a sweep with [units] may leave the equation out
-    coefs: dict[str, float] = {}
     if isinstance(spec, TextSlot):
-        preset: str | None = ctx.text(spec, PRESETS)
+        preset: str | None = blk.text(spec, PRESETS)
     else:
         slot = spec["preset"]
-        preset = ctx.text(slot, PRESETS) if isinstance(slot, TextSlot) else None
-        coefs = {k: ctx.num1(v) for k, v in spec.items() if isinstance(v, NumSlot)}
+        preset = blk.text(slot, PRESETS) if isinstance(slot, TextSlot) else None
     try:
         return _make_equation(preset, tuple(coefs.items()))
     except ConfigError as err:
         shown = ", ".join(
             f"{k} = {min(f'{v:g}', repr(v), key=len)}" for k, v in coefs.items()
         ) or repr(preset)
-        raise ctx.src.error(
-            "model.equation", f"{shown} in {ctx.label}", f"a valid equation ({err})"
+        raise blk.src.error(
+            "model.equation", f"{shown} in {blk.label_of(i)}", f"a valid equation ({err})"
+        ) from None
+
+
+def _units_equation(
+    tpl: Template, blk: _Block, i: int, coefs: dict[str, float], system: physunits.System
+) -> Equation:
+    """The canonical equation of run ``i`` with ``[units]`` (its ``model.equation`` coefficients
+    ``coefs`` evaluated): the system's ``a, b, d``; a given ``model.equation`` may add ``f, g, v,
+    dealias`` (canonical units) and may repeat ``a, b, d`` or name a preset only where they agree
+    with the system's."""
+    target = system.equation()
+    spec = tpl.equation
+    extra: dict[str, float] = {}
+    given: dict[str, tuple[str, object, float]] = {}  # coefficient -> (key, as written, value)
+    if isinstance(spec, TextSlot):
+        preset = Equation.preset(blk.text(spec, PRESETS))
+        given = {k: (spec.key, spec.given, getattr(preset, k)) for k in ("a", "b", "d")}
+    elif spec is not None:
+        slot = spec["preset"]
+        if isinstance(slot, TextSlot):
+            preset = Equation.preset(blk.text(slot, PRESETS))
+            given = {k: (slot.key, slot.given, getattr(preset, k)) for k in ("a", "b", "d")}
+        for key, value in spec.items():
+            if not isinstance(value, NumSlot):
+                continue
+            if key in ("a", "b", "d"):
+                given[key] = (value.key, value.given, coefs[key])
+            else:
+                extra[key] = coefs[key]
+    for coef, (key, shown, number) in given.items():
+        want = getattr(target, coef)
+        if not math.isclose(number, want, rel_tol=1e-9, abs_tol=1e-300):
+            raise blk.fail(
+                key,
+                shown,
+                f"{coef} = {want:.12g}, the value the [units] system {system.NAME!r} gives "
+                f"(leave {coef} out: with [units] the equation's a, b, d come from the system)",
+                i,
+            )
+    if not extra:
+        return target
+    try:
+        return system.equation(**extra)
+    except ConfigError as err:
+        raise blk.src.error(
+            "model.equation", f"{extra} in {blk.label_of(i)}", f"a valid equation ({err})"
         ) from None
 
 
@@ -483,15 +513,24 @@ def _expand_block(tpl: Template, blk: _Block, warn: LoadWarnings) -> list[_Part]
         if tpl.units is not None:
             keys += [sub.num(slot) for slot in tpl.units[1].values()]
         if isinstance(tpl.equation, dict):
-            keys += [sub.num(slot) for slot in tpl.equation.values() if isinstance(slot, NumSlot)]
+            keys += [
+                sub.num(slot)
+                for key, slot in tpl.equation.items()
+                if key in _FORM_KEYS and isinstance(slot, NumSlot)
+            ]
         for inner in _groups(keys, len(sub)):
             group = sub.take(inner)
-            first = group.one(0)
-            system = _system(tpl, first)
-            eq = _equation(tpl, first, system)
-            part = _expand_uniform(tpl, group, warn, system, eq)
-            part.where = where[inner]
-            parts.append(part)
+            system = _system(tpl, group.one(0))
+            equations, index = _equations(tpl, group, system)
+            forms = {(e.a, e.b, e.d, e.dealias_fraction) for e in equations}
+            # one soliton form and dealiasing per group (a check: the keys above decide them)
+            pieces = [np.arange(len(group))] if len(forms) == 1 else _groups([index], len(group))
+            for piece in pieces:
+                part = _expand_uniform(
+                    tpl, group.take(piece), warn, system, equations, index[piece]
+                )
+                part.where = where[inner[piece]]
+                parts.append(part)
     return parts
 
 
@@ -549,12 +588,14 @@ def _soliton_runs(
     blk: _Block,
     warn: LoadWarnings,
     eq: Equation,
+    perturbed: np.ndarray,
     scheme: str,
     dt: np.ndarray,
     scales: physunits.Scales | None,
 ) -> _Sized:
     """Solitons of a group of runs: their kappas, polarities and positions, the end and the box
-    (given or automatic, :mod:`kdvsweep.sweep.sizing`), checked."""
+    (given or automatic, :mod:`kdvsweep.sweep.sizing`), checked. ``eq``: an equation of the runs
+    (its soliton form is theirs); ``perturbed``: whether each run's equation is."""
     m = len(blk)
     spread = np.full(m, acc.REFERENCE_SPREAD)  # of the solitons' peaks (points = 'auto', target)
     form, kappas, signs = _solitons(tpl, blk, eq, scales)
@@ -586,12 +627,12 @@ def _soliton_runs(
             f"d = {eq.d} in {blk.label}",
             "d > 0 for automatic sizing (solitons moving right)",
         )
-    if auto and eq.perturbed:
+    if auto and perturbed.any():
         warn.note(
             "sizing",
             "automatic sizing uses the unperturbed soliton speeds 4 d kappa^2; "
             "the f, g, v terms change them",
-            blk.run_id,
+            int(blk.ids[np.argmax(perturbed)]),
         )
     if tpl.initial["position"] == "auto":
         positions = _canonical(sizing.auto_positions(kappas, form, tail))
@@ -696,12 +737,14 @@ def _profile_runs(
     tpl: Template,
     blk: _Block,
     warn: LoadWarnings,
-    eq: Equation,
+    equations: list[Equation],
+    eq_of: np.ndarray,
     scheme: str,
     scales: physunits.Scales | None,
 ) -> _Sized:
     """Data other than solitons of a group of runs (profiles, files, exact waves): the data,
-    their end and box (given, or sized from their predicted solitons), checked."""
+    their end and box (given, or sized from their predicted solitons), checked; run ``i``'s
+    equation is ``equations[eq_of[i]]``."""
     m = len(blk)
     initials: list[init.InitialData] = []
     narrowest = np.full(m, math.inf)
@@ -725,7 +768,7 @@ def _profile_runs(
         max_u = np.full(m, float(tpl.initial["max_abs"]))
     elif tpl.kind in ("breather", "fifth-order-wave"):
         for i in range(m):
-            data, max_u[i], narrowest[i] = _exact_wave(tpl, blk.one(i), eq)
+            data, max_u[i], narrowest[i] = _exact_wave(tpl, blk.one(i), equations[eq_of[i]])
             initials.append(data)
     else:
         values = {}
@@ -763,7 +806,7 @@ def _profile_runs(
             dict(zip(values, row, strict=True))
             for row in zip(*(v.tolist() for v in values.values()), strict=True)
         ]
-        form_or_none = eq.soliton_form_or_none()
+        form_or_none = equations[int(eq_of[0])].soliton_form_or_none()  # the runs' form
         for i, row in enumerate(rows):
             initials.append(init.Box(**row) if tpl.kind == "box" else init.Profile(tpl.kind, **row))
             if tpl.kind == "sech2" and form_or_none is not None and form_or_none.family == "kdv":
@@ -776,7 +819,7 @@ def _profile_runs(
                 tpl,
                 one,
                 warn,
-                eq,
+                equations[eq_of[i]],
                 initial,
                 None if given_length is None else float(given_length[i]),
                 None if given_end is None else float(given_end[i]),
@@ -793,15 +836,41 @@ def _profile_runs(
     return _Sized(length, t_end, narrowest, max_u, np.full(m, acc.REFERENCE_SPREAD), initials)
 
 
+def _each(index: np.ndarray) -> Iterator[tuple[int, np.ndarray]]:
+    """``(k, positions)`` for each value ``k`` of ``index`` (the positions where it is, ascending)."""
+    order = np.argsort(index, kind="stable")
+    for positions in np.split(order, np.flatnonzero(np.diff(index[order])) + 1):
+        if len(positions):
+            yield int(index[positions[0]]), positions
+
+
+def _dt_limits(
+    scheme: str,
+    max_u: np.ndarray,
+    equations: list[Equation],
+    eq_of: np.ndarray,
+    dx: np.ndarray,
+) -> np.ndarray:
+    """:func:`kdvsweep.simulation.dt_limit` of every run (its own equation: ``f`` changes the
+    dispersive rate), asked once per equation."""
+    out = np.empty(len(max_u))
+    for k, at in _each(eq_of):
+        out[at] = dt_limit(scheme, max_u[at], equations[k], dx[at])
+    return out
+
+
 def _expand_uniform(
     tpl: Template,
     blk: _Block,
     warn: LoadWarnings,
     system: physunits.System | None,
-    eq: Equation,
+    equations: list[Equation],
+    eq_of: np.ndarray,
 ) -> _Part:
-    """The runs of ``blk``, which share their text values, system and equation."""
+    """The runs of ``blk``, which share their text values, system and soliton form: run ``i``'s
+    equation is ``equations[eq_of[i]]`` (they differ at most in ``f``, ``g``, ``v``)."""
     m = len(blk)
+    eq = equations[int(eq_of[0])]  # its soliton form, dealiasing, a and b are every run's
     scales = None if system is None else system.scales()
     scheme = blk.text(tpl.scheme, SCHEMES)
     if scheme != ADAPTIVE and not tpl.dt_auto:
@@ -825,9 +894,10 @@ def _expand_uniform(
 
     soliton = tpl.kind in ("solitons", "multisoliton")
     if soliton:
-        sized = _soliton_runs(tpl, blk, warn, eq, scheme, dt, scales)
+        perturbed = np.array([e.perturbed for e in equations])[eq_of]
+        sized = _soliton_runs(tpl, blk, warn, eq, perturbed, scheme, dt, scales)
     else:
-        sized = _profile_runs(tpl, blk, warn, eq, scheme, scales)
+        sized = _profile_runs(tpl, blk, warn, equations, eq_of, scheme, scales)
     length, t_end, narrowest, max_u = sized.length, sized.t_end, sized.narrowest, sized.max_u
     initials, spread = sized.initials, sized.spread
 
@@ -863,7 +933,7 @@ def _expand_uniform(
     dx = length / n
     if tpl.dt_auto and scheme != ADAPTIVE and soliton:  # needs the grid: the stable step
         target = acc.DEFAULT_AUTO_TARGET if tpl.target is None else tpl.target
-        limits = dt_limit(scheme, max_u, eq, dx)
+        limits = _dt_limits(scheme, max_u, equations, eq_of, dx)
         dt = np.array(
             [
                 acc.auto_dt(scheme, target, acc.soliton_rate(eq.a, eq.b, u, w), lim)
@@ -889,13 +959,17 @@ def _expand_uniform(
         _check_resolution(blk, warn, narrowest, n, length, dealias, tpl.points is None, resolved)
     if not soliton:  # any other data: their own spectrum
         for i, initial in enumerate(initials):
-            _check_spectrum(blk.one(i), warn, initial, grids[grid_of[i]], eq, tpl.points is None)
-    _check_scales(blk, tpl, eq, dx, dt, max_u, dealias)
+            auto = tpl.points is None
+            one = blk.one(i)
+            _check_spectrum(one, warn, initial, grids[grid_of[i]], equations[eq_of[i]], auto)
+    _check_scales(blk, tpl, equations, eq_of, dx, dt, max_u, dealias)
     # each fixed-step scheme's measured rule (the adaptive scheme picks its step)
     positive = max_u > 0
     if positive.any():
         limit = np.full(m, math.inf)
-        limit[positive] = dt_limit(scheme, max_u[positive], eq, dx[positive])
+        limit[positive] = _dt_limits(
+            scheme, max_u[positive], equations, eq_of[positive], dx[positive]
+        )
         over = np.flatnonzero(dt > limit)
         warn.add_many(
             "model.dt",
@@ -910,7 +984,7 @@ def _expand_uniform(
         for i in range(m):
             width = narrowest[i] if soliton else min(narrowest[i], _profile_width(initials[i]))
             _check_units(blk.one(i), warn, system, scales, float(max_u[i]), float(width))
-    return _Part(tpl, blk, eq, system, scheme, dt, tol, grids, grid_of, sized)
+    return _Part(tpl, blk, equations, eq_of, system, scheme, dt, tol, grids, grid_of, sized)
 
 
 def _solitons(
@@ -1110,7 +1184,8 @@ def _check_effort(
 def _check_scales(
     blk: _Block,
     tpl: Template,
-    eq: Equation,
+    equations: list[Equation],
+    eq_of: np.ndarray,
     dx: np.ndarray,
     dt: np.ndarray,
     max_u: np.ndarray,
@@ -1118,14 +1193,19 @@ def _check_scales(
 ) -> None:
     """Refuse a run whose terms overflow float64 from the start: the linear symbol at the largest
     wavenumber times ``dt``, or the nonlinear term at ``max |u|``."""
-    r = _first(~_symbol_finite(eq, dx, dt))
+    finite = np.empty(len(dx), dtype=bool)
+    for k, at in _each(eq_of):
+        finite[at] = _symbol_finite(equations[k], dx[at], dt[at])
+    r = _first(~finite)
     if r is not None:
+        eq = equations[int(eq_of[r])]
         raise blk.src.error(
             "model.equation",
             f"d = {eq.d:.3g}, f = {eq.f:.3g}, v = {eq.v:.3g} in {blk.label_of(r)}",
             f"coefficients whose linear term times dt is finite at the largest wavenumber "
             f"pi/dx = {math.pi / float(dx[r]):.4g}",
         )
+    eq = equations[int(eq_of[0])]  # a and b are every run's
     with np.errstate(all="ignore"):
         rate = nonlinear_rate(max_u, eq.a, eq.b, dealias, dx) * max_u
     r = _first(~np.isfinite(rate))
@@ -1440,7 +1520,8 @@ class _Part:
         self,
         tpl: Template,
         blk: _Block,
-        eq: Equation,
+        equations: list[Equation],
+        eq_of: np.ndarray,
         system: physunits.System | None,
         scheme: str,
         dt: np.ndarray,
@@ -1459,9 +1540,10 @@ class _Part:
         t_end = sized.t_end
         self.exact = tpl.kind == "multisoliton"
         tols = np.full(len(blk), -1.0) if tol is None else tol
-        first, self.model_of = _unique_rows(grid_of, dt, tols)
+        first, self.model_of = _unique_rows(eq_of, grid_of, dt, tols)
         #: each distinct model's equation, grid, scheme, step and tolerance (made when asked for)
-        self.eq, self.scheme = eq, scheme
+        self.scheme = scheme
+        self.equations = [equations[int(k)] for k in eq_of[first].tolist()]
         self.grids = [grids[int(g)] for g in grid_of[first].tolist()]
         self.dts = dt[first].tolist()
         self.tols = [None] * len(first) if tol is None else tol[first].tolist()
@@ -1499,7 +1581,7 @@ class _Part:
 
     def model(self, i: int) -> ModelSpec:
         """The ``i``-th distinct model of the part (one object for the runs that share it)."""
-        return _make_model(self.eq, self.grids[i], self.scheme, self.dts[i], self.tols[i])
+        return _make_model(self.equations[i], self.grids[i], self.scheme, self.dts[i], self.tols[i])
 
     def spec(self, j: int, params: dict[str, Value]) -> RunSpec:
         """The run ``j`` of the part (``params``: its parameters)."""
@@ -1526,7 +1608,7 @@ class _Part:
                 held = cache[id(obj)] = (obj, _plain_json(obj.plain()))
             return held[1]
 
-        models = ModelSpec.plain_jsons(self.eq, self.scheme, self.grids, self.dts, self.tols)
+        models = ModelSpec.plain_jsons(self.equations, self.scheme, self.grids, self.dts, self.tols)
         settings = [encoded(run) for run in self.settings]
         if self.initials:
             initials = []

@@ -49,28 +49,29 @@ class ModelSpec:
 
     @staticmethod
     def plain_jsons(
-        equation: Equation,
+        equations: Sequence[Equation],
         scheme: str,
         grids: Sequence[Grid],
         dts: Sequence[float],
         tols: Sequence[float | None],
     ) -> list[str]:
-        """:meth:`plain` of the models of ``equation`` and ``scheme`` on each grid with each step
-        and tolerance, as canonical JSON (sorted keys, no spaces), written without making the
-        models (a sweep with an automatic step has a model per run)."""
-        eq = json.dumps(
-            {"name": equation.name, **equation.core_fields()},
-            sort_keys=True,
-            separators=(",", ":"),
-            allow_nan=False,
-        )
-        head = f',"equation":{eq},"length":'
+        """:meth:`plain` of the models of ``scheme`` with each equation, grid, step and
+        tolerance, as canonical JSON (sorted keys, no spaces), written without making the models
+        (a sweep with an automatic step has a model per run); each equation written once."""
+        written: dict[int, tuple[Equation, str]] = {}
+        out = []
         tail = f',"scheme":{json.dumps(scheme)},"tol":'
-        return [
-            f'{{"dt":{dt!r}{head}{grid.length!r},"n":{grid.n}{tail}'
-            f"{'null' if tol is None else repr(tol)}}}"
-            for grid, dt, tol in zip(grids, dts, tols, strict=True)
-        ]
+        for equation, grid, dt, tol in zip(equations, grids, dts, tols, strict=True):
+            held = written.get(id(equation))
+            if held is None:
+                plain = {"name": equation.name, **equation.core_fields()}
+                text = json.dumps(plain, sort_keys=True, separators=(",", ":"), allow_nan=False)
+                held = written[id(equation)] = (equation, text)
+            out.append(
+                f'{{"dt":{dt!r},"equation":{held[1]},"length":{grid.length!r},"n":{grid.n}'
+                f"{tail}{'null' if tol is None else repr(tol)}}}"
+            )
+        return out
 
 
 @dataclass(frozen=True)
