@@ -52,12 +52,24 @@ from .template import (
 FORMAT = 1
 
 
-def _system(tpl: Template, ctx: _Block) -> physunits.System | None:
-    """The physical system of one run (``[units]``), its keys evaluated; ``None`` without it."""
+def _systems(tpl: Template, blk: _Block) -> tuple[list[physunits.System | None], np.ndarray]:
+    """The physical system of every run (``[units]``; ``[None]`` without it): one object per
+    distinct set of its keys' values, and each run's index into them."""
     if tpl.units is None:
-        return None
+        return [None], np.zeros(len(blk), dtype=np.int64)
+    values = {key: blk.num(slot) for key, slot in tpl.units[1].items()}
+    first, inverse = _unique_rows(*values.values())
+    systems: list[physunits.System | None] = [
+        _system(tpl, blk, r, {key: float(v[r]) for key, v in values.items()})
+        for r in first.tolist()
+    ]
+    return systems, inverse
+
+
+def _system(tpl: Template, blk: _Block, i: int, values: dict[str, float]) -> physunits.System:
+    """The physical system of run ``i`` of ``blk``, its keys' ``values`` evaluated."""
+    assert tpl.units is not None
     name, slots = tpl.units
-    values = {key: ctx.num1(slot) for key, slot in slots.items()}
     try:
         return physunits.make_system(name, values)
     except physunits.ParameterError as err:
@@ -65,10 +77,12 @@ def _system(tpl: Template, ctx: _Block) -> physunits.System | None:
         shown = describe(err.given if slot is None else slot.given)
         if slot is not None and slot.expr is not None:
             shown += f" (= {err.given!r})"
-        raise ctx.src.error(f"units.{err.key}", f"{shown} in {ctx.label}", err.expected) from None
+        raise blk.src.error(
+            f"units.{err.key}", f"{shown} in {blk.label_of(i)}", err.expected
+        ) from None
     except ConfigError as err:  # a system whose coefficients are not finite numbers
-        raise ctx.src.error(
-            "units", f"{values} in {ctx.label}", f"a valid system ({err})"
+        raise blk.src.error(
+            "units", f"{values} in {blk.label_of(i)}", f"a valid system ({err})"
         ) from None
 
 
@@ -304,28 +318,22 @@ class LoadWarnings:
         return tuple(out)
 
 
-#: The coefficients that decide a soliton form and the dealiasing: runs that share them are
-#: evaluated together even when their other coefficients (``f``, ``g``, ``v``) differ.
-_FORM_KEYS = ("a", "b", "d", "dealias")
-
-
 def _equations(
-    tpl: Template, blk: _Block, system: physunits.System | None
+    tpl: Template, blk: _Block, systems: list[physunits.System | None], system_of: np.ndarray
 ) -> tuple[list[Equation], np.ndarray]:
-    """The equation of every run of ``blk`` (which share their text values and system): one
-    object per distinct set of coefficients, and each run's index into them."""
+    """The equation of every run of ``blk`` (which share their text values; run ``i``'s system
+    is ``systems[system_of[i]]``): one object per distinct system and set of coefficients, and
+    each run's index into them."""
     spec = tpl.equation
     slots = (
         {k: v for k, v in spec.items() if isinstance(v, NumSlot)} if isinstance(spec, dict) else {}
     )
     values = {k: blk.num(v) for k, v in slots.items()}
-    if values:
-        first, inverse = _unique_rows(*values.values())
-    else:
-        first, inverse = np.zeros(1, dtype=np.int64), np.zeros(len(blk), dtype=np.int64)
+    first, inverse = _unique_rows(system_of, *values.values())
     equations = []
     for r in first.tolist():
         coefs = {k: float(v[r]) for k, v in values.items()}
+        system = systems[int(system_of[r])]
         if system is not None:
             equations.append(_units_equation(tpl, blk, r, coefs, system))
         else:
@@ -509,28 +517,20 @@ def _expand_block(tpl: Template, blk: _Block, warn: LoadWarnings) -> list[_Part]
     texts = [blk.env[name] for name in tpl.parameters if tpl.kinds[name] == "text"]
     for where in _groups(texts, len(blk)):
         sub = blk.take(where)
-        keys = []
-        if tpl.units is not None:
-            keys += [sub.num(slot) for slot in tpl.units[1].values()]
-        if isinstance(tpl.equation, dict):
-            keys += [
-                sub.num(slot)
-                for key, slot in tpl.equation.items()
-                if key in _FORM_KEYS and isinstance(slot, NumSlot)
-            ]
-        for inner in _groups(keys, len(sub)):
-            group = sub.take(inner)
-            system = _system(tpl, group.one(0))
-            equations, index = _equations(tpl, group, system)
-            forms = {(e.a, e.b, e.d, e.dealias_fraction) for e in equations}
-            # one soliton form and dealiasing per group (a check: the keys above decide them)
-            pieces = [np.arange(len(group))] if len(forms) == 1 else _groups([index], len(group))
-            for piece in pieces:
-                part = _expand_uniform(
-                    tpl, group.take(piece), warn, system, equations, index[piece]
-                )
-                part.where = where[inner[piece]]
-                parts.append(part)
+        systems, system_of = _systems(tpl, sub)
+        equations, eq_of = _equations(tpl, sub, systems, system_of)
+        # one group per soliton form and dealiasing: runs whose equations differ only in f, g, v,
+        # or whose physical systems differ only in their scales, are evaluated together
+        forms: dict[tuple[float, ...], int] = {}
+        form_of = np.array(
+            [forms.setdefault((e.a, e.b, e.d, e.dealias_fraction), len(forms)) for e in equations]
+        )
+        for inner in _groups([form_of[eq_of]], len(sub)):
+            part = _expand_uniform(
+                tpl, sub.take(inner), warn, systems, system_of[inner], equations, eq_of[inner]
+            )
+            part.where = where[inner]
+            parts.append(part)
     return parts
 
 
@@ -591,7 +591,7 @@ def _soliton_runs(
     perturbed: np.ndarray,
     scheme: str,
     dt: np.ndarray,
-    scales: physunits.Scales | None,
+    scales: list[physunits.Scales] | None,
 ) -> _Sized:
     """Solitons of a group of runs: their kappas, polarities and positions, the end and the box
     (given or automatic, :mod:`kdvsweep.sweep.sizing`), checked. ``eq``: an equation of the runs
@@ -643,7 +643,10 @@ def _soliton_runs(
             if scales is not None:  # metres (at t = 0 the run's frame and the lab's agree)
                 dim = physunits.INITIAL_DIMENSIONS["position"]
                 x = np.array(
-                    [canonical(physunits.to_canonical(p, dim, scales)) for p in x.tolist()]
+                    [
+                        canonical(physunits.to_canonical(p, dim, scale))
+                        for p, scale in zip(x.tolist(), scales, strict=True)
+                    ]
                 )
             cols.append(x)
         positions = np.stack(cols, axis=1)
@@ -740,7 +743,7 @@ def _profile_runs(
     equations: list[Equation],
     eq_of: np.ndarray,
     scheme: str,
-    scales: physunits.Scales | None,
+    scales: list[physunits.Scales] | None,
 ) -> _Sized:
     """Data other than solitons of a group of runs (profiles, files, exact waves): the data,
     their end and box (given, or sized from their predicted solitons), checked; run ``i``'s
@@ -780,8 +783,8 @@ def _profile_runs(
                     dim = physunits.INITIAL_DIMENSIONS[key]
                     values[key] = np.array(
                         [
-                            canonical(physunits.to_canonical(v, dim, scales))
-                            for v in values[key].tolist()
+                            canonical(physunits.to_canonical(v, dim, scale))
+                            for v, scale in zip(values[key].tolist(), scales, strict=True)
                         ]
                     )
         if "edge" in values:
@@ -863,15 +866,20 @@ def _expand_uniform(
     tpl: Template,
     blk: _Block,
     warn: LoadWarnings,
-    system: physunits.System | None,
+    systems: list[physunits.System | None],
+    system_of: np.ndarray,
     equations: list[Equation],
     eq_of: np.ndarray,
 ) -> _Part:
-    """The runs of ``blk``, which share their text values, system and soliton form: run ``i``'s
-    equation is ``equations[eq_of[i]]`` (they differ at most in ``f``, ``g``, ``v``)."""
+    """The runs of ``blk``, which share their text values and soliton form: run ``i``'s
+    equation is ``equations[eq_of[i]]`` (they differ at most in ``f``, ``g``, ``v``), its
+    physical system ``systems[system_of[i]]`` (they differ at most in their scales)."""
     m = len(blk)
     eq = equations[int(eq_of[0])]  # its soliton form, dealiasing, a and b are every run's
-    scales = None if system is None else system.scales()
+    scales: list[physunits.Scales] | None = None  # of each run, with [units]
+    if tpl.units is not None:
+        each = [system.scales() for system in systems if system is not None]
+        scales = [each[k] for k in system_of.tolist()]
     scheme = blk.text(tpl.scheme, SCHEMES)
     if scheme != ADAPTIVE and not tpl.dt_auto:
         if tpl.dt is None:  # a sweep file names the step of a fixed-step scheme
@@ -980,18 +988,23 @@ def _expand_uniform(
                 f"{scheme}: dt = {float(dt[over[i]]):g}; use dt <= {float(limit[over[i]]):.3g}"
             ),
         )
-    if system is not None and scales is not None:
+    if scales is not None:
         for i in range(m):
+            system = systems[int(system_of[i])]
+            assert system is not None
             width = narrowest[i] if soliton else min(narrowest[i], _profile_width(initials[i]))
-            _check_units(blk.one(i), warn, system, scales, float(max_u[i]), float(width))
-    return _Part(tpl, blk, equations, eq_of, system, scheme, dt, tol, grids, grid_of, sized)
+            _check_units(blk.one(i), warn, system, scales[i], float(max_u[i]), float(width))
+    return _Part(
+        tpl, blk, equations, eq_of, systems, system_of, scheme, dt, tol, grids, grid_of, sized
+    )
 
 
 def _solitons(
-    tpl: Template, blk: _Block, eq: Equation, units: physunits.Scales | None = None
+    tpl: Template, blk: _Block, eq: Equation, units: list[physunits.Scales] | None = None
 ) -> tuple[SolitonForm, np.ndarray, np.ndarray]:
     """Soliton form, kappas and signs (runs by solitons) of a soliton initial datum (``units``:
-    ``[units]``, whose amplitudes and laboratory speeds are converted here)."""
+    each run's scales with ``[units]``, whose amplitudes and laboratory speeds are converted
+    here)."""
     spec = tpl.initial
     size = spec["size"]
     m = len(blk)
@@ -1024,7 +1037,17 @@ def _solitons(
         if units is not None or size != "kappa":
             values = np.array(
                 [
-                    _soliton_size(tpl, blk, i, slot, form, eq, units, v, int(signs[i, j]))
+                    _soliton_size(
+                        tpl,
+                        blk,
+                        i,
+                        slot,
+                        form,
+                        eq,
+                        None if units is None else units[i],
+                        v,
+                        int(signs[i, j]),
+                    )
                     for i, v in enumerate(values.tolist())
                 ]
             )
@@ -1522,7 +1545,8 @@ class _Part:
         blk: _Block,
         equations: list[Equation],
         eq_of: np.ndarray,
-        system: physunits.System | None,
+        systems: list[physunits.System | None],
+        system_of: np.ndarray,
         scheme: str,
         dt: np.ndarray,
         tol: np.ndarray | None,
@@ -1533,7 +1557,7 @@ class _Part:
         self.ids = blk.ids
         #: positions of these runs in the block (set by :func:`_expand_block`)
         self.where = np.arange(len(blk))
-        self.system = system
+        self.systems, self.system_of = systems, system_of
         #: profile data: one per run; solitons: none (``kappas``, ``positions``, ``signs``)
         self.initials = sized.initials
         self.kappas, self.positions, self.signs = sized.kappas, sized.positions, sized.signs
@@ -1591,7 +1615,7 @@ class _Part:
             self.model(int(self.model_of[j])),
             self.initial(j),
             self.settings[self.settings_of[j]],
-            self.system,
+            self.systems[int(self.system_of[j])],
         )
 
     def jsons(self, params: list[str], cache: dict[int, tuple[object, str]]) -> list[str]:
@@ -1628,17 +1652,21 @@ class _Part:
                     strict=True,
                 )
             ]
-        units = "" if self.system is None else ',"units":' + _plain_json(self.system.plain())
+        units = [
+            "" if system is None else ',"units":' + _plain_json(system.plain())
+            for system in self.systems
+        ]
         # the keys of RunSpec.plain in sorted order, as json.dumps(sort_keys=True) writes them
         return [
             f'{{"initial":{i},"model":{models[mo]},"params":{p},"run":{settings[so]},'
-            f'"run_id":{run_id}{units}}}'
-            for i, mo, p, so, run_id in zip(
+            f'"run_id":{run_id}{units[sy]}}}'
+            for i, mo, p, so, run_id, sy in zip(
                 initials,
                 self.model_of.tolist(),
                 params,
                 self.settings_of.tolist(),
                 self.ids.tolist(),
+                self.system_of.tolist(),
                 strict=True,
             )
         ]
