@@ -408,8 +408,12 @@ class SolitonForm:
         asked once per soliton and polarity."""
         out = np.empty(kappas.shape, dtype=np.float64)
         for j in range(kappas.shape[1]):
-            for s in np.unique(signs[:, j]).tolist():
-                sel = signs[:, j] == s
+            column = signs[:, j]
+            if len(column) and bool(np.all(column == column[0])):  # one polarity: one call
+                out[:, j] = value(kappas[:, j], int(column[0]))
+                continue
+            for s in np.unique(column).tolist():
+                sel = column == s
                 out[sel, j] = value(kappas[sel, j], int(s))
         return out
 

@@ -221,6 +221,8 @@ def _first(bad: ArrayLike) -> int | None:
 def _canonical(values: np.ndarray) -> np.ndarray:
     """:func:`canonical` of every value (12 significant digits), rounded once per distinct
     value."""
+    if values.size == 1:
+        return np.full(values.shape, canonical(float(values.reshape(-1)[0])))
     distinct, inverse = np.unique(values, return_inverse=True)
     rounded = np.array([canonical(v) for v in distinct.tolist()], dtype=np.float64)
     return rounded[inverse.reshape(values.shape)]
@@ -255,6 +257,8 @@ def _groups(keys: Sequence[np.ndarray], size: int) -> list[np.ndarray]:
 def _unique_rows(*columns: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """``(first, inverse)``: the position of each distinct row of ``columns`` (float64 arrays of
     one length) and each position's row index among them."""
+    if len(columns[0]) == 1:  # a run alone: one row
+        return np.zeros(1, dtype=np.int64), np.zeros(1, dtype=np.int64)
     table = np.stack([np.asarray(c, dtype=np.float64) for c in columns], axis=1)
     _, first, inverse = np.unique(table, axis=0, return_index=True, return_inverse=True)
     return first, inverse.reshape(-1)
@@ -841,6 +845,9 @@ def _profile_runs(
 
 def _each(index: np.ndarray) -> Iterator[tuple[int, np.ndarray]]:
     """``(k, positions)`` for each value ``k`` of ``index`` (the positions where it is, ascending)."""
+    if len(index) == 1:
+        yield int(index[0]), np.zeros(1, dtype=np.int64)
+        return
     order = np.argsort(index, kind="stable")
     for positions in np.split(order, np.flatnonzero(np.diff(index[order])) + 1):
         if len(positions):
@@ -878,7 +885,12 @@ def _expand_uniform(
     eq = equations[int(eq_of[0])]  # its soliton form, dealiasing, a and b are every run's
     scales: list[physunits.Scales] | None = None  # of each run, with [units]
     if tpl.units is not None:
-        each = [system.scales() for system in systems if system is not None]
+        each: dict[int, physunits.Scales] = {}
+        for k in system_of.tolist():
+            if k not in each:
+                system = systems[k]
+                assert system is not None
+                each[k] = system.scales()
         scales = [each[k] for k in system_of.tolist()]
     scheme = blk.text(tpl.scheme, SCHEMES)
     if scheme != ADAPTIVE and not tpl.dt_auto:
@@ -902,7 +914,7 @@ def _expand_uniform(
 
     soliton = tpl.kind in ("solitons", "multisoliton")
     if soliton:
-        perturbed = np.array([e.perturbed for e in equations])[eq_of]
+        perturbed = np.array([equations[k].perturbed for k in eq_of.tolist()])
         sized = _soliton_runs(tpl, blk, warn, eq, perturbed, scheme, dt, scales)
     else:
         sized = _profile_runs(tpl, blk, warn, equations, eq_of, scheme, scales)
@@ -1652,10 +1664,11 @@ class _Part:
                     strict=True,
                 )
             ]
-        units = [
-            "" if system is None else ',"units":' + _plain_json(system.plain())
-            for system in self.systems
-        ]
+        units: dict[int, str] = {}
+        for k in self.system_of.tolist():
+            if k not in units:
+                system = self.systems[k]
+                units[k] = "" if system is None else ',"units":' + _plain_json(system.plain())
         # the keys of RunSpec.plain in sorted order, as json.dumps(sort_keys=True) writes them
         return [
             f'{{"initial":{i},"model":{models[mo]},"params":{p},"run":{settings[so]},'
@@ -1678,6 +1691,9 @@ def _json_rows(table: np.ndarray, write: Callable[[Any], str]) -> list[str]:
     cols = []
     for j in range(table.shape[1]):
         col = np.ascontiguousarray(table[:, j])
+        if len(col) == 1:
+            cols.append([write(col[0].item())])
+            continue
         _, first, inverse = np.unique(col.view(np.int64), return_index=True, return_inverse=True)
         written = np.array([write(v) for v in col[first].tolist()], dtype=object)
         cols.append(written[inverse.reshape(-1)].tolist())
