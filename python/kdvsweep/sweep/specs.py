@@ -13,6 +13,8 @@ from .. import units as physunits
 from ..model import Equation, Grid
 from .space import Value
 
+#: Default ``sizing.tail``: the relative tail height at which solitons count as apart
+#: (:mod:`kdvsweep.sweep.sizing`).
 DEFAULT_TAIL = 1e-8
 
 #: Default ``run.drift_limit``: the residual of the momentum balance (``momentum_residual``, the

@@ -1,6 +1,6 @@
-"""The template of a sweep file: every key read and checked once, numbers and expressions as slots
-(:class:`NumSlot`, :class:`TextSlot`) that :mod:`kdvsweep.sweep.expand` evaluates for each run, and the
-limits a sweep file may ask for (README, "Sweep files")."""
+"""The template of a sweep file: every key read and checked once, numbers and expressions as
+slots (:class:`NumSlot`, :class:`TextSlot`) that :mod:`kdvsweep.sweep.expand` evaluates for each
+run, and the limits a sweep file may ask for (README, "Sweep files")."""
 
 from __future__ import annotations
 
