@@ -97,7 +97,7 @@ def load_sweep(path: str | Path) -> Sweep:
         tpl.sizing_given
         and tpl.length is not None
         and tpl.end is not None
-        and tpl.kind in ("solitons", "multisoliton")
+        and tpl.soliton_data
         and tpl.initial.get("position") != "auto"
     ):
         warn.note("sizing", "unused: no 'auto' length, end or position")
@@ -120,8 +120,8 @@ def load_sweep(path: str | Path) -> Sweep:
         warnings=warn.messages(),
         layout=Layout(
             parameters=tpl.kinds,
-            analysis=tpl.kind in ("solitons", "multisoliton"),
-            content=has_content(tpl.predict_content, tpl.kind in ("solitons", "multisoliton")),
+            analysis=tpl.soliton_data,
+            content=has_content(tpl.predict_content, tpl.soliton_data),
             units=None if tpl.units is None else tpl.units[0],
         ),
     )

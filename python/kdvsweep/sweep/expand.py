@@ -912,7 +912,7 @@ def _expand_uniform(
         )
     dt, tol = _step_options(blk, tpl, scheme, given_dt, given_tol)
 
-    soliton = tpl.kind in ("solitons", "multisoliton")
+    soliton = tpl.soliton_data
     if soliton:
         perturbed = np.array([equations[k].perturbed for k in eq_of.tolist()])
         sized = _soliton_runs(tpl, blk, warn, eq, perturbed, scheme, dt, scales)
@@ -1584,7 +1584,7 @@ class _Part:
         self.dts = dt[first].tolist()
         self.tols = [None] * len(first) if tol is None else tol[first].tolist()
         verify = np.isin(blk.ids, tpl.verified_ids)
-        soliton = tpl.kind in ("solitons", "multisoliton")
+        soliton = tpl.soliton_data
         first, self.settings_of = _unique_rows(t_end, verify)
         self.settings = [
             _make_settings(
@@ -1725,7 +1725,7 @@ class Runs(Sequence[RunSpec]):
         self._src = src
         self._tpl = tpl
         self._space = space
-        self._block = self.BLOCK if tpl.kind in ("solitons", "multisoliton") else self.PROFILE_BLOCK
+        self._block = self.BLOCK if tpl.soliton_data else self.PROFILE_BLOCK
         assert self._block & (self._block - 1) == 0  # a power of two
         self._ramp = self._block.bit_length()  # blocks of the first self._block runs
         #: block -> its parts, and each position's part and index in it

@@ -31,6 +31,8 @@ PROVISIONAL_POINTS = 2048
 #: problem is several times smaller than at the measurement's 1e-8.
 SIZING_TOL = 1e-5
 PRESETS = ("kdv", "kdv-", "mkdv", "mkdv-", "gardner")
+#: Initial data made of solitons (the collision analysis runs on them; other data are profiles).
+SOLITON_KINDS = ("solitons", "multisoliton")
 
 _TOP = ("sweep", "model", "initial", "run", "vary", "derive", "sizing", "units", "accuracy")
 _SWEEP = ("name", "note")
@@ -231,6 +233,11 @@ class Template:
     #: Predicted content of each distinct profile (sizing), by the profile's plain form.
     content_cache: dict[str, Any] = field(default_factory=dict)
 
+    @property
+    def soliton_data(self) -> bool:
+        """Whether the initial data are solitons (:data:`SOLITON_KINDS`)."""
+        return self.kind in SOLITON_KINDS
+
 
 def read_template(src: Source, doc: dict[str, Any], base: Path, stem: str) -> Template:
     """The template of the TOML document ``doc`` (``base``: the sweep file's folder, ``stem``:
@@ -316,7 +323,7 @@ def read_template(src: Source, doc: dict[str, Any], base: Path, stem: str) -> Te
     elif not is_finite(drift_limit) or drift_limit <= 0:
         raise run.fail("drift_limit", drift_limit, "a positive number, or false for no check")
     max_amplitude = run.number("max_amplitude", default=None, positive=True)
-    soliton_data = kind in ("solitons", "multisoliton")
+    soliton_data = kind in SOLITON_KINDS
     predict_content = run.flag("predict_content", default=not soliton_data)
 
     stab = Table(src, top.raw("sizing", {}), "sizing", _SIZING)
@@ -467,7 +474,7 @@ def _read_equation(
 
 def _read_initial(src: Source, tab: Table, kind: str, names: _Names, base: Path) -> dict[str, Any]:
     out: dict[str, Any] = {}
-    if kind in ("solitons", "multisoliton"):
+    if kind in SOLITON_KINDS:
         given = [k for k in _SOLITON_SIZES if tab.has(k)]
         if len(given) != 1:
             shown = ", ".join(given) if given else "none of them"
