@@ -951,14 +951,15 @@ def _expand_uniform(
         n = _given_points(blk, tpl, scheme)
     grids, grid_of = _grids(blk, n, length)
     dx = length / n
+    # each fixed-step scheme's measured stable step (inf for the adaptive scheme, and for no data)
+    limit = _dt_limits(scheme, max_u, equations, eq_of, dx)
     if tpl.dt_auto and scheme != ADAPTIVE and soliton:  # needs the grid: the stable step
         target = acc.DEFAULT_AUTO_TARGET if tpl.target is None else tpl.target
-        limits = _dt_limits(scheme, max_u, equations, eq_of, dx)
         dt = np.array(
             [
                 acc.auto_dt(scheme, target, acc.soliton_rate(eq.a, eq.b, u, w), lim)
                 for u, w, lim in zip(
-                    max_u.tolist(), narrowest.tolist(), limits.tolist(), strict=True
+                    max_u.tolist(), narrowest.tolist(), limit.tolist(), strict=True
                 )
             ]
         )
@@ -978,28 +979,19 @@ def _expand_uniform(
     if resolved.any():
         _check_resolution(blk, warn, narrowest, n, length, dealias, tpl.points is None, resolved)
     if not soliton:  # any other data: their own spectrum
+        auto = tpl.points is None
         for i, initial in enumerate(initials):
-            auto = tpl.points is None
             one = blk.one(i)
             _check_spectrum(one, warn, initial, grids[grid_of[i]], equations[eq_of[i]], auto)
     _check_scales(blk, tpl, equations, eq_of, dx, dt, max_u, dealias)
-    # each fixed-step scheme's measured rule (the adaptive scheme picks its step)
-    positive = max_u > 0
-    if positive.any():
-        limit = np.full(m, math.inf)
-        limit[positive] = _dt_limits(
-            scheme, max_u[positive], equations, eq_of[positive], dx[positive]
-        )
-        over = np.flatnonzero(dt > limit)
-        warn.add_many(
-            "model.dt",
-            "exceed the measured stable step of their scheme (kdvsweep.simulation.STEP_RULE)",
-            blk.ids[over],
-            dt[over] / limit[over],
-            lambda i: (
-                f"{scheme}: dt = {float(dt[over[i]]):g}; use dt <= {float(limit[over[i]]):.3g}"
-            ),
-        )
+    over = np.flatnonzero(dt > limit)
+    warn.add_many(
+        "model.dt",
+        "exceed the measured stable step of their scheme (kdvsweep.simulation.STEP_RULE)",
+        blk.ids[over],
+        dt[over] / limit[over],
+        lambda i: f"{scheme}: dt = {float(dt[over[i]]):g}; use dt <= {float(limit[over[i]]):.3g}",
+    )
     if scales is not None:
         for i in range(m):
             system = systems[int(system_of[i])]
